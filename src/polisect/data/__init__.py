@@ -1,0 +1,1 @@
+"""Data files shipped with polisect (the built-in material library)."""
