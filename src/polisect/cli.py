@@ -1,0 +1,227 @@
+"""Command-line front end: ``polisect analyze | batch | compare | demo | materials | estimate |
+bench``.
+
+Exit codes: 0 success; 2 bad input (one line naming the input and what to fix, no
+traceback); 1 internal error.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import sys
+import time
+import traceback
+
+from . import __version__
+from .errors import InputError
+
+EXIT_OK, EXIT_INTERNAL, EXIT_INPUT = 0, 1, 2
+
+
+class _Progress:
+    """Progress lines on stderr (silent with --quiet)."""
+
+    def __init__(self, quiet: bool):
+        self.quiet = quiet
+        self.t0 = time.perf_counter()
+
+    def __call__(self, message: str) -> None:
+        if not self.quiet:
+            print(f"[{time.perf_counter() - self.t0:6.1f} s] {message}", file=sys.stderr,
+                  flush=True)
+
+
+def _add_analyze(sub):
+    p = sub.add_parser("analyze", help="analyse one section image",
+                       description="Analyse one polished-section image: phase map, fractions "
+                       "with confidence, particles, effective properties, bounds, report.")
+    p.add_argument("image", help="image file (TIFF, PNG, JPEG, BMP)")
+    p.add_argument("--config", help="run configuration (TOML)")
+    p.add_argument("--out", default="polisect-out", help="output folder (default: polisect-out)")
+    p.add_argument("--json", metavar="FILE", help="also write the result JSON here ('-' = stdout)")
+    p.add_argument("--classes", type=int, help="number of grey-level classes (multi-Otsu)")
+    p.add_argument("--assign", help="materials per class, e.g. 0=air,1=alumina,2=zirconia")
+    p.add_argument("--pixel-size", type=float, metavar="UM", help="pixel size in µm")
+    p.add_argument("--kind", choices=("grayscale", "labels", "palette"), help="[image] kind")
+    p.add_argument("--quiet", action="store_true", help="no progress messages")
+    p.set_defaults(run=_run_analyze)
+
+
+def _run_analyze(args) -> int:
+    from .config import load_config, quick_config
+    from .pipeline import analyze, write_outputs
+
+    progress = _Progress(args.quiet)
+    cfg = load_config(args.config) if args.config else None
+    if any(v is not None for v in (args.classes, args.assign, args.kind)) or cfg is None:
+        cfg = quick_config(classes=args.classes, assign=args.assign, kind=args.kind, base=cfg)
+    analysis = analyze(args.image, cfg, pixel_size_um=args.pixel_size, progress=progress)
+    progress("writing outputs")
+    paths = write_outputs(analysis, args.out, config=cfg)
+    _emit_json(args.json, analysis.result.to_json())
+    if not args.quiet:
+        _summary(analysis.result, paths)
+    return EXIT_OK
+
+
+def _summary(result, paths) -> None:
+    d = result.to_dict()
+    lines = [f"{d['source']['path']}: {' × '.join(map(str, d['source']['shape']))} px"]
+    for p in d["phases"]:
+        lo, hi = p["fraction_ci95"]
+        lines.append(f"  {p['name']:<18} fraction {p['fraction']:.4f}  (95 % {lo:.4f}–{hi:.4f})")
+    eff = d.get("effective") or {}
+    if eff.get("conductivity"):
+        lines.append(f"  conductivity      {eff['conductivity']['mean_W_mK']:.4g} W/(m·K)")
+    if eff.get("elasticity"):
+        el = eff["elasticity"]
+        lines.append(f"  Young's modulus   {el['youngs_modulus_GPa']:.4g} GPa, "
+                     f"Poisson's ratio {el['poisson_ratio']:.3f}")
+    if eff.get("expansion"):
+        lines.append(f"  expansion         {eff['expansion']['mean_per_K'] * 1e6:.4g} ×10⁻⁶/K")
+    if eff:
+        lines.append(f"  ({eff.get('model', '')})")
+    for w in d["warnings"]:
+        lines.append(f"  warning: {w}")
+    lines.append(f"  report: {paths.report}")
+    lines.append(f"  json:   {paths.json}")
+    print("\n".join(lines), file=sys.stderr)
+
+
+def _emit_json(target, text) -> None:
+    if not target:
+        return
+    if target == "-":
+        sys.stdout.write(text + "\n")
+    else:
+        from .atomic import atomic_write_text
+        atomic_write_text(target, text + "\n")
+
+
+def _add_demo(sub):
+    p = sub.add_parser("demo", help="run the built-in demo sections",
+                       description="Analyse the built-in demo sections (a fictional supplier's "
+                       "two product lines) and write their reports.")
+    p.add_argument("--out", default="polisect-demo", help="output folder (default: polisect-demo)")
+    p.add_argument("--quiet", action="store_true")
+    p.set_defaults(run=_run_demo)
+
+
+def _run_demo(args) -> int:
+    from .config import load_config
+    from .pipeline import analyze, write_outputs
+    from .samples import demo_sections
+
+    progress = _Progress(args.quiet)
+    written = []
+    for section in demo_sections():
+        progress(f"demo: {section.title}")
+        cfg = load_config(section.config)
+        analysis = analyze(section.image, cfg, progress=progress)
+        paths = write_outputs(analysis, os.path.join(args.out, section.group), config=cfg)
+        written.append((section.title, paths.report))
+    print("Demo reports (fictional Kestrel Foundry Supply sections):")
+    for title, path in written:
+        print(f"  {title:<48} {os.path.abspath(path)}")
+    return EXIT_OK
+
+
+def _add_materials(sub):
+    p = sub.add_parser("materials", help="list the built-in material library")
+    p.add_argument("--json", action="store_true", help="print the library as JSON")
+    p.set_defaults(run=_run_materials)
+
+
+def _run_materials(args) -> int:
+    from .materials import describe_library, library
+
+    if args.json:
+        print(json.dumps({k: m.to_dict() for k, m in library().items()}, indent=2))
+    else:
+        print(describe_library())
+    return EXIT_OK
+
+
+def _add_estimate(sub):
+    p = sub.add_parser("estimate", help="bounds and mean-field estimates without an image",
+                       description="Analytical bounds and mean-field estimates from phase "
+                       "fractions alone.")
+    p.add_argument("--phase", action="append", required=True, metavar="SPEC",
+                   help="NAME:FRACTION (library material) or NAME:FRACTION:k=..,E=..,nu=..,"
+                        "alpha=.. ; repeat for every phase")
+    p.add_argument("--matrix", help="the matrix phase for Mori–Tanaka (default: largest)")
+    p.add_argument("--2d", dest="two_d", action="store_true",
+                   help="2D: circular cylinders, transverse plane")
+    p.add_argument("--hollow", action="append", default=[], metavar="NAME:RATIO",
+                   help="an inclusion phase is hollow with this inner/outer diameter ratio")
+    p.add_argument("--json", metavar="FILE", help="write JSON here ('-' = stdout)")
+    p.set_defaults(run=_run_estimate)
+
+
+def _run_estimate(args) -> int:
+    from .schemes import run_estimate
+
+    text = run_estimate(args.phase, args.matrix, args.two_d, args.hollow, args.json)
+    if text:
+        print(text)
+    return EXIT_OK
+
+
+def _add_bench(sub):
+    p = sub.add_parser("bench", help="measure solver and analysis speed",
+                       description="Benchmarks: prints a table of iterations, seconds, the FFT "
+                       "floor and peak memory per case.")
+    p.add_argument("--json", metavar="FILE", help="write the figures as JSON")
+    p.add_argument("--quick", action="store_true", help="small sizes (a smoke run)")
+    p.set_defaults(run=_run_bench)
+
+
+def _run_bench(args) -> int:
+    from .bench import format_table, run_bench
+
+    rows = run_bench(quick=args.quick, json_path=args.json)
+    print(format_table(rows))
+    return EXIT_OK
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="polisect",
+        description="Polished sections of composites to phase maps, particle statistics and "
+                    "effective properties with bounds and confidence.")
+    parser.add_argument("--version", action="version", version=f"polisect {__version__}")
+    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+    for add in (_add_analyze, _add_demo, _add_materials, _add_estimate, _add_bench):
+        add(sub)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Entry point of the ``polisect`` command."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        return args.run(args)
+    except InputError as exc:
+        print(f"polisect: error: {exc}", file=sys.stderr)
+        return EXIT_INPUT
+    except OSError as exc:
+        if exc.filename is None:
+            raise
+        print(f"polisect: error: {exc.filename}: {exc.strerror}; check the path and its "
+              "permissions", file=sys.stderr)
+        return EXIT_INPUT
+    except KeyboardInterrupt:
+        print("polisect: interrupted", file=sys.stderr)
+        return 130
+    except Exception:  # noqa: BLE001 - the last line of defence: report and exit 1
+        print("polisect: internal error (please report it with the traceback below)",
+              file=sys.stderr)
+        traceback.print_exc()
+        return EXIT_INTERNAL
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,234 @@
+"""`analyze`: one section (a file or an array) to a `Result`, and `write_outputs`.
+
+The pipeline is the only place that knows about every stage; each stage is a plain
+function over plain data (see DESIGN.md):
+
+    file → Micrograph → PhaseMap → fractions, particles, schemes, effective → Result
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import datetime as _dt
+import os
+import time
+from dataclasses import dataclass, field
+from typing import Callable
+
+import numpy as np
+
+from . import __version__
+from .config import Config
+from .errors import InputError
+from .image import Micrograph, read_image, to_grayscale
+from .materials import Material
+from .morphology import field_fractions
+from .phasemap import Phase, PhaseMap
+from .results import PhaseFraction, Result, Source
+
+Progress = Callable[[str], None]
+
+
+@dataclass(frozen=True, eq=False)
+class Analysis:
+    """A `Result` together with the arrays the report draws (never serialized)."""
+
+    result: Result
+    phasemap: PhaseMap
+    image: np.ndarray | None
+    segmentation_notes: tuple[str, ...] = ()
+    thresholds: tuple[float, ...] = ()
+    particle_rows: list = field(default_factory=list)
+    particle_detail: dict = field(default_factory=dict)
+    field_maps: dict = field(default_factory=dict)
+
+
+def analyze(source, config: Config | None = None, *, pixel_size_um: float | None = None,
+            progress: Progress | None = None) -> Analysis:
+    """Analyse one section.
+
+    Parameters
+    ----------
+    source : path or ndarray
+        An image file (TIFF, PNG, JPEG, BMP) or an array: a grey/RGB image, or a label
+        image when ``config.image.kind == "labels"``.
+    config : Config, optional
+        The run configuration (defaults: grayscale, multi-Otsu, no materials).
+    pixel_size_um : float, optional
+        Pixel size from the command line; overrides the config.
+    progress : callable, optional
+        Called with a short stage description as the analysis advances.
+
+    Returns
+    -------
+    Analysis
+        ``.result`` is the `Result`; the rest is for the report.
+    """
+    cfg = config or Config()
+    say = progress or (lambda msg: None)
+    timings: dict[str, float] = {}
+    warnings: list[str] = []
+    tick = time.perf_counter()
+
+    say("reading image")
+    micro = _micrograph(source, cfg, pixel_size_um)
+    timings["read"] = time.perf_counter() - tick
+
+    tick = time.perf_counter()
+    say("building the phase map")
+    labels, thresholds, seg_notes = _labels(micro, cfg)
+    phases = _phase_table(labels, cfg)
+    phasemap = PhaseMap(labels.astype(np.int32, copy=False), phases, micro.pixel_size_um)
+    timings["segment"] = time.perf_counter() - tick
+    if micro.pixel_size_um is None:
+        warnings.append("pixel size unknown: sizes are in pixels; give [image] pixel_size_um "
+                        "or --pixel-size, or use a TIFF with resolution tags")
+
+    tick = time.perf_counter()
+    say("measuring phase fractions")
+    estimates = field_fractions(phasemap.labels, [p.label for p in phases],
+                                n_fields=cfg.segment.fields)
+    fractions = tuple(
+        PhaseFraction(label=p.label, name=p.name, material=p.material.to_dict(),
+                      fraction=est.mean, fraction_ci95=(est.low, est.high),
+                      relative_accuracy_pct=est.relative_accuracy_pct, fields=est.n_fields)
+        for p, est in ((p, estimates[p.label]) for p in phases))
+    timings["fractions"] = time.perf_counter() - tick
+
+    src = Source(path=micro.path, sha256=micro.sha256, shape=tuple(phasemap.shape),
+                 pixel_size_um=micro.pixel_size_um, pixel_size_from=micro.pixel_size_from,
+                 cropped_bottom_px=micro.cropped_bottom_px)
+    result = Result(source=src, phases=fractions, version=__version__,
+                    config_toml=cfg.raw, warnings=tuple(warnings + list(micro.notes)),
+                    timings_s=timings,
+                    created=_dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"))
+    grey = micro.data if micro.data.ndim == phasemap.ndim else None
+    return Analysis(result=result, phasemap=phasemap, image=grey if grey is not None
+                    else micro.data, segmentation_notes=tuple(seg_notes),
+                    thresholds=tuple(thresholds))
+
+
+def _micrograph(source, cfg: Config, pixel_size_um: float | None) -> Micrograph:
+    override = pixel_size_um if pixel_size_um is not None else cfg.image.pixel_size_um
+    if isinstance(source, np.ndarray):
+        return Micrograph.from_array(source, pixel_size_um=override,
+                                     pixel_size_from="command line" if pixel_size_um is not None
+                                     else ("config" if override is not None else "unknown"))
+    return read_image(source, crop_bottom_px=cfg.image.crop_bottom_px, pixel_size_um=override,
+                      pixel_size_from="command line" if pixel_size_um is not None else "config")
+
+
+def _labels(micro: Micrograph, cfg: Config):
+    from . import segment
+
+    kind = cfg.image.kind
+    data = micro.data
+    if kind == "labels":
+        if micro.is_rgb:
+            raise InputError(f"{micro.path or 'image'}: [image] kind = \"labels\" needs a "
+                             "single-channel integer label image, got RGB; use kind = "
+                             "\"palette\" for colour-coded maps")
+        if not np.issubdtype(data.dtype, np.integer):
+            if not np.all(np.equal(np.mod(data, 1), 0)):
+                raise InputError(f"{micro.path or 'image'}: [image] kind = \"labels\" needs "
+                                 "integer labels; this image has fractional values")
+            data = data.astype(np.int64)
+        return data, (), ["labels used as given"]
+    if kind == "palette":
+        res = segment.segment_palette(data, {p.label: p.color for p in cfg.phases},
+                                      tolerance=cfg.segment.color_tolerance)
+        return res.labels, (), list(res.notes)
+    grey = to_grayscale(data) if micro.is_rgb else data
+    seg = cfg.segment
+    classes = seg.classes
+    notes = []
+    if seg.method == "multi-otsu" and classes is None:
+        if cfg.phases:
+            classes = len(cfg.phases)
+            notes.append(f"classes = {classes}, one per [[phase]]")
+        else:
+            classes = segment.suggest_classes(grey)
+            notes.append(f"classes = {classes} suggested from the histogram; set [segment] "
+                         "classes or --classes to choose")
+    res = segment.segment_grayscale(grey, method=seg.method, classes=classes,
+                                    thresholds=seg.thresholds, denoise=seg.denoise,
+                                    denoise_px=seg.denoise_px, min_feature_px=seg.min_feature_px)
+    return res.labels, tuple(res.thresholds), notes + list(res.notes)
+
+
+def _phase_table(labels: np.ndarray, cfg: Config) -> tuple[Phase, ...]:
+    present = np.unique(labels).tolist()
+    if cfg.phases:
+        known = {p.label for p in cfg.phases}
+        missing = [v for v in present if v not in known]
+        if missing:
+            raise InputError(f"the phase map holds labels {missing} that no [[phase]] entry "
+                             f"describes (configured labels: {sorted(known)}); add a "
+                             "[[phase]] for each, or change [segment] classes")
+        return tuple(Phase(p.label, p.name, p.material, p.particles) for p in cfg.phases)
+    return tuple(Phase(v, f"phase-{v}", Material(name=f"phase-{v}", source="no material given"))
+                 for v in present)
+
+
+@dataclass(frozen=True)
+class Outputs:
+    """Paths of the files `write_outputs` wrote."""
+
+    json: str
+    csv: str
+    report: str
+    phasemap: str
+    overlay: str
+    particles_csv: str | None = None
+
+
+def write_outputs(analysis: Analysis, out_dir: str | os.PathLike, *, stem: str | None = None,
+                  config: Config | None = None) -> Outputs:
+    """Write the JSON, the headline CSV, the label TIFF, the overlay PNG and the HTML report.
+
+    Every file is written atomically: an interrupted run leaves no half-written output.
+    """
+    from . import report
+    from .atomic import atomic_write
+    from .results import write_csv, write_json
+
+    out_dir = os.fspath(out_dir)
+    os.makedirs(out_dir, exist_ok=True)
+    res = analysis.result
+    stem = stem or _stem(res.source.path)
+    base = os.path.join(out_dir, stem)
+    given = {p.label: p.color for p in config.phases} if config else {}
+    colors = report.phase_colors(analysis.phasemap.phases, given)
+    paths = Outputs(json=base + ".json", csv=base + ".csv", report=base + "_report.html",
+                    phasemap=base + "_phases.tif", overlay=base + "_overlay.png",
+                    particles_csv=base + "_particles.csv" if analysis.particle_rows else None)
+    analysis.phasemap.save(paths.phasemap)
+    atomic_write(paths.overlay, lambda tmp: _save_overlay(tmp, analysis, colors))
+    if paths.particles_csv:
+        write_csv(analysis.particle_rows, paths.particles_csv)
+    write_csv([res.headline()], paths.csv)
+    report.write_report(analysis, paths.report, colors)
+    write_json(res, paths.json)
+    return paths
+
+
+def _stem(path: str | None) -> str:
+    if not path:
+        return "section"
+    return os.path.splitext(os.path.basename(path))[0]
+
+
+def _save_overlay(tmp: str, analysis: Analysis, colors: dict[int, str]) -> None:
+    import imageio.v3 as iio
+    from matplotlib.colors import to_rgb
+
+    pm = analysis.phasemap
+    labels = pm.labels if pm.ndim == 2 else pm.labels[pm.shape[0] // 2]
+    rgb = np.zeros(labels.shape + (3,), dtype=np.float32)
+    for label, color in colors.items():
+        rgb[labels == label] = to_rgb(color)
+    img = analysis.image
+    if img is not None and img.ndim == 2 and img.shape == labels.shape:
+        g = (img - img.min()) / max(float(np.ptp(img)), 1e-12)
+        rgb = 0.45 * g[..., None] + 0.55 * rgb
+    iio.imwrite(tmp, (np.clip(rgb, 0, 1) * 255).astype(np.uint8), extension=".png")

@@ -1,0 +1,219 @@
+"""The HTML report: one self-contained file (figures embedded as PNG) an engineer can file.
+
+Each section is a small function ``section(analysis) -> str`` (empty when it has nothing
+to show); `html_report` joins them in order.
+"""
+
+from __future__ import annotations
+
+import base64
+import html
+import io
+import json
+
+import matplotlib
+
+matplotlib.use("Agg")
+import matplotlib.pyplot as plt  # noqa: E402
+import numpy as np  # noqa: E402
+from matplotlib.colors import ListedColormap  # noqa: E402
+
+from .atomic import atomic_write_text  # noqa: E402
+
+CAUTION = (
+    "These numbers are estimates computed from one image of one section. They are meant for "
+    "screening, ranking and comparing materials and batches, not as design values. Verify "
+    "them by measurement on the material itself, and follow local codes, applicable standards "
+    "and licensed engineering practice for any design or qualification decision."
+)
+
+PALETTE = ("#20304f", "#e0a030", "#3f9e74", "#c8553d", "#7b68b5", "#4fb0c6", "#d98cb3",
+           "#8c8c6a")
+
+PRISMATIC_NOTE = (
+    "A 2D section solved as a 2D problem describes a prismatic (columnar) structure: the "
+    "section extruded along the viewing direction, not the 3D particle composite. Expect the "
+    "stiffness to differ most from a 3D computation and the thermal expansion least."
+)
+
+
+def phase_colors(phases, given: dict[int, str | None] | None = None) -> dict[int, str]:
+    """label → colour: the colour given for a phase (``[[phase]] color``), else the palette."""
+    given = given or {}
+    return {p.label: given.get(p.label) or PALETTE[i % len(PALETTE)]
+            for i, p in enumerate(phases)}
+
+
+def html_report(analysis, colors: dict[int, str] | None = None) -> str:
+    """The report of one analysis as a self-contained HTML string."""
+    d = analysis.result.to_dict()
+    colors = colors or phase_colors(analysis.phasemap.phases)
+    body = "".join(s(analysis, d, colors) for s in SECTIONS)
+    title = html.escape(_title(d))
+    return f"""<!DOCTYPE html>
+<html lang="en"><head><meta charset="utf-8"><title>{title}</title>
+<meta name="viewport" content="width=device-width, initial-scale=1">
+<style>{_CSS}</style></head>
+<body><header><h1>{title}</h1>
+<p class="meta">polisect {html.escape(d['polisect_version'])} · {html.escape(d['created'])}</p>
+</header><main>{body}</main></body></html>
+"""
+
+
+def write_report(analysis, path, colors: dict[int, str] | None = None) -> None:
+    """Write the report atomically."""
+    atomic_write_text(path, html_report(analysis, colors))
+
+
+def _title(d) -> str:
+    path = d["source"]["path"]
+    name = path.replace("\\", "/").rsplit("/", 1)[-1] if path else "array input"
+    return f"Section report — {name}"
+
+
+def _caution(analysis, d, colors) -> str:
+    return f'<section class="caution"><strong>Caution.</strong> {html.escape(CAUTION)}</section>'
+
+
+def _source(analysis, d, colors) -> str:
+    s = d["source"]
+    px = (f"{s['pixel_size_um']:.4g} µm (from {s['pixel_size_from']})"
+          if s["pixel_size_um"] else "unknown — sizes in pixels")
+    rows = [("File", s["path"] or "array input"), ("SHA-256", s["sha256"] or "–"),
+            ("Shape (pixels)", " × ".join(str(n) for n in s["shape"])), ("Pixel size", px)]
+    if s["cropped_bottom_px"]:
+        rows.append(("Cropped at the bottom", f"{s['cropped_bottom_px']} rows (information band)"))
+    for note in analysis.segmentation_notes:
+        rows.append(("Segmentation", note))
+    if analysis.thresholds:
+        rows.append(("Thresholds", ", ".join(f"{t:.4g}" for t in analysis.thresholds)))
+    return "<section><h2>Section</h2>" + _table(rows) + "</section>"
+
+
+def _images(analysis, d, colors) -> str:
+    pm = analysis.phasemap
+    labels = pm.labels if pm.ndim == 2 else pm.labels[pm.shape[0] // 2]
+    figs = []
+    img = analysis.image
+    if img is not None:
+        img2 = img if img.ndim == 2 or (img.ndim == 3 and img.shape[-1] in (3, 4)) else img[0]
+        figs.append(("Micrograph", _png_image(img2)))
+    figs.append(("Phase map overlay", _overlay_png(img, labels, pm.phases, colors)))
+    cells = "".join(f'<figure><img alt="{html.escape(t)}" src="{u}"><figcaption>{html.escape(t)}'
+                    "</figcaption></figure>" for t, u in figs)
+    legend = "".join(f'<span class="swatch" style="background:{colors[p.label]}"></span>'
+                     f"{html.escape(p.name)} &nbsp; " for p in pm.phases)
+    return f'<section><h2>Phase map</h2><div class="figs">{cells}</div><p>{legend}</p></section>'
+
+
+def _fractions(analysis, d, colors) -> str:
+    rows = []
+    for p in d["phases"]:
+        lo, hi = p["fraction_ci95"]
+        ra = p["relative_accuracy_pct"]
+        rows.append((f'<span class="swatch" style="background:{colors[p["label"]]}"></span>'
+                     f'{html.escape(p["name"])}', str(p["label"]), html.escape(p["material"]["name"]),
+                     f"{p['fraction']:.4f}", f"{lo:.4f} – {hi:.4f}",
+                     "–" if ra is None else f"{ra:.1f} %"))
+    n = d["phases"][0]["fields"] if d["phases"] else 0
+    head = ("Phase", "Label", "Material", "Fraction", "95 % interval", "Relative accuracy")
+    return ("<section><h2>Phase fractions</h2>" + _grid(head, rows, raw=True)
+            + f"<p class=\"note\">Area fraction estimates volume fraction (Delesse, 1847). "
+            f"Interval from the field-to-field variation over {n} fields with Student t and n − 1 "
+            "degrees of freedom, as ASTM E562 does for point counts.</p></section>")
+
+
+def _warnings(analysis, d, colors) -> str:
+    if not d["warnings"]:
+        return ""
+    items = "".join(f"<li>{html.escape(w)}</li>" for w in d["warnings"])
+    return f'<section class="warn"><h2>Warnings</h2><ul>{items}</ul></section>'
+
+
+def _config(analysis, d, colors) -> str:
+    text = d["config"] or "# no config file: defaults and command-line options"
+    return f"<section><h2>Configuration used</h2><pre>{html.escape(text)}</pre></section>"
+
+
+def _raw_json(analysis, d, colors) -> str:
+    blob = html.escape(json.dumps(d, indent=1, allow_nan=False))
+    return ("<section><details><summary>Result record (JSON)</summary>"
+            f"<pre>{blob}</pre></details></section>")
+
+
+SECTIONS = [_caution, _source, _images, _fractions, _warnings, _config, _raw_json]
+
+
+def _table(rows) -> str:
+    body = "".join(f"<tr><th>{html.escape(str(k))}</th><td>{html.escape(str(v))}</td></tr>"
+                   for k, v in rows)
+    return f'<table class="kv">{body}</table>'
+
+
+def _grid(head, rows, raw=False) -> str:
+    esc = (lambda s: s) if raw else (lambda s: html.escape(str(s)))
+    h = "".join(f"<th>{html.escape(c)}</th>" for c in head)
+    b = "".join("<tr>" + "".join(f"<td>{esc(c)}</td>" for c in r) + "</tr>" for r in rows)
+    return f'<table class="grid"><thead><tr>{h}</tr></thead><tbody>{b}</tbody></table>'
+
+
+def figure_png(fig) -> str:
+    """A matplotlib figure as a ``data:`` URI (and close it)."""
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=110, bbox_inches="tight")
+    plt.close(fig)
+    return "data:image/png;base64," + base64.b64encode(buf.getvalue()).decode("ascii")
+
+
+def _png_image(img) -> str:
+    fig, ax = plt.subplots(figsize=(4.6, 4.6))
+    ax.imshow(img, cmap="gray", interpolation="nearest")
+    ax.set_axis_off()
+    return figure_png(fig)
+
+
+def _overlay_png(img, labels, phases, colors) -> str:
+    order = [p.label for p in phases]
+    lut = np.zeros(max(order) + 1, dtype=int)
+    lut[order] = np.arange(len(order))
+    cmap = ListedColormap([colors[v] for v in order])
+    fig, ax = plt.subplots(figsize=(4.6, 4.6))
+    if img is not None and img.ndim == 2 and img.shape == labels.shape:
+        ax.imshow(img, cmap="gray", interpolation="nearest")
+        ax.imshow(lut[labels], cmap=cmap, vmin=-0.5, vmax=len(order) - 0.5, alpha=0.55,
+                  interpolation="nearest")
+    else:
+        ax.imshow(lut[labels], cmap=cmap, vmin=-0.5, vmax=len(order) - 0.5,
+                  interpolation="nearest")
+    ax.set_axis_off()
+    return figure_png(fig)
+
+
+_CSS = """
+body{font-family:system-ui,-apple-system,"Segoe UI",Roboto,sans-serif;margin:0;color:#1d232b;
+background:#f6f5f1;line-height:1.45}
+header{background:#1f3a3d;color:#f6f5f1;padding:18px 32px}
+header h1{margin:0;font-size:1.45rem;font-weight:600}
+.meta{margin:4px 0 0;opacity:.8;font-size:.9rem}
+main{max-width:1100px;margin:0 auto;padding:12px 32px 48px}
+section{background:#fff;border:1px solid #dedbd2;border-radius:6px;padding:14px 20px;
+margin:16px 0}
+h2{font-size:1.1rem;margin:0 0 10px;color:#1f3a3d}
+h3{font-size:1rem;margin:14px 0 6px}
+.caution{background:#fff7e0;border-color:#e6c35c}
+.warn{background:#fdecea;border-color:#e3a39a}
+table{border-collapse:collapse;font-size:.92rem;margin:6px 0}
+.kv th{text-align:left;padding:3px 14px 3px 0;color:#4a5560;font-weight:500;vertical-align:top}
+.kv td{padding:3px 0;word-break:break-all}
+.grid th,.grid td{border-bottom:1px solid #e6e3da;padding:4px 10px;text-align:right}
+.grid th:first-child,.grid td:first-child{text-align:left}
+.grid thead th{background:#eef1ee}
+.figs{display:flex;flex-wrap:wrap;gap:16px}
+figure{margin:0}
+figure img{max-width:480px;width:100%;border:1px solid #dedbd2}
+figcaption{font-size:.85rem;color:#4a5560}
+.swatch{display:inline-block;width:.9em;height:.9em;border-radius:2px;margin-right:6px;
+vertical-align:-1px;border:1px solid #0003}
+.note{font-size:.86rem;color:#4a5560}
+pre{background:#f3f2ee;padding:10px;overflow-x:auto;font-size:.82rem}
+"""

@@ -1,0 +1,43 @@
+"""Tests of the Result record and its JSON/CSV forms."""
+
+import json
+
+import numpy as np
+
+from polisect.results import SCHEMA, PhaseFraction, Result, Source, csv_text, read_json, write_json
+
+
+def _result():
+    src = Source(path="a.tif", sha256="0" * 64, shape=(4, 5), pixel_size_um=None,
+                 pixel_size_from="unknown")
+    phases = (PhaseFraction(0, "pore", {"name": "air"}, np.float64(0.25), (0.2, 0.3), 8.0, 16),
+              PhaseFraction(1, "matrix", {"name": "alumina"}, 0.75, (0.7, 0.8), 2.0, 16))
+    return Result(source=src, phases=phases, version="0.0",
+                  effective={"conductivity": {"mean_W_mK": np.float32(3.5),
+                                              "tensor_W_mK": np.eye(2)}},
+                  warnings=("pixel size unknown",))
+
+
+def test_json_schema_and_plain_types(tmp_path):
+    r = _result()
+    write_json(r, tmp_path / "r.json")
+    d = read_json(tmp_path / "r.json")
+    assert d["schema"] == SCHEMA
+    assert d["effective"]["conductivity"]["tensor_W_mK"] == [[1.0, 0.0], [0.0, 1.0]]
+    assert d["phases"][0]["fraction"] == 0.25
+
+
+def test_nan_becomes_null():
+    r = _result()
+    d = json.loads(Result(**{**r.__dict__, "effective": {"x": float("nan")}}).to_json())
+    assert d["effective"]["x"] is None
+
+
+def test_headline_row_and_csv():
+    row = _result().headline()
+    assert row["fraction_pore"] == 0.25
+    assert row["conductivity_W_mK"] == 3.5
+    text = csv_text([row, {"path": "b.tif", "extra": 1}])
+    head = text.splitlines()[0].split(",")
+    assert head[0] == "path" and head[-1] == "extra"
+    assert len(text.splitlines()) == 3
