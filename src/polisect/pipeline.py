@@ -90,8 +90,10 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
                                 n_fields=cfg.segment.fields)
     fractions = tuple(
         PhaseFraction(label=p.label, name=p.name, material=p.material.to_dict(),
-                      fraction=est.mean, fraction_ci95=(est.low, est.high),
-                      relative_accuracy_pct=est.relative_accuracy_pct, fields=est.n_fields)
+                      fraction=est.mean,
+                      fraction_ci95=(max(0.0, est.mean - est.ci95), min(1.0, est.mean + est.ci95)),
+                      relative_accuracy_pct=est.to_dict()["relative_accuracy_pct"],
+                      fields=est.n_fields)
         for p, est in ((p, estimates[p.label]) for p in phases))
     timings["fractions"] = time.perf_counter() - tick
 
