@@ -36,7 +36,6 @@ class Analysis:
     result: Result
     phasemap: PhaseMap
     image: np.ndarray | None
-    segmentation_notes: tuple[str, ...] = ()
     thresholds: tuple[float, ...] = ()
     particle_rows: list = field(default_factory=list)
     particle_detail: dict = field(default_factory=dict)
@@ -83,6 +82,7 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
     if micro.pixel_size_um is None:
         warnings.append("pixel size unknown: sizes are in pixels; give [image] pixel_size_um "
                         "or --pixel-size, or use a TIFF with resolution tags")
+    notes = [n for n in micro.notes if not n.startswith("pixel size unknown")] + seg_notes
 
     tick = time.perf_counter()
     say("measuring phase fractions")
@@ -101,23 +101,28 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
                  pixel_size_um=micro.pixel_size_um, pixel_size_from=micro.pixel_size_from,
                  cropped_bottom_px=micro.cropped_bottom_px)
     result = Result(source=src, phases=fractions, version=__version__,
-                    config_toml=cfg.raw, warnings=tuple(warnings + list(micro.notes)),
+                    config_toml=cfg.raw, warnings=tuple(warnings), notes=tuple(notes),
                     timings_s=timings,
                     created=_dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"))
-    grey = micro.data if micro.data.ndim == phasemap.ndim else None
-    return Analysis(result=result, phasemap=phasemap, image=grey if grey is not None
-                    else micro.data, segmentation_notes=tuple(seg_notes),
+    return Analysis(result=result, phasemap=phasemap, image=micro.data,
                     thresholds=tuple(thresholds))
 
 
 def _micrograph(source, cfg: Config, pixel_size_um: float | None) -> Micrograph:
-    override = pixel_size_um if pixel_size_um is not None else cfg.image.pixel_size_um
+    given_from = "command line" if pixel_size_um is not None else "config"
+    size = pixel_size_um if pixel_size_um is not None else cfg.image.pixel_size_um
     if isinstance(source, np.ndarray):
-        return Micrograph.from_array(source, pixel_size_um=override,
-                                     pixel_size_from="command line" if pixel_size_um is not None
-                                     else ("config" if override is not None else "unknown"))
-    return read_image(source, crop_bottom_px=cfg.image.crop_bottom_px, pixel_size_um=override,
-                      pixel_size_from="command line" if pixel_size_um is not None else "config")
+        if source.ndim not in (2, 3):
+            raise InputError(f"an image array must be 2D (or 3D: RGB or a volume), got shape "
+                             f"{source.shape}")
+        is_rgb = source.ndim == 3 and source.shape[-1] in (3, 4) and not cfg.image.volume
+        data = source[..., :3] if is_rgb else source
+        return Micrograph(data=data, path=None, sha256=None, pixel_size_um=size,
+                          pixel_size_from=given_from if size is not None else "unknown",
+                          cropped_bottom_px=0, dtype=str(source.dtype),
+                          bit_depth=source.dtype.itemsize * 8, is_rgb=is_rgb, n_pages=1)
+    return read_image(source, crop_bottom_px=cfg.image.crop_bottom_px, pixel_size_um=size,
+                      pixel_size_from=given_from, volume=cfg.image.volume)
 
 
 def _labels(micro: Micrograph, cfg: Config):

@@ -83,8 +83,8 @@ def _source(analysis, d, colors) -> str:
             ("Shape (pixels)", " × ".join(str(n) for n in s["shape"])), ("Pixel size", px)]
     if s["cropped_bottom_px"]:
         rows.append(("Cropped at the bottom", f"{s['cropped_bottom_px']} rows (information band)"))
-    for note in analysis.segmentation_notes:
-        rows.append(("Segmentation", note))
+    for note in d["notes"]:
+        rows.append(("Note", note))
     if analysis.thresholds:
         rows.append(("Thresholds", ", ".join(f"{t:.4g}" for t in analysis.thresholds)))
     return "<section><h2>Section</h2>" + _table(rows) + "</section>"

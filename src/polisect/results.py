@@ -65,6 +65,7 @@ class Result:
     bounds: dict | None = None
     shock: dict | None = None
     warnings: tuple[str, ...] = ()
+    notes: tuple[str, ...] = ()
     timings_s: dict = field(default_factory=dict)
     created: str = ""
 
@@ -89,6 +90,7 @@ class Result:
             "bounds": self.bounds,
             "shock": self.shock,
             "warnings": list(self.warnings),
+            "notes": list(self.notes),
             "timings_s": self.timings_s,
             "config": self.config_toml,
         }
