@@ -52,7 +52,7 @@ class Result:
     """One analysed section (or volume).
 
     The blocks filled by the later stages (``effective``, ``particles``, ``schemes``,
-    ``bounds``, ``shock``) hold the plain JSON forms of the library's result objects.
+    ``bounds``, ``shock``, ``windows``) hold the plain JSON forms of the library's result objects.
     """
 
     source: Source
@@ -64,6 +64,7 @@ class Result:
     schemes: dict | None = None
     bounds: dict | None = None
     shock: dict | None = None
+    windows: dict | None = None
     warnings: tuple[str, ...] = ()
     notes: tuple[str, ...] = ()
     timings_s: dict = field(default_factory=dict)
@@ -89,6 +90,7 @@ class Result:
             "schemes": self.schemes,
             "bounds": self.bounds,
             "shock": self.shock,
+            "windows": self.windows,
             "warnings": list(self.warnings),
             "notes": list(self.notes),
             "timings_s": self.timings_s,
