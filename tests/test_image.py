@@ -65,14 +65,21 @@ def test_default_dpi_and_no_tags_are_unknown(tmp_path, grey):
     assert any("72 dots per inch" in n for n in read_image(a).notes)
 
 
-def test_given_pixel_size_wins_and_is_recorded(tmp_path, grey):
-    path = tmp_path / "cm.tif"
-    write_tiff(path, grey, pixel_size_um=0.5)
-    m = read_image(path, pixel_size_um=0.8, pixel_size_from="command line")
+def test_given_pixel_size_precedence(tmp_path, grey):
+    """Config value: a fallback when the tags say nothing; command line: overrides tags."""
+    tagged, bare = tmp_path / "cm.tif", tmp_path / "bare.tif"
+    write_tiff(tagged, grey, pixel_size_um=0.5)
+    write_tiff(bare, grey)
+    m = read_image(tagged, pixel_size_um=0.8, pixel_size_from="command line")
     assert m.pixel_size_um == 0.8 and m.pixel_size_from == "command line"
     assert any("0.5 µm" in n for n in m.notes)
+    m = read_image(tagged, pixel_size_um=0.8, pixel_size_from="config")
+    assert m.pixel_size_um == 0.5 and m.pixel_size_from == "tiff-tags"
+    assert any("--pixel-size" in n for n in m.notes)
+    m = read_image(bare, pixel_size_um=0.8, pixel_size_from="config")
+    assert m.pixel_size_um == 0.8 and m.pixel_size_from == "config"
     with pytest.raises(InputError, match="positive"):
-        read_image(path, pixel_size_um=-1.0)
+        read_image(tagged, pixel_size_um=-1.0)
 
 
 def test_non_square_pixels(tmp_path, grey):
@@ -80,7 +87,7 @@ def test_non_square_pixels(tmp_path, grey):
     tifffile.imwrite(path, grey, resolution=(20000, 10000), resolutionunit="CENTIMETER")
     with pytest.raises(InputError, match="non-square"):
         read_image(path)
-    assert read_image(path, pixel_size_um=0.5).pixel_size_um == 0.5
+    assert read_image(path, pixel_size_um=0.5, pixel_size_from="command line").pixel_size_um == 0.5
 
 
 @pytest.mark.parametrize("dtype", [np.uint16, np.int32, np.uint32, np.float32, np.float64])

@@ -112,10 +112,11 @@ def read_image(path: str | os.PathLike, *, crop_bottom_px: int | str = 0,
         Rows to cut from the bottom (an instrument information band); ``'auto'``
         detects such a band with `find_info_band`.
     pixel_size_um : float, optional
-        Pixel edge in micrometres given by the user. It takes precedence over the TIFF
-        resolution tags (a note records it when they disagree).
+        Pixel edge in micrometres given by the user.
     pixel_size_from : {'config', 'command line'}
-        Where *pixel_size_um* came from, for the record.
+        Where *pixel_size_um* came from. A value from the config is used when the file
+        has no usable resolution tags; one from the command line overrides the tags. A
+        note records any disagreement with the tags.
     volume : bool
         Read every page of a TIFF as a (nz, ny, nx) volume (cubic voxels assumed)
         instead of the first page only.
@@ -370,18 +371,23 @@ def _pixel_size(path, tag_size, given, given_from, notes):
                 or not np.isfinite(given) or given <= 0:
             raise InputError(f"pixel size {given!r} µm (from the {given_from}) must be a "
                              "positive number")
+        given = float(given)
+    if given is not None and (tag_size is None or given_from == "command line"):
         if isinstance(tag_size, float) and abs(tag_size - given) > 0.01 * given:
             notes.append(f"the TIFF tags say {tag_size:.6g} µm per pixel; using the "
                          f"{given:.6g} µm from the {given_from}")
         elif isinstance(tag_size, tuple):
             notes.append(f"the TIFF tags give non-square pixels ({tag_size[0]:.6g} × "
                          f"{tag_size[1]:.6g} µm); using the {given:.6g} µm from the {given_from}")
-        return float(given), given_from
+        return given, given_from
     if isinstance(tag_size, tuple):
         raise InputError(f"{path}: the TIFF tags give non-square pixels ({tag_size[0]:.6g} µm "
                          f"across, {tag_size[1]:.6g} µm down); resample the image to square "
-                         "pixels, or give pixel_size_um if the tags are wrong")
+                         "pixels, or give --pixel-size if the tags are wrong")
     if tag_size is not None:
+        if given is not None and abs(tag_size - given) > 0.01 * given:
+            notes.append(f"the TIFF tags say {tag_size:.6g} µm per pixel, the {given_from} "
+                         f"{given:.6g} µm; using the tags (give --pixel-size to override them)")
         return tag_size, "tiff-tags"
     notes.append("pixel size unknown: sizes are in pixels; give pixel_size_um in [image] or "
                  "--pixel-size for micrometres")
