@@ -1,0 +1,3 @@
+from .core import Particle, Moduli
+from .bounds import voigt, reuss, hashin_shtrikman, schapery_bounds
+from .estimates import mori_tanaka, self_consistent, differential, composite_assemblage, generalized_self_consistent
