@@ -136,7 +136,8 @@ def hs_form(fractions, moduli, c: float) -> float:
     """``[Σ f/(M + c)]⁻¹ − c``: the Hashin–Shtrikman-type mean with constraint modulus c.
 
     c = 0 gives the harmonic (Reuss) mean, c = ∞ the arithmetic (Voigt) mean; a phase
-    with M + c = 0 makes the result 0.
+    with M + c = 0 makes the result 0. Evaluated as the weighted mean Σ w M / Σ w with
+    w = f/(M + c), which is the same number without cancellation at large c.
     """
     f = np.asarray(fractions, float)
     m = np.asarray(moduli, float)
@@ -145,7 +146,8 @@ def hs_form(fractions, moduli, c: float) -> float:
     keep = f > 0
     if np.any(m[keep] + c <= 0.0):
         return 0.0
-    return float(1.0 / np.sum(f[keep] / (m[keep] + c)) - c)
+    w = f[keep] / (m[keep] + c)
+    return float(np.dot(w, m[keep]) / np.sum(w))
 
 
 def factors(p: Particle, mode: str, dim: int, ref: Moduli) -> tuple[float, float]:
