@@ -108,9 +108,9 @@ def _bad_files(tmp):
 
 
 CASES = [
-    ("missing", [], "not found"),
+    ("missing", [], "no such file"),
     ("empty", [], "empty"),
-    ("text", [], "not an image"),
+    ("text", [], "content is text"),
     ("trunc", [], "truncated|damaged|incomplete"),
     ("tiny", [], "too small"),
     ("nan", [], "NaN|not a number"),

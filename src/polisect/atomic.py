@@ -21,11 +21,18 @@ def atomic_write(path: str | os.PathLike, write: Callable[[str], None]) -> None:
         write(tmp)
         with open(tmp, "rb+") as f:
             os.fsync(f.fileno())
+        os.chmod(tmp, 0o666 & ~_umask())
         os.replace(tmp, path)
     except BaseException:
         if os.path.exists(tmp):
             os.unlink(tmp)
         raise
+
+
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
 
 
 def atomic_write_text(path: str | os.PathLike, text: str) -> None:

@@ -57,7 +57,12 @@ def _run_analyze(args) -> int:
     cfg = load_config(args.config) if args.config else None
     if any(v is not None for v in (args.classes, args.assign, args.kind)) or cfg is None:
         cfg = quick_config(classes=args.classes, assign=args.assign, kind=args.kind, base=cfg)
-    analysis = analyze(args.image, cfg, pixel_size_um=args.pixel_size, progress=progress)
+    try:
+        analysis = analyze(args.image, cfg, pixel_size_um=args.pixel_size, progress=progress)
+    except InputError as exc:
+        if str(args.image) in str(exc):
+            raise
+        raise InputError(f"{args.image}: {exc}") from None
     progress("writing outputs")
     paths = write_outputs(analysis, args.out, config=cfg)
     _emit_json(args.json, analysis.result.to_json())
