@@ -226,10 +226,10 @@ def _phase(entry, index):
     if "material" in entry:
         base = get_material(str(entry["material"]))
         name = name or base.name
-        material = base.replace(name=name, **overrides) if overrides else base.replace(name=name)
+        material = base
         if overrides:
-            material = material.replace(source=f"{base.source}; overridden: "
-                                        + ", ".join(sorted(overrides)))
+            material = base.replace(source=f"{base.source}; overridden: "
+                                    + ", ".join(sorted(overrides)), **overrides)
     else:
         name = name or f"phase-{entry['label']}"
         material = Material(name=name, source=entry.get("source", "given in the config"),
