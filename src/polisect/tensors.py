@@ -60,18 +60,25 @@ def _mandel_weights(dim: int) -> np.ndarray:
     return np.concatenate([np.ones(n_normal), np.full(n_shear, np.sqrt(2.0))])
 
 
-def stiffness_from_bulk_shear(K: float, G: float) -> np.ndarray:
-    """Isotropic 3D stiffness (6×6 Voigt, engineering shear) from bulk and shear moduli.
+def stiffness_from_bulk_shear(K: float, G: float, dim: int = 3) -> np.ndarray:
+    """Isotropic stiffness (Voigt, engineering shear) from bulk and shear moduli.
 
     Parameters
     ----------
     K, G : float
-        Bulk and shear moduli.
+        Bulk and shear moduli; for ``dim=2`` K is the in-plane bulk modulus K₂.
+    dim : {3, 2}
+        3 gives the 6×6 matrix; 2 the 3×3 in-plane matrix ``[[K₂+G, K₂−G, 0],
+        [K₂−G, K₂+G, 0], [0, 0, G]]``.
 
     Returns
     -------
-    C : (6, 6) ndarray
+    C : (6, 6) or (3, 3) ndarray
     """
+    if dim == 2:
+        return np.array([[K + G, K - G, 0.0], [K - G, K + G, 0.0], [0.0, 0.0, G]])
+    if dim != 3:
+        raise InputError(f"dimension must be 2 or 3, got {dim}")
     lam = K - 2.0 * G / 3.0
     C = np.zeros((6, 6))
     C[:3, :3] = lam

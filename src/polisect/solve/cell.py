@@ -1,0 +1,107 @@
+"""The periodic cell problem every solver answers, and what a solve returns.
+
+A `Cell` is a grid of compact phase indices with one gradient → flux tensor per phase;
+a `Load` is an imposed mean gradient plus an optional per-phase prestress; a `Solution`
+holds the phase sums of the element-mean gradient (enough for every effective tensor)
+and, on request, the gradient field itself.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+
+@dataclass(frozen=True, eq=False)
+class Cell:
+    """A periodic grid problem.
+
+    Attributes
+    ----------
+    labels : (*grid) int32 ndarray
+        Phase index 0 … n_phases − 1 of every pixel.
+    L : (n_phases, nc, d, nc, d) ndarray
+        Flux ``σ_ai = L_aibj g_bj`` of each phase; all zero for a pore.
+    """
+
+    labels: np.ndarray
+    L: np.ndarray
+
+    @property
+    def shape(self) -> tuple[int, ...]:
+        return self.labels.shape
+
+    @property
+    def dim(self) -> int:
+        return self.labels.ndim
+
+    @property
+    def ncomp(self) -> int:
+        return self.L.shape[1]
+
+    @property
+    def n_phases(self) -> int:
+        return self.L.shape[0]
+
+    @property
+    def fractions(self) -> np.ndarray:
+        """Area/volume fraction of each phase."""
+        return np.bincount(self.labels.ravel(), minlength=self.n_phases) / self.labels.size
+
+    @property
+    def solid_phases(self) -> np.ndarray:
+        """True for phases with a non-zero tensor."""
+        return np.any(self.L.reshape(self.n_phases, -1) != 0.0, axis=1)
+
+    @property
+    def solid(self) -> np.ndarray:
+        """Pixels with a non-zero tensor."""
+        return self.solid_phases[self.labels]
+
+
+@dataclass(frozen=True, eq=False)
+class Load:
+    """A load case: mean gradient *E* (nc, d) and optional prestress *tau* (n_phases, nc, d)."""
+
+    E: np.ndarray
+    tau: np.ndarray | None = None
+
+    def sigma0(self, cell: Cell) -> np.ndarray:
+        """The per-phase flux of the mean gradient, ``L:E + τ``, shape (n_phases, nc, d)."""
+        out = np.einsum("paibj,bj->pai", cell.L, self.E)
+        return out if self.tau is None else out + self.tau
+
+
+@dataclass(frozen=True, eq=False)
+class Solution:
+    """Result of one load case.
+
+    Attributes
+    ----------
+    phase_means : (n_phases, nc, d) ndarray
+        ``Σ_{pixels of p} g / N``; summed over phases it is the mean gradient.
+    iterations : int
+    residuals : ndarray
+        Convergence history (relative residual, or the equilibrium error for `ms`).
+    converged : bool
+    gradient : (nc, d, *grid) ndarray or None
+        Element-mean (or pixel-centre, `ms`) gradient field, when asked for.
+    """
+
+    phase_means: np.ndarray
+    iterations: int
+    residuals: np.ndarray
+    converged: bool
+    gradient: np.ndarray | None = None
+
+    def mean_flux(self, cell: Cell, load: Load) -> np.ndarray:
+        """Mean flux ``⟨L:g + τ⟩``, shape (nc, d)."""
+        return self.average(cell.L, load.tau, cell.fractions)
+
+    def average(self, L: np.ndarray, tau: np.ndarray | None, fractions: np.ndarray) -> np.ndarray:
+        """``⟨L:g + τ⟩`` for any per-phase linear map *L* (n_phases, …, nc, d)."""
+        out = np.einsum("p...bj,pbj->...", L, self.phase_means)
+        if tau is not None:
+            out = out + np.einsum("p,p...->...", fractions, tau)
+        return out

@@ -1,0 +1,90 @@
+"""Preconditioned conjugate gradients with a residual history (used by `fft` and `fe`).
+
+References
+----------
+.. [1] Hestenes, M. R. & Stiefel, E. (1952). Methods of conjugate gradients for solving
+   linear systems. J. Res. Natl. Bur. Stand. 49, 409–436.
+.. [2] Saad, Y. (2003). Iterative Methods for Sparse Linear Systems, 2nd ed., Alg. 9.1.
+   SIAM.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Callable
+
+import numpy as np
+
+from . import kernels
+
+Apply = Callable[[np.ndarray, np.ndarray], None]
+
+
+@dataclass(frozen=True)
+class CGInfo:
+    """Facts of one CG solve.
+
+    Attributes
+    ----------
+    iterations : int
+    residuals : ndarray
+        ‖r_k‖₂ / ‖b‖₂ for k = 0 … iterations.
+    converged : bool
+    """
+
+    iterations: int
+    residuals: np.ndarray
+    converged: bool
+
+
+def pcg(apply_A: Apply, apply_M: Apply, b: np.ndarray, tol: float, maxiter: int,
+        mask: np.ndarray | None = None) -> tuple[np.ndarray, CGInfo]:
+    """Solve ``A x = b`` (A symmetric positive semi-definite, b in its range) from x = 0.
+
+    Parameters
+    ----------
+    apply_A, apply_M : callable ``(x, out) -> None``
+        Operator and preconditioner on flat float64 arrays, writing into *out*.
+    b : (n,) ndarray
+    tol : float
+        Stop when ‖r‖₂ ≤ tol ‖b‖₂.
+    maxiter : int
+    mask : (n,) ndarray, optional
+        0/1 weights applied to every preconditioned residual: entries that are 0 (nodes
+        that touch only zero-property pixels) stay 0 in the solution.
+
+    Returns
+    -------
+    x : (n,) ndarray
+    info : CGInfo
+    """
+    x = np.zeros_like(b)
+    norm_b = np.sqrt(kernels.dot(b, b))
+    if norm_b == 0.0:
+        return x, CGInfo(0, np.zeros(1), True)
+    r = b.copy()
+    z = np.empty_like(b)
+    ap = np.empty_like(b)
+    apply_M(r, z)
+    rz = kernels.masked_dot(z, r, mask) if mask is not None else kernels.dot(r, z)
+    p = z.copy()
+    history = [1.0]
+    converged = False
+    iterations = 0
+    while iterations < maxiter:
+        apply_A(p, ap)
+        pap = kernels.dot(p, ap)
+        if pap <= 0.0:
+            break
+        alpha = rz / pap
+        rr = kernels.step(x, r, p, ap, alpha)
+        iterations += 1
+        history.append(np.sqrt(rr) / norm_b)
+        if history[-1] <= tol:
+            converged = True
+            break
+        apply_M(r, z)
+        rz_new = kernels.masked_dot(z, r, mask) if mask is not None else kernels.dot(r, z)
+        kernels.new_direction(p, z, rz_new / rz)
+        rz = rz_new
+    return x, CGInfo(iterations, np.asarray(history), converged)

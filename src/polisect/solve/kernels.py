@@ -1,0 +1,220 @@
+"""Compiled (numba) kernels: the matrix-free element operator and fused CG vector updates.
+
+The operator evaluates the mode form of `solve.grid` one pixel line at a time: the
+sums/differences across the other axes are formed on whole node lines, the last-axis
+sums/differences and the per-phase term list act on contiguous line buffers (so the
+compiler vectorises them), and the transposed steps scatter back into the four (3D) or
+two (2D) node lines the pixel line touches. Planes of pixels along axis 0 are processed in
+parallel in two colours (even, odd) so that no two threads write the same node plane.
+
+Plain numpy needs 2–4× the time of the FFTs of one iteration for the operator alone
+(measured on 1024² and 128³ grids); these kernels need 0.2–0.6× of it.
+"""
+
+from __future__ import annotations
+
+import numba as nb
+import numpy as np
+
+_OPTS = dict(cache=True, fastmath=True)
+
+
+@nb.njit(inline="always", **_OPTS)
+def _sum_diff(x, s, d, n):
+    """Pixel line ← node line: ``s = x[k] + x[k+1]``, ``d = x[k+1] − x[k]`` (periodic)."""
+    for k in range(n - 1):
+        s[k] = x[k] + x[k + 1]
+        d[k] = x[k + 1] - x[k]
+    s[n - 1] = x[n - 1] + x[0]
+    d[n - 1] = x[0] - x[n - 1]
+
+
+@nb.njit(inline="always", **_OPTS)
+def _sum_diff_transpose(rs, rd, out, n):
+    """Node line ← pixel lines: the transpose of `_sum_diff` applied to ``(rs, rd)``."""
+    out[0] = rs[0] - rd[0] + rs[n - 1] + rd[n - 1]
+    for k in range(1, n):
+        out[k] = rs[k] - rd[k] + rs[k - 1] + rd[k - 1]
+
+
+@nb.njit(inline="always", **_OPTS)
+def _terms(q, r, cl, rows, cols, cid, n):
+    for t in range(r.shape[0]):
+        r[t, :] = 0.0
+    for t in range(rows.shape[0]):
+        rr = r[rows[t]]
+        qq = q[cols[t]]
+        cc = cl[cid[t]]
+        for k in range(n):
+            rr[k] += cc[k] * qq[k]
+
+
+@nb.njit(inline="always", **_OPTS)
+def _colour(colour, n0):
+    """First plane and number of planes of a colour (even, odd, and a last odd plane)."""
+    if colour == 0:
+        return 0, n0 // 2
+    if colour == 1:
+        return 1, n0 // 2
+    return n0 - 1, n0 % 2
+
+
+@nb.njit(parallel=True, **_OPTS)
+def apply_2d(u, labels, table, cid, rows, cols, out):
+    """``out = A u`` on a 2D grid; *u*, *out* have shape (nc, n0, n1)."""
+    nc, n0, n1 = u.shape
+    ncoef = table.shape[0]
+    out[:] = 0.0
+    for colour in range(3):
+        start, count = _colour(colour, n0)
+        for ii in nb.prange(count):
+            i = start + 2 * ii
+            i1 = i + 1 if i + 1 < n0 else 0
+            line = np.empty((2, n1))
+            q = np.empty((nc * 4, n1))
+            r = np.empty((nc * 4, n1))
+            cl = np.empty((ncoef, n1))
+            for k in range(n1):
+                p = labels[i, k]
+                for c in range(ncoef):
+                    cl[c, k] = table[c, p]
+            for a in range(nc):
+                u0 = u[a, i]
+                u1 = u[a, i1]
+                for k in range(n1):
+                    line[0, k] = u0[k] + u1[k]
+                    line[1, k] = u1[k] - u0[k]
+                _sum_diff(line[0], q[4 * a], q[4 * a + 1], n1)
+                _sum_diff(line[1], q[4 * a + 2], q[4 * a + 3], n1)
+            _terms(q, r, cl, rows, cols, cid, n1)
+            for a in range(nc):
+                r[4 * a, :] = 0.0
+                _sum_diff_transpose(r[4 * a], r[4 * a + 1], line[0], n1)
+                _sum_diff_transpose(r[4 * a + 2], r[4 * a + 3], line[1], n1)
+                o0 = out[a, i]
+                o1 = out[a, i1]
+                for k in range(n1):
+                    o0[k] += line[0, k] - line[1, k]
+                    o1[k] += line[0, k] + line[1, k]
+
+
+@nb.njit(parallel=True, **_OPTS)
+def apply_3d(u, labels, table, cid, rows, cols, out):
+    """``out = A u`` on a 3D grid; *u*, *out* have shape (nc, n0, n1, n2)."""
+    nc, n0, n1, n2 = u.shape
+    ncoef = table.shape[0]
+    out[:] = 0.0
+    for colour in range(3):
+        start, count = _colour(colour, n0)
+        for ii in nb.prange(count):
+            i = start + 2 * ii
+            i1 = i + 1 if i + 1 < n0 else 0
+            xy = np.empty((4, n2))
+            q = np.empty((nc * 8, n2))
+            r = np.empty((nc * 8, n2))
+            cl = np.empty((ncoef, n2))
+            for j in range(n1):
+                j1 = j + 1 if j + 1 < n1 else 0
+                for k in range(n2):
+                    p = labels[i, j, k]
+                    for c in range(ncoef):
+                        cl[c, k] = table[c, p]
+                for a in range(nc):
+                    u00 = u[a, i, j]
+                    u01 = u[a, i, j1]
+                    u10 = u[a, i1, j]
+                    u11 = u[a, i1, j1]
+                    for k in range(n2):
+                        s0 = u00[k] + u10[k]
+                        d0 = u10[k] - u00[k]
+                        s1 = u01[k] + u11[k]
+                        d1 = u11[k] - u01[k]
+                        xy[0, k] = s0 + s1
+                        xy[1, k] = s1 - s0
+                        xy[2, k] = d0 + d1
+                        xy[3, k] = d1 - d0
+                    for b in range(4):
+                        _sum_diff(xy[b], q[8 * a + 2 * b], q[8 * a + 2 * b + 1], n2)
+                _terms(q, r, cl, rows, cols, cid, n2)
+                for a in range(nc):
+                    r[8 * a, :] = 0.0
+                    for b in range(4):
+                        _sum_diff_transpose(r[8 * a + 2 * b], r[8 * a + 2 * b + 1], xy[b], n2)
+                    o00 = out[a, i, j]
+                    o01 = out[a, i, j1]
+                    o10 = out[a, i1, j]
+                    o11 = out[a, i1, j1]
+                    for k in range(n2):
+                        s0 = xy[0, k] - xy[1, k]
+                        s1 = xy[0, k] + xy[1, k]
+                        d0 = xy[2, k] - xy[3, k]
+                        d1 = xy[2, k] + xy[3, k]
+                        o00[k] += s0 - d0
+                        o10[k] += s0 + d0
+                        o01[k] += s1 - d1
+                        o11[k] += s1 + d1
+
+
+@nb.njit(parallel=True, **_OPTS)
+def fourier_multiply(rhat, kinv):
+    """In place ``rhat[a] ← Σ_b kinv[a, b] rhat[b]`` per frequency (nc ≤ 3).
+
+    *rhat* is (nc, m) complex, *kinv* (nc, nc, m) real.
+    """
+    nc, m = rhat.shape
+    if nc == 1:
+        for f in nb.prange(m):
+            rhat[0, f] *= kinv[0, 0, f]
+    elif nc == 2:
+        for f in nb.prange(m):
+            r0 = rhat[0, f]
+            r1 = rhat[1, f]
+            rhat[0, f] = kinv[0, 0, f] * r0 + kinv[0, 1, f] * r1
+            rhat[1, f] = kinv[1, 0, f] * r0 + kinv[1, 1, f] * r1
+    else:
+        for f in nb.prange(m):
+            r0 = rhat[0, f]
+            r1 = rhat[1, f]
+            r2 = rhat[2, f]
+            rhat[0, f] = kinv[0, 0, f] * r0 + kinv[0, 1, f] * r1 + kinv[0, 2, f] * r2
+            rhat[1, f] = kinv[1, 0, f] * r0 + kinv[1, 1, f] * r1 + kinv[1, 2, f] * r2
+            rhat[2, f] = kinv[2, 0, f] * r0 + kinv[2, 1, f] * r1 + kinv[2, 2, f] * r2
+
+
+@nb.njit(parallel=True, **_OPTS)
+def dot(x, y):
+    """``Σ x·y`` of two flat arrays."""
+    s = 0.0
+    for i in nb.prange(x.shape[0]):
+        s += x[i] * y[i]
+    return s
+
+
+@nb.njit(parallel=True, **_OPTS)
+def step(x, r, p, ap, alpha):
+    """``x += α p``, ``r −= α Ap``; returns ``Σ r²``."""
+    s = 0.0
+    for i in nb.prange(x.shape[0]):
+        x[i] += alpha * p[i]
+        ri = r[i] - alpha * ap[i]
+        r[i] = ri
+        s += ri * ri
+    return s
+
+
+@nb.njit(parallel=True, **_OPTS)
+def masked_dot(z, r, mask):
+    """``z ← z·mask`` (drops floating nodes); returns ``Σ r·z``."""
+    s = 0.0
+    for i in nb.prange(z.shape[0]):
+        zi = z[i] * mask[i]
+        z[i] = zi
+        s += r[i] * zi
+    return s
+
+
+@nb.njit(parallel=True, **_OPTS)
+def new_direction(p, z, beta):
+    """``p ← z + β p``."""
+    for i in nb.prange(p.shape[0]):
+        p[i] = z[i] + beta * p[i]
