@@ -94,3 +94,100 @@ def test_enclosed_pores_are_kept_apart():
     enc = {(e.phase, e.host): e.fraction.mean for e in enclosed_fractions(labels, [1])}
     assert enc[(2, 1)] == pytest.approx(np.sum(r <= 6) / labels.size)
     assert enc[(0, 1)] == 0.0
+
+
+from polisect import Material
+from polisect.morphology import PhaseParticles, particle_phases, phase_particles
+from polisect.phasemap import Phase, PhaseMap
+from polisect.synth import Inclusions, compose
+
+M = Material(conductivity=1.0)
+
+
+@pytest.fixture(scope="module")
+def mixture():
+    """Solid and hollow discs (ratio 0.5, pore cores) in a matrix, 0.5 µm pixels."""
+    p = compose((384, 384), [Inclusions(1, 0.15, 10.0, min_gap=2.0),
+                             Inclusions(1, 0.10, 10.0, hollow_ratio=0.5, core_label=2, min_gap=2.0)],
+                seed=9)
+    pm = PhaseMap(p.labels, (Phase(0, "matrix", M), Phase(1, "SiC", M), Phase(2, "pore", M)),
+                  voxel_size_um=0.5)
+    return p, pm
+
+
+def test_phase_particles_json_block(mixture):
+    """The particles.<phase> block has the keys of the issue's JSON, in µm, and the hollow
+    fraction of the discs not cut by the border equals that of the construction.
+
+    Source: truth from the synth construction; keys from issue 4.
+    """
+    p, pm = mixture
+    res = phase_particles(pm, "SiC", n_boot=200)
+    d = res.to_dict()
+    for key in ("count", "count_per_mm2", "ecd_um", "aspect_ratio_mean", "hollow_fraction",
+                "inner_outer_ratio_mean", "sphere_diameter_um", "number_per_mm3",
+                "mean_free_path_um", "contiguity"):
+        assert key in d
+    assert set(d["ecd_um"]) >= {"mean", "std", "d10", "d50", "d90"}
+    assert set(d["sphere_diameter_um"]) >= {"mean", "d50"}
+    assert d["units"] == "um" and d["contiguity"] is None
+    assert d["ecd_um"]["d50"] == pytest.approx(10.0, abs=0.5)        # 20 px discs at 0.5 µm
+    ny, nx = p.labels.shape
+    inside = [(r + 1 <= c[0] <= ny - 2 - r) and (r + 1 <= c[1] <= nx - 2 - r)
+              for c, r in zip(p.centres, p.radii)]
+    hollow = p.inner_radii > 0
+    assert res.size.count_measured == sum(inside)
+    assert d["hollow_fraction"] == pytest.approx(np.mean(hollow[inside]), abs=0.02)
+    assert d["inner_outer_ratio_mean"] == pytest.approx(0.5, abs=0.03)
+    lo, hi = d["ci95"]["hollow_fraction"]
+    assert lo <= d["hollow_fraction"] <= hi
+    rows = res.rows()
+    assert len(rows) == res.table.count and rows[0]["phase"] == "SiC"
+    assert isinstance(res, PhaseParticles)
+
+
+def test_internal_porosity_is_the_pore_cores(mixture):
+    """The pore fraction inside SiC particles lies between the core area of the hollow discs
+    wholly inside the image (certainly enclosed) and the total pore fraction (cores of discs
+    cut by the border may be open); there is no other pore.
+
+    Source: truth from the synth construction.
+    """
+    p, pm = mixture
+    enc = {(e.phase, e.host): e.fraction.mean for e in enclosed_fractions(pm.labels, [1])}
+    ny, nx = pm.shape
+    yy, xx = np.mgrid[:ny, :nx]
+    certain = np.zeros(pm.shape, bool)
+    for c, r, ri in zip(p.centres, p.radii, p.inner_radii):
+        if ri > 0 and r + 1 <= c[0] <= ny - 2 - r and r + 1 <= c[1] <= nx - 2 - r:
+            certain |= np.hypot(yy - c[0], xx - c[1]) < ri
+    assert np.all(pm.labels[certain] == 2)
+    assert certain.mean() <= enc[(2, 1)] <= np.mean(pm.labels == 2)
+    assert certain.mean() > 0.5 * np.mean(pm.labels == 2)
+
+
+def test_particle_phases_default_rule():
+    """Common practice (no source): every phase but the largest one, unless marked."""
+    labels = np.zeros((16, 16), np.int32)
+    labels[:4] = 1
+    labels[4:6] = 2
+    phases = (Phase(0, "matrix", M), Phase(1, "A", M), Phase(2, "B", M, False))
+    assert [p.name for p in particle_phases(PhaseMap(labels, phases))] == ["A"]
+    phases = (Phase(0, "matrix", M, True), Phase(1, "A", M), Phase(2, "B", M))
+    assert [p.name for p in particle_phases(PhaseMap(labels, phases))] == ["matrix", "A", "B"]
+
+
+def test_pixel_units_and_errors():
+    """Common practice (no source): unknown pixel size gives pixel units; 3D and unknown
+    phases raise InputError."""
+    labels = np.zeros((64, 64), np.int32)
+    labels[10:20, 10:20] = 1
+    pm = PhaseMap(labels, (Phase(0, "m", M), Phase(1, "p", M)))
+    d = phase_particles(pm, 1, n_boot=0).to_dict()
+    assert d["units"] == "px" and d["count"] == 1
+    assert d["ecd_um"]["mean"] == pytest.approx(2 * math.sqrt(100 / math.pi))
+    with pytest.raises(InputError, match="no phase"):
+        phase_particles(pm, "nothing")
+    pm3 = PhaseMap(np.zeros((8, 8, 8), np.int32), (Phase(0, "m", M),))
+    with pytest.raises(InputError, match="2D"):
+        phase_particles(pm3, 0)
