@@ -191,6 +191,33 @@ def _run_bench(args) -> int:
     return EXIT_OK
 
 
+def _add_serve(sub):
+    p = sub.add_parser("serve", help="the drop-in web page on this computer",
+                       description="Start a local web page: drop a section image, check the "
+                       "phase map, assign materials, run, read and download the report.")
+    p.add_argument("--port", type=int, default=8765, help="port (default 8765; 0 = any free)")
+    p.add_argument("--host", default="127.0.0.1",
+                   help="address to listen on (default 127.0.0.1, this computer only; the "
+                        "page has no login)")
+    p.add_argument("--out", default="polisect-runs",
+                   help="output folder, one sub-folder per run (default: polisect-runs)")
+    p.add_argument("--max-upload-mb", type=float, default=200.0, metavar="MB",
+                   help="largest image accepted, MB (default 200)")
+    p.add_argument("--jobs", type=int, default=1,
+                   help="runs computed at the same time (default 1; more wait in a queue)")
+    p.add_argument("--open", action="store_true", help="open the page in the web browser")
+    p.add_argument("--verbose", action="store_true", help="log every request")
+    p.set_defaults(run=_run_serve)
+
+
+def _run_serve(args) -> int:
+    from .serve import serve
+
+    serve(host=args.host, port=args.port, out_dir=args.out, max_upload_mb=args.max_upload_mb,
+          parallel_runs=args.jobs, open_browser=args.open, verbose=args.verbose)
+    return EXIT_OK
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="polisect",
@@ -198,7 +225,8 @@ def build_parser() -> argparse.ArgumentParser:
                     "effective properties with bounds and confidence.")
     parser.add_argument("--version", action="version", version=f"polisect {__version__}")
     sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
-    for add in (_add_analyze, _add_demo, _add_materials, _add_estimate, _add_bench):
+    for add in (_add_analyze, _add_demo, _add_materials, _add_estimate, _add_bench,
+                _add_serve):
         add(sub)
     return parser
 

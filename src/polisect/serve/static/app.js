@@ -1,0 +1,798 @@
+/* polisect serve — the page's behaviour. Plain JavaScript, no libraries, works offline.
+ *
+ * Steps: 1 upload an image → 2 choose classes and thresholds on its histogram (overlay
+ * redrawn on a subsampled preview) → 3 a material per phase → 4 what to compute → 5 run,
+ * watch progress, read the report. Every text from the server is inserted as text, never
+ * as HTML.
+ */
+"use strict";
+(() => {
+  const $ = (id) => document.getElementById(id);
+  const FINAL = ["done", "failed", "cancelled", "interrupted"];
+  const PROP_LABELS = {
+    conductivity: "thermal conductivity",
+    elasticity: "stiffness (E, ν, K, G)",
+    expansion: "thermal expansion",
+  };
+  const OWN = [["conductivity", "k", "W/(m·K)", 1], ["youngs_modulus", "E", "GPa", 1],
+               ["poisson_ratio", "ν", "–", 1], ["expansion", "α", "10⁻⁶/K", 1e-6]];
+
+  const S = {
+    info: null, up: null, grey: null, pw: 0, ph: 0, kind: "grayscale", classes: 3,
+    auto: true, th: [], labels: null, labelsKey: "", rows: new Map(), dragging: -1,
+    runId: null, pollTimer: null, seq: 0,
+  };
+
+  // ---------------------------------------------------------------- helpers
+  async function api(path, opts = {}) {
+    const headers = { "X-Polisect": "1" };
+    let body;
+    if (opts.json !== undefined) {
+      headers["Content-Type"] = "application/json";
+      body = JSON.stringify(opts.json);
+    }
+    const resp = await fetch(path, { method: body === undefined ? "GET" : "POST", headers, body });
+    if (!resp.ok) {
+      let message = `${resp.status} ${resp.statusText}`;
+      try { message = (await resp.json()).error || message; } catch (e) { /* not JSON */ }
+      throw new Error(message);
+    }
+    return opts.binary ? resp.arrayBuffer() : resp.json();
+  }
+  function show(el, text) { el.textContent = text; el.hidden = false; }
+  function hide(el) { el.hidden = true; el.textContent = ""; }
+  function el(tag, attrs = {}, ...kids) {
+    const node = document.createElement(tag);
+    for (const [k, v] of Object.entries(attrs)) {
+      if (v === undefined || v === null || v === false) continue;
+      if (k === "text") node.textContent = v;
+      else if (k === "class") node.className = v;
+      else node.setAttribute(k, v === true ? "" : v);
+    }
+    for (const kid of kids) if (kid !== null && kid !== undefined) node.append(kid);
+    return node;
+  }
+  function fmt(v, digits = 4) {
+    if (v === null || v === undefined || Number.isNaN(v)) return "–";
+    return Number(v).toPrecision(digits).replace(/\.?0+(e|$)/, "$1");
+  }
+  function fixed(v, digits = 4) { return (v === null || v === undefined) ? "–" : Number(v).toFixed(digits); }
+  function debounce(fn, ms) {
+    let t = null;
+    return (...args) => { clearTimeout(t); t = setTimeout(() => fn(...args), ms); };
+  }
+  function colour(i) { const p = S.info.palette; return p[i % p.length]; }
+  function rgb(hex) { return [1, 3, 5].map((i) => parseInt(hex.slice(i, i + 2), 16)); }
+  function bytes(n) { return n >= 1e6 ? `${(n / 1e6).toFixed(1)} MB` : `${Math.max(1, Math.round(n / 1e3))} kB`; }
+
+  // ---------------------------------------------------------------- start
+  async function start() {
+    try {
+      S.info = await api("/api/info");
+    } catch (e) {
+      show($("image-msg"), `the server does not answer (${e.message}); is polisect serve running?`);
+      return;
+    }
+    $("out-dir").textContent = S.info.out_dir;
+    $("version").textContent = `· polisect ${S.info.version}`;
+    $("limit").textContent = `${Math.round(S.info.max_upload_bytes / 1e6)} MB`;
+    for (let n = 2; n <= S.info.max_classes; n++) $("classes").append(el("option", { value: n, text: n }));
+    for (const p of S.info.properties) {
+      $("props").append(el("label", { class: "check" },
+        el("input", { type: "checkbox", value: p, checked: true }), ` ${PROP_LABELS[p] || p}`));
+    }
+    $("est3d").disabled = !S.info.estimate_3d;
+    $("est3d-note").textContent = S.info.estimate_3d
+      ? "A statistically equivalent volume built from this section's statistics."
+      : "Not available in this version of polisect.";
+    wireImageStep();
+    wireMapStep();
+    $("run").addEventListener("click", submitRun);
+    $("cancel").addEventListener("click", cancelRun);
+    window.addEventListener("resize", debounce(() => { if (S.up) drawHistogram(); }, 150));
+    refreshRuns();
+  }
+
+  // ---------------------------------------------------------------- step 1: image
+  function wireImageStep() {
+    const drop = $("drop"), input = $("file");
+    drop.addEventListener("click", () => input.click());
+    drop.addEventListener("keydown", (e) => {
+      if (e.key === "Enter" || e.key === " ") { e.preventDefault(); input.click(); }
+    });
+    input.addEventListener("change", () => { if (input.files.length) take(input.files, null); input.value = ""; });
+    for (const t of ["dragenter", "dragover"]) {
+      drop.addEventListener(t, (e) => { e.preventDefault(); drop.classList.add("over"); });
+    }
+    drop.addEventListener("dragleave", () => drop.classList.remove("over"));
+    drop.addEventListener("drop", (e) => {
+      e.preventDefault();
+      drop.classList.remove("over");
+      take(e.dataTransfer.files, e.dataTransfer.items);
+    });
+    window.addEventListener("dragover", (e) => e.preventDefault());
+    window.addEventListener("drop", (e) => e.preventDefault());
+    $("crop").addEventListener("change", () => {
+      $("crop-rows").hidden = $("crop").value !== "rows";
+      if ($("crop").value !== "rows") reinspect();
+    });
+    $("crop-rows").addEventListener("change", reinspect);
+    for (const r of document.querySelectorAll("input[name=kind]")) r.addEventListener("change", setKind);
+  }
+
+  function take(files, items) {
+    hide($("image-msg"));
+    const entry = items && items[0] && items[0].webkitGetAsEntry ? items[0].webkitGetAsEntry() : null;
+    if (entry && entry.isDirectory) {
+      show($("image-msg"), `${entry.name}: is a folder; drop one image file`);
+      return;
+    }
+    const file = files[0];
+    if (!file) return;
+    if (file.size > S.info.max_upload_bytes) {
+      show($("image-msg"), `${file.name}: the file is ${bytes(file.size)}, more than this server's `
+        + `limit of ${bytes(S.info.max_upload_bytes)}; crop or compress it losslessly, or restart `
+        + "the server with a larger --max-upload-mb");
+      return;
+    }
+    upload(file, files.length > 1 ? `${files.length} files dropped; using the first, ${file.name}` : null);
+  }
+
+  function upload(file, note) {
+    const drop = $("drop"), bar = $("upload-bar");
+    const xhr = new XMLHttpRequest();
+    xhr.open("POST", "/api/uploads");
+    xhr.setRequestHeader("X-Polisect", "1");
+    xhr.setRequestHeader("X-Filename", encodeURIComponent(file.name));
+    xhr.setRequestHeader("Content-Type", "application/octet-stream");
+    drop.classList.add("busy");
+    drop.setAttribute("aria-busy", "true");
+    bar.hidden = false;
+    bar.firstElementChild.style.width = "0";
+    xhr.upload.onprogress = (e) => {
+      if (e.lengthComputable) bar.firstElementChild.style.width = `${(100 * e.loaded / e.total).toFixed(1)}%`;
+    };
+    const done = () => { drop.classList.remove("busy"); drop.removeAttribute("aria-busy"); bar.hidden = true; };
+    xhr.onerror = () => {
+      done();
+      show($("image-msg"), `${file.name}: the upload failed (the connection closed); check that the `
+        + "server still runs and try again");
+    };
+    xhr.onload = () => {
+      done();
+      let data = null;
+      try { data = JSON.parse(xhr.responseText); } catch (e) { /* not JSON */ }
+      if (xhr.status !== 200 || !data) {
+        show($("image-msg"), (data && data.error) || `${file.name}: the server answered ${xhr.status}`);
+        return;
+      }
+      accept(data, note).catch((e) => show($("image-msg"), e.message));
+    };
+    xhr.send(file);
+  }
+
+  async function accept(facts, note) {
+    S.up = facts;
+    S.labels = null;
+    S.auto = true;
+    const buf = await api(`/api/uploads/${facts.id}/preview`, { binary: true });
+    S.grey = new Float32Array(buf);
+    [S.ph, S.pw] = facts.preview_shape;
+    showFacts(facts, note);
+    const labelsOk = Array.isArray(facts.label_values);
+    $("kind-labels").disabled = !labelsOk;
+    const kind = labelsOk ? "labels" : "grayscale";
+    document.querySelector(`input[name=kind][value=${kind}]`).checked = true;
+    S.classes = facts.suggested_classes && facts.suggested_classes >= 2 ? facts.suggested_classes : 3;
+    for (const id of ["step-map", "step-phases", "step-compute"]) $(id).hidden = false;
+    await setKind();
+  }
+
+  function showFacts(f, note) {
+    $("image-facts").hidden = false;
+    $("f-name").textContent = f.name;
+    const [ny, nx] = f.shape;
+    $("f-size").textContent = `${nx} × ${ny} px · ${bytes(f.bytes)}`;
+    $("f-type").textContent = `${f.is_rgb ? "RGB, read as luminance" : "grey"} · ${f.dtype}`
+      + (f.n_pages > 1 ? ` · page 1 of ${f.n_pages}` : "");
+    const px = $("pixel-size");
+    px.value = f.pixel_size_um === null ? "" : String(+f.pixel_size_um.toPrecision(6));
+    px.dataset.fromFile = px.value;
+    $("pixel-note").textContent = f.pixel_size_um === null
+      ? "Not in the file. Enter it to get sizes in µm (otherwise in pixels)."
+      : `Read from the ${f.pixel_size_from === "tiff-tags" ? "TIFF resolution tags" : f.pixel_size_from}; change it if the calibration is wrong.`;
+    $("crop-note").textContent = f.cropped_bottom_px
+      ? `${f.cropped_bottom_px} rows cut; the image analysed is ${nx} × ${ny} px.`
+      : "Nothing cut.";
+    const notes = $("image-notes");
+    notes.replaceChildren(...[note, ...f.notes].filter(Boolean).map((n) => el("li", { text: n })));
+    drawThumb();
+  }
+
+  async function reinspect() {
+    if (!S.up) return;
+    hide($("image-msg"));
+    try {
+      const facts = await api(`/api/uploads/${S.up.id}/inspect`, { json: { crop: cropValue() } });
+      await accept(facts, null);
+    } catch (e) {
+      show($("image-msg"), e.message);
+    }
+  }
+
+  function cropValue() {
+    const v = $("crop").value;
+    if (v === "auto") return "auto";
+    if (v === "rows") return Math.max(0, parseInt($("crop-rows").value, 10) || 0);
+    return 0;
+  }
+
+  function greyRange() { return [S.up.range[0], S.up.range[1] > S.up.range[0] ? S.up.range[1] : S.up.range[0] + 1]; }
+
+  function drawThumb() {
+    const c = $("thumb");
+    c.width = S.pw; c.height = S.ph;
+    const ctx = c.getContext("2d");
+    const img = ctx.createImageData(S.pw, S.ph);
+    const [lo, hi] = greyRange();
+    for (let i = 0; i < S.grey.length; i++) {
+      const g = 255 * (S.grey[i] - lo) / (hi - lo);
+      img.data[4 * i] = img.data[4 * i + 1] = img.data[4 * i + 2] = g;
+      img.data[4 * i + 3] = 255;
+    }
+    ctx.putImageData(img, 0, 0);
+  }
+
+  async function setKind() {
+    S.kind = document.querySelector("input[name=kind]:checked").value;
+    const grey = S.kind === "grayscale";
+    for (const id of ["class-controls", "hist-wrap", "th-inputs", "th-mode"]) $(id).hidden = !grey;
+    document.querySelector(".hist-legend").hidden = !grey;
+    document.querySelector("details.more").hidden = !grey;
+    hide($("map-msg"));
+    if (grey) {
+      $("classes").value = S.classes;
+      $("suggested").textContent = S.up.suggested_classes
+        ? `suggested: ${S.up.suggested_classes}` : "no suggestion";
+      if (S.up.suggest_note) show($("map-msg"), S.up.suggest_note);
+      await autoThresholds();
+    } else {
+      S.labels = null;
+      buildRows();
+      drawOverlay();
+      $("overlay-note").textContent = "Each value of the label image is one phase.";
+    }
+  }
+
+  // ---------------------------------------------------------------- step 2: phase map
+  function wireMapStep() {
+    $("classes").addEventListener("change", () => { S.classes = +$("classes").value; autoThresholds(); });
+    $("auto-th").addEventListener("click", autoThresholds);
+    $("denoise").addEventListener("change", segSettingsChanged);
+    $("denoise-px").addEventListener("change", segSettingsChanged);
+    $("min-feature").addEventListener("change", () => refreshLabels());
+    $("alpha").addEventListener("input", drawOverlay);
+  }
+
+  function segSettings() {
+    return {
+      denoise: $("denoise").value,
+      denoise_px: Number($("denoise-px").value) || 1,
+      min_feature_px: Math.max(0, parseInt($("min-feature").value, 10) || 0),
+    };
+  }
+
+  function segSettingsChanged() { if (S.auto) autoThresholds(); else refreshLabels(); }
+
+  async function autoThresholds() {
+    if (!S.up || S.kind !== "grayscale") return;
+    const seq = ++S.seq;
+    hide($("map-msg"));
+    $("th-mode").textContent = "Finding the thresholds on the full image…";
+    const s = segSettings();
+    try {
+      const r = await api(`/api/uploads/${S.up.id}/thresholds`, {
+        json: { crop: cropValue(), classes: S.classes, denoise: s.denoise, denoise_px: s.denoise_px },
+      });
+      if (seq !== S.seq) return;
+      S.th = r.thresholds;
+      S.auto = true;
+    } catch (e) {
+      if (seq !== S.seq) return;
+      show($("map-msg"), e.message);
+      S.th = evenThresholds(S.classes);
+      S.auto = false;
+    }
+    buildRows();
+    thresholdsChanged(false);
+    refreshLabels();
+  }
+
+  function evenThresholds(n) {
+    const [lo, hi] = greyRange();
+    return Array.from({ length: n - 1 }, (_, i) => lo + (hi - lo) * (i + 1) / n);
+  }
+
+  function thresholdsChanged(byUser) {
+    if (byUser) S.auto = false;
+    $("th-mode").textContent = S.auto
+      ? "Automatic: multi-Otsu thresholds of the full image; the run finds them the same way."
+      : "Your thresholds: the run uses them as given (method = \"thresholds\").";
+    placeHandles();
+    drawHistogram();
+    drawOverlay();
+  }
+
+  const refreshLabels = debounce(async () => {
+    if (!S.up || S.kind !== "grayscale" || !S.th.length) return;
+    const s = segSettings();
+    const key = JSON.stringify([S.up.id, S.th, s]);
+    try {
+      const buf = await api(`/api/uploads/${S.up.id}/labels`, { json: { thresholds: S.th, ...s }, binary: true });
+      S.labels = new Uint8Array(buf);
+      S.labelsKey = key;
+      hide($("map-msg"));
+    } catch (e) {
+      S.labels = null;
+      show($("map-msg"), e.message);
+    }
+    drawOverlay();
+  }, 250);
+
+  function histX(v, w) { const [lo, hi] = greyRange(); return (v - lo) / (hi - lo) * w; }
+
+  function classOf(v) {
+    let k = 0;
+    while (k < S.th.length && v > S.th[k]) k++;
+    return k;
+  }
+
+  function drawHistogram() {
+    const c = $("hist"), dpr = window.devicePixelRatio || 1;
+    const w = c.clientWidth, h = c.clientHeight;
+    if (!w) return;
+    c.width = Math.round(w * dpr); c.height = Math.round(h * dpr);
+    const ctx = c.getContext("2d");
+    ctx.scale(dpr, dpr);
+    ctx.clearRect(0, 0, w, h);
+    const counts = S.up.histogram.counts, n = counts.length;
+    const top = Math.log1p(Math.max(...counts));
+    const [lo, hi] = greyRange();
+    for (let i = 0; i < n; i++) {
+      const centre = lo + (hi - lo) * (i + 0.5) / n;
+      const bh = top > 0 ? (h - 18) * Math.log1p(counts[i]) / top : 0;
+      ctx.fillStyle = colour(classOf(centre));
+      ctx.globalAlpha = 0.85;
+      ctx.fillRect(i * w / n, h - bh, Math.max(1, w / n - 0.5), bh);
+    }
+    ctx.globalAlpha = 1;
+    $("hist-lo").textContent = fmt(lo, 5);
+    $("hist-hi").textContent = fmt(hi, 5);
+  }
+
+  function placeHandles() {
+    const box = $("handles"), inputs = $("th-inputs");
+    if (box.children.length !== S.th.length) {
+      box.replaceChildren();
+      inputs.replaceChildren();
+      S.th.forEach((_, i) => {
+        const hnd = el("div", { class: "handle", role: "slider", tabindex: 0,
+          "aria-label": `Threshold between class ${i} and class ${i + 1}` });
+        wireHandle(hnd, i);
+        box.append(hnd);
+        const inp = el("input", { type: "number", step: "any", id: `th-${i}`,
+          "aria-label": `Threshold ${i + 1}, grey level` });
+        inp.addEventListener("change", () => setThreshold(i, Number(inp.value), true));
+        inputs.append(el("label", { for: `th-${i}`, text: `${i}|${i + 1}` }), inp);
+      });
+    }
+    const [lo, hi] = greyRange();
+    const w = $("hist-wrap").clientWidth;
+    S.th.forEach((t, i) => {
+      const hnd = box.children[i];
+      hnd.style.left = `${histX(t, w)}px`;
+      hnd.setAttribute("aria-valuemin", fmt(lo, 6));
+      hnd.setAttribute("aria-valuemax", fmt(hi, 6));
+      hnd.setAttribute("aria-valuenow", fmt(t, 6));
+      hnd.setAttribute("aria-valuetext", `grey level ${fmt(t, 5)}`);
+      const inp = $(`th-${i}`);
+      if (document.activeElement !== inp) inp.value = fmt(t, 6);
+    });
+  }
+
+  function setThreshold(i, v, final) {
+    if (!Number.isFinite(v)) { placeHandles(); return; }
+    const [lo, hi] = greyRange();
+    const gap = (hi - lo) / 1e4;
+    const min = i > 0 ? S.th[i - 1] + gap : lo;
+    const max = i < S.th.length - 1 ? S.th[i + 1] - gap : hi;
+    S.th[i] = Math.min(max, Math.max(min, v));
+    thresholdsChanged(true);
+    if (final) refreshLabels();
+  }
+
+  function wireHandle(hnd, i) {
+    const valueAt = (clientX) => {
+      const r = $("hist-wrap").getBoundingClientRect();
+      const [lo, hi] = greyRange();
+      return lo + (hi - lo) * (clientX - r.left) / r.width;
+    };
+    hnd.addEventListener("pointerdown", (e) => {
+      e.preventDefault();
+      hnd.setPointerCapture(e.pointerId);
+      hnd.classList.add("dragging");
+      hnd.focus();
+      S.dragging = i;
+    });
+    hnd.addEventListener("pointermove", (e) => { if (S.dragging === i) setThreshold(i, valueAt(e.clientX), false); });
+    const end = () => {
+      if (S.dragging !== i) return;
+      S.dragging = -1;
+      hnd.classList.remove("dragging");
+      refreshLabels();
+    };
+    hnd.addEventListener("pointerup", end);
+    hnd.addEventListener("pointercancel", end);
+    hnd.addEventListener("keydown", (e) => {
+      const [lo, hi] = greyRange();
+      const bin = (hi - lo) / S.up.histogram.counts.length;
+      const steps = { ArrowLeft: -1, ArrowDown: -1, ArrowRight: 1, ArrowUp: 1, PageDown: -10, PageUp: 10 };
+      if (e.key in steps) setThreshold(i, S.th[i] + steps[e.key] * bin * (e.shiftKey ? 10 : 1), true);
+      else if (e.key === "Home") setThreshold(i, lo, true);
+      else if (e.key === "End") setThreshold(i, hi, true);
+      else return;
+      e.preventDefault();
+    });
+  }
+
+  /** Class index of every preview pixel: the server's labels when current, else from the grey levels. */
+  function previewClasses() {
+    const n = S.grey.length;
+    if (S.kind === "labels") {
+      const index = new Map(S.up.label_values.map((v, i) => [v, i]));
+      return Uint8Array.from(S.grey, (v) => index.get(Math.round(v)) ?? 0);
+    }
+    const s = segSettings();
+    const current = S.labels && S.dragging < 0 && S.labelsKey === JSON.stringify([S.up.id, S.th, s]);
+    $("overlay-note").textContent = current
+      ? `Preview at 1/${S.up.preview_step} of the resolution, smoothing and clean-up applied; the run uses the full image.`
+      : "Preview from the raw grey levels while you adjust…";
+    if (current) return S.labels;
+    const out = new Uint8Array(n);
+    for (let i = 0; i < n; i++) out[i] = classOf(S.grey[i]);
+    return out;
+  }
+
+  function drawOverlay() {
+    if (!S.up) return;
+    const c = $("overlay");
+    c.width = S.pw; c.height = S.ph;
+    const ctx = c.getContext("2d");
+    const img = ctx.createImageData(S.pw, S.ph);
+    const cls = previewClasses();
+    const a = $("alpha").value / 100;
+    const cols = Array.from({ length: 9 }, (_, i) => rgb(colour(i)));
+    const [lo, hi] = greyRange();
+    const counts = new Array(cols.length).fill(0);
+    for (let i = 0; i < cls.length; i++) {
+      const g = 255 * (S.grey[i] - lo) / (hi - lo), col = cols[cls[i]] || cols[0];
+      counts[cls[i]]++;
+      img.data[4 * i] = (1 - a) * g + a * col[0];
+      img.data[4 * i + 1] = (1 - a) * g + a * col[1];
+      img.data[4 * i + 2] = (1 - a) * g + a * col[2];
+      img.data[4 * i + 3] = 255;
+    }
+    ctx.putImageData(img, 0, 0);
+    classList().forEach((label, k) => {
+      const cell = document.querySelector(`#phase-rows tr[data-label="${label}"] .share`);
+      if (cell) cell.textContent = `${(100 * counts[k] / cls.length).toFixed(1)} %`;
+    });
+  }
+
+  // ---------------------------------------------------------------- step 3: phases
+  function classList() {
+    if (S.kind === "labels") return S.up.label_values.slice();
+    return Array.from({ length: S.classes }, (_, i) => i);
+  }
+
+  function rowState(label) {
+    if (!S.rows.has(label)) S.rows.set(label, { name: "", material: "", own: false, values: {}, particles: "auto" });
+    return S.rows.get(label);
+  }
+
+  function buildRows() {
+    const body = $("phase-rows");
+    body.replaceChildren(...classList().map((label, k) => phaseRow(label, k)));
+  }
+
+  function phaseRow(label, k) {
+    const st = rowState(label);
+    const name = el("input", { type: "text", value: st.name, "aria-label": `Name of class ${label}`,
+      placeholder: st.material && !st.own ? st.material : `phase-${label}` });
+    name.addEventListener("input", () => { st.name = name.value.trim(); });
+    const particles = el("select", { "aria-label": `Particle statistics for class ${label}` },
+      ...[["auto", "auto"], ["yes", "yes"], ["no", "no"]].map(([v, t]) =>
+        el("option", { value: v, text: t, selected: st.particles === v })));
+    particles.addEventListener("change", () => { st.particles = particles.value; });
+    const swatch = el("span", { class: "swatch", "aria-hidden": "true" });
+    swatch.style.background = colour(k);
+    return el("tr", { "data-label": label },
+      el("td", {}, swatch, String(label)),
+      el("td", {}, name),
+      el("td", {}, materialPicker(label, st, name)),
+      el("td", {}, particles),
+      el("td", { class: "num-col share", text: "–" }));
+  }
+
+  function materialPicker(label, st, nameInput) {
+    const lib = S.info.materials;
+    const listId = `mat-list-${label}`;
+    const input = el("input", { type: "text", role: "combobox", "aria-autocomplete": "list",
+      "aria-expanded": "false", "aria-controls": listId, autocomplete: "off",
+      "aria-label": `Material of class ${label}`, placeholder: "type to search the library",
+      value: st.own ? "own values" : st.material });
+    const list = el("ul", { role: "listbox", id: listId, hidden: true });
+    const props = el("div", { class: "matprops" });
+    const own = el("div", { class: "own-values", hidden: !st.own });
+    for (const [key, sym, unit, scale] of OWN) {
+      const inp = el("input", { type: "number", step: "any", value: st.values[key] ?? "",
+        "aria-label": `${sym} of class ${label}, ${unit}` });
+      inp.addEventListener("input", () => { st.values[key] = inp.value; });
+      own.append(el("label", {}, `${sym} ${unit}`, inp));
+      inp.dataset.scale = scale;
+    }
+    let active = -1, options = [];
+    const describe = (m) => [["k", m.conductivity, ""], ["E", m.youngs_modulus, " GPa"],
+      ["ν", m.poisson_ratio, ""], ["α", m.expansion === undefined ? undefined : m.expansion * 1e6, "·10⁻⁶/K"]]
+      .filter(([, v]) => v !== undefined).map(([s, v, u]) => `${s} ${fmt(v, 3)}${u}`).join(" · ");
+    const showProps = () => {
+      const m = lib.find((x) => x.key === st.material);
+      props.textContent = st.own ? "" : m ? describe(m)
+        : st.material ? "not in the library: the run will say what is close" : "";
+    };
+    const close = () => { list.hidden = true; input.setAttribute("aria-expanded", "false"); input.removeAttribute("aria-activedescendant"); };
+    const choose = (opt) => {
+      if (opt.own) {
+        st.own = true; st.material = ""; input.value = "own values";
+      } else {
+        st.own = false; st.material = opt.key; input.value = opt.key;
+      }
+      own.hidden = !st.own;
+      nameInput.placeholder = st.own || !st.material ? `phase-${label}` : st.material;
+      showProps();
+      close();
+    };
+    const render = () => {
+      const q = input.value.trim().toLowerCase();
+      const hits = lib.filter((m) => !q || q === "own values" || m.key.includes(q) || m.description.toLowerCase().includes(q));
+      options = [...hits, { own: true }];
+      list.replaceChildren(...options.map((m, i) => el("li", {
+        role: "option", id: `${listId}-${i}`, "aria-selected": i === active ? "true" : "false", class: m.own ? "own" : null,
+      }, m.own ? "own values…" : m.key, m.own ? null : el("small", { text: m.description }))));
+      [...list.children].forEach((li, i) => {
+        li.addEventListener("mousedown", (e) => { e.preventDefault(); choose(options[i]); });
+      });
+      list.hidden = false;
+      input.setAttribute("aria-expanded", "true");
+      if (active >= 0) {
+        input.setAttribute("aria-activedescendant", `${listId}-${active}`);
+        list.children[active].scrollIntoView({ block: "nearest" });
+      }
+    };
+    input.addEventListener("focus", () => { active = -1; render(); });
+    input.addEventListener("input", () => {
+      active = -1;
+      st.own = false; own.hidden = true;
+      st.material = input.value.trim().toLowerCase();
+      showProps();
+      render();
+    });
+    input.addEventListener("keydown", (e) => {
+      if (e.key === "ArrowDown" || e.key === "ArrowUp") {
+        e.preventDefault();
+        const n = options.length;
+        active = e.key === "ArrowDown" ? (active + 1) % n : (active - 1 + n) % n;
+        render();
+      } else if (e.key === "Enter" && !list.hidden && active >= 0) {
+        e.preventDefault();
+        choose(options[active]);
+      } else if (e.key === "Escape") {
+        close();
+      }
+    });
+    input.addEventListener("blur", close);
+    showProps();
+    return el("div", { class: "combo" }, input, list, props, own);
+  }
+
+  // ---------------------------------------------------------------- step 4: run
+  function runConfig() {
+    const image = { kind: S.kind, crop_bottom_px: cropValue() };
+    const px = $("pixel-size").value.trim();
+    if (px !== "" && px !== $("pixel-size").dataset.fromFile) image.pixel_size_um = Number(px);
+    const s = segSettings();
+    const segment = S.kind !== "grayscale" ? undefined
+      : S.auto ? { method: "multi-otsu", classes: S.classes, ...s }
+        : { method: "thresholds", thresholds: S.th.slice(), ...s };
+    const phase = classList().map((label) => {
+      const st = rowState(label);
+      const p = { label };
+      if (st.name) p.name = st.name;
+      if (!st.own && st.material) p.material = st.material;
+      if (st.particles !== "auto") p.particles = st.particles === "yes";
+      if (st.own) {
+        for (const [key, , , scale] of OWN) {
+          const raw = (st.values[key] ?? "").toString().trim();
+          if (raw !== "") p[key] = Number(raw) * scale;
+        }
+      }
+      return p;
+    });
+    const properties = [...document.querySelectorAll("#props input:checked")].map((i) => i.value);
+    const solve = { properties, plane: $("plane").value };
+    if ($("est3d").checked) solve.estimate_3d = true;
+    return { image, segment, phase, solve };
+  }
+
+  async function submitRun() {
+    hide($("run-msg"));
+    if (!S.up) { show($("run-msg"), "drop an image first (step 1)"); return; }
+    const btn = $("run");
+    btn.disabled = true;
+    try {
+      const r = await api("/api/runs", { json: { upload: S.up.id, config: runConfig() } });
+      await openRun(r.id);
+      refreshRuns();
+    } catch (e) {
+      show($("run-msg"), e.message);
+    } finally {
+      btn.disabled = false;
+    }
+  }
+
+  // ---------------------------------------------------------------- step 5: progress and result
+  async function openRun(id) {
+    clearTimeout(S.pollTimer);
+    S.runId = id;
+    $("step-result").hidden = false;
+    $("result-title").textContent = `Run ${id}`;
+    $("result").hidden = true;
+    hide($("result-msg"));
+    $("log").replaceChildren();
+    markCurrent();
+    await poll(id, true);
+    $("step-result").scrollIntoView({ behavior: "smooth", block: "start" });
+  }
+
+  async function poll(id, first) {
+    if (id !== S.runId) return;
+    let st;
+    try {
+      st = await api(`/api/runs/${id}`);
+    } catch (e) {
+      show($("result-msg"), e.message);
+      return;
+    }
+    if (id !== S.runId) return;
+    const final = FINAL.includes(st.state);
+    $("progress").hidden = final && st.state === "done";
+    $("state").textContent = st.state;
+    $("state").className = `state ${st.state}`;
+    $("stage").textContent = st.stage || "";
+    $("cancel").hidden = final;
+    document.querySelector("#progress .bar").hidden = final;
+    const end = st.finished || st.server_time;
+    $("elapsed").textContent = st.started ? `${(end - st.started).toFixed(1)} s` : "";
+    const log = st.log || [];
+    $("log").replaceChildren(...log.slice(-12).map(([t, m]) => el("li", { text: `${t.toFixed(1).padStart(6)} s  ${m}` })));
+    if (!final) {
+      S.pollTimer = setTimeout(() => poll(id, false), 400);
+      return;
+    }
+    if (!first || st.state !== "done" || $("result").hidden) refreshRuns();
+    if (st.state === "done") await showResult(id, st);
+    else if (st.error) show($("result-msg"), st.error);
+    else if (st.state === "cancelled") show($("result-msg"), "the run was cancelled; its folder keeps what was written so far");
+    else if (st.state === "interrupted") show($("result-msg"), "the server stopped during this run; run it again");
+  }
+
+  async function cancelRun() {
+    if (!S.runId) return;
+    try {
+      await api(`/api/runs/${S.runId}/cancel`, { json: {} });
+    } catch (e) {
+      show($("result-msg"), e.message);
+    }
+    poll(S.runId, false);
+  }
+
+  const DOWNLOAD_LABELS = [["report", "Report", "HTML"], ["json", "Result", "JSON"], ["csv", "Headline numbers", "CSV"],
+    ["phasemap", "Phase map", "TIFF"], ["config", "Run config", "TOML"], ["overlay", "Overlay", "PNG"],
+    ["particles", "Particles", "CSV"]];
+
+  async function showResult(id, st) {
+    const d = await api(`/api/runs/${id}/files/json`);
+    if (id !== S.runId) return;
+    const base = `/api/runs/${encodeURIComponent(id)}/files`;
+    const outputs = { ...st.outputs, config: "config.toml" };
+    $("downloads").replaceChildren(...DOWNLOAD_LABELS.filter(([k]) => outputs[k]).map(([k, label, type]) =>
+      el("a", { href: `${base}/${k}`, download: outputs[k], "data-kind": k }, label, el("small", { text: type }))));
+    const head = el("thead", {}, el("tr", {}, ...["Phase", "Material", "Fraction", "95 % interval"].map((h) => el("th", { scope: "col", text: h }))));
+    const rows = d.phases.map((p, k) => {
+      const sw = el("span", { class: "swatch", "aria-hidden": "true" });
+      sw.style.background = colour(k);
+      return el("tr", { "data-label": p.label },
+        el("td", {}, sw, p.name),
+        el("td", { text: materialKeyOf(p) }),
+        el("td", { class: "fraction", text: fixed(p.fraction) }),
+        el("td", { class: "ci", text: `${fixed(p.fraction_ci95[0])} – ${fixed(p.fraction_ci95[1])}` }));
+    });
+    $("fractions").replaceChildren(head, el("tbody", {}, ...rows));
+    $("effective").replaceChildren(effectiveTable(d.effective));
+    $("warnings").replaceChildren(...(d.warnings || []).map((w) => el("li", { text: w })));
+    $("repeat").textContent = `polisect analyze ${st.image} --config config.toml   (in ${S.info.out_dir}/${id})`;
+    $("report").src = `${base}/report?inline=1`;
+    $("result").hidden = false;
+  }
+
+  /** The library key of a phase's material when its source is a library entry, else the source. */
+  function materialKeyOf(p) {
+    const src = p.material.source || "";
+    const m = S.info.materials.find((x) => x.description === src);
+    return m ? m.key : src;
+  }
+
+  function effectiveTable(eff) {
+    if (!eff) {
+      return el("p", { class: "hint", text: "No effective properties in this result: none was asked for, "
+        + "or this polisect version computes phase fractions only." });
+    }
+    const rows = [];
+    if (eff.conductivity) rows.push(["Conductivity", fmt(eff.conductivity.mean_W_mK), "W/(m·K)", "conductivity"]);
+    if (eff.elasticity) {
+      const e = eff.elasticity;
+      rows.push(["Young's modulus", fmt(e.youngs_modulus_GPa), "GPa", "youngs_modulus"],
+        ["Poisson's ratio", fmt(e.poisson_ratio, 3), "–", "poisson_ratio"],
+        ["Bulk modulus", fmt(e.bulk_modulus_GPa), "GPa", "bulk_modulus"],
+        ["Shear modulus", fmt(e.shear_modulus_GPa), "GPa", "shear_modulus"]);
+    }
+    if (eff.expansion) rows.push(["Thermal expansion", fmt(eff.expansion.mean_per_K * 1e6), "10⁻⁶/K", "expansion"]);
+    const table = el("table", { class: "grid" }, el("tbody", {}, ...rows.map(([n, v, u, key]) =>
+      el("tr", { "data-key": key }, el("td", { text: n }), el("td", { class: "value", text: v }), el("td", { text: u })))));
+    return el("div", {}, table, eff.model ? el("p", { class: "hint", text: eff.model }) : null);
+  }
+
+  // ---------------------------------------------------------------- runs list
+  async function refreshRuns() {
+    let runs;
+    try {
+      runs = (await api("/api/runs")).runs;
+    } catch (e) {
+      return;
+    }
+    const list = $("run-list");
+    if (!runs.length) {
+      list.replaceChildren(el("li", { class: "empty", text: "No runs yet." }));
+      return;
+    }
+    list.replaceChildren(...runs.map((r) => {
+      const when = r.created ? new Date(r.created * 1000).toLocaleString() : "";
+      const b = el("button", { type: "button", "data-run": r.id },
+        el("span", { class: "rname", text: r.image || r.id }),
+        el("span", { class: `state ${r.state}`, text: r.state }),
+        el("span", { class: "rwhen", text: when }));
+      b.addEventListener("click", () => openRun(r.id));
+      return el("li", {}, b);
+    }));
+    markCurrent();
+    if (runs.some((r) => !FINAL.includes(r.state))) setTimeout(refreshRuns, 2000);
+  }
+
+  function markCurrent() {
+    for (const b of document.querySelectorAll("#run-list button")) {
+      b.setAttribute("aria-current", b.dataset.run === S.runId ? "true" : "false");
+    }
+  }
+
+  start();
+})();
