@@ -334,7 +334,8 @@ class PhaseParticles:
         Saltykov unfolding of the ECDs.
     spacing : Spacing
         Fullman mean intercept and mean free path; contiguity when touching particles were
-        split (without splitting no particle–particle boundary exists and it is ``None``).
+        split (without splitting no particle–particle boundary exists: contiguity is
+        ``None`` and touching particles count as one intercept).
     neighbours : NearestNeighbour
         Nearest-neighbour distances between particle centroids.
     split_touching : bool

@@ -73,8 +73,8 @@ def label_particles(mask: np.ndarray, split_touching: bool = False,
     split_touching : bool
         Split touching particles.
     split_depth_px : float
-        Smallest neck depth, pixels, that splits (default 1 px, above the ≈0.5 px ripple of
-        the distance map of a digitised outline).
+        Smallest neck depth, pixels, that splits (default 1 px: above the ripple, up to
+        ≈0.9 px, of the distance map along the ridge of a digitised elongated particle).
 
     Returns
     -------
@@ -125,9 +125,9 @@ def _h_maxima_markers(depth: np.ndarray, own: np.ndarray, h: float):
     A maximum is kept when its dynamic is at least *h* (inclusive: distance values are
     square roots of integers, and a neck exactly one pixel below a small particle's centre
     must split). The regional maxima of the reconstruction by dilation of depth − h under
-    depth are
-    plateaus; each plateau is one marker, even when several original peaks of equal height
-    lie in it (which the pixels returned by ``skimage.morphology.h_maxima`` would not say).
+    depth are plateaus; each plateau is one marker, even when several original peaks of
+    equal height lie in it (the pixels ``skimage.morphology.h_maxima`` returns would make
+    separate markers of them and split an elongated particle).
     """
     hmax = reconstruction(depth - (h - _DEPTH_TOLERANCE), depth, method="dilation")
     plateaus = local_maxima(hmax, connectivity=2, allow_borders=True) & own
