@@ -243,10 +243,27 @@ def test_rows_and_units():
     assert rows[0]["ecd_um"] == pytest.approx(2 * rows[0]["area_um2"] ** 0.5 / math.pi ** 0.5)
 
 
-def test_bad_input():
-    """Common practice (no source): 3D stacks and negative labels raise InputError."""
+def test_3d_labelling_counts_spheres():
+    """3D stacks: 26-connected particles; split RSA spheres give one label per sphere piece,
+    and measure_particles refuses 3D with a clear message.
+
+    Source: scipy.ndimage.label as an independent count (CHECKS.md); truth from synth.
+    """
+    from polisect.synth import rsa_spheres
+
+    p = rsa_spheres((48, 48, 48), 0.2, 5.0, seed=3, min_gap=2.0)
+    m = p.labels == 1
+    _, n = ndi.label(m, structure=np.ones((3, 3, 3)))
+    assert label_particles(m).max() == n
+    assert label_particles(m, split_touching=True).max() == n
     with pytest.raises(InputError, match="2D"):
-        label_particles(np.zeros((4, 4, 4), bool))
+        measure_particles(label_particles(m))
+
+
+def test_bad_input():
+    """Common practice (no source): 4D arrays and negative labels raise InputError."""
+    with pytest.raises(InputError, match="3D"):
+        label_particles(np.zeros((4, 4, 4, 4), bool))
     with pytest.raises(InputError, match="non-negative"):
         measure_particles(-np.ones((4, 4), int))
     with pytest.raises(InputError, match="1..n"):

@@ -1,6 +1,6 @@
 """Particles of one phase of a 2D section: labelling, splitting, per-particle measurements.
 
-* `label_particles`: connected components (8-connectivity), optionally split where
+* `label_particles`: connected components (8-connectivity; 26 in 3D), optionally split where
   particles touch by a watershed of the distance transform.
 * `measure_particles`: one row per particle (`ParticleTable`): area, equivalent circle
   diameter, Feret diameters, aspect ratio, solidity, circularity, centroid, holes (hollow
@@ -36,7 +36,6 @@ from .errors import InputError
 
 UNITS_UM = "um"
 UNITS_PX = "px"
-_STRUCTURE_8 = np.ones((3, 3), dtype=bool)
 _DEPTH_TOLERANCE = 1e-9
 
 
@@ -56,7 +55,7 @@ def label_particles(mask: np.ndarray, split_touching: bool = False,
     """Number the particles of a binary phase mask.
 
     Particles are the 8-connected components of *mask* (pixels sharing an edge or a corner
-    belong to one particle). With *split_touching*, each component is further divided by a
+    belong to one particle; in a 3D stack the 26-connected ones). With *split_touching*, each component is further divided by a
     watershed [1]_ of the negated Euclidean distance transform: one marker per maximum of
     the distance map whose dynamic (height above the saddle that joins it to a higher
     maximum) is at least *split_depth_px* (an h-maxima transform [2]_). Geometrically: two
@@ -68,8 +67,8 @@ def label_particles(mask: np.ndarray, split_touching: bool = False,
 
     Parameters
     ----------
-    mask : ndarray of bool, 2D
-        Pixels of the phase.
+    mask : ndarray of bool, 2D or 3D
+        Pixels (voxels) of the phase.
     split_touching : bool
         Split touching particles.
     split_depth_px : float
@@ -95,8 +94,10 @@ def label_particles(mask: np.ndarray, split_touching: bool = False,
     >>> int(label_particles(two).max()), int(label_particles(two, split_touching=True).max())
     (1, 2)
     """
-    mask = _require_2d(mask).astype(bool, copy=False)
-    components = sk_label(mask, connectivity=2).astype(np.int32)
+    mask = np.asarray(mask).astype(bool, copy=False)
+    if mask.ndim not in (2, 3):
+        raise InputError(f"particles need a 2D image or a 3D stack, got shape {mask.shape}")
+    components = sk_label(mask, connectivity=mask.ndim).astype(np.int32)
     if not split_touching or components.max() == 0:
         return components
     if not split_depth_px > 0:
@@ -112,7 +113,7 @@ def label_particles(mask: np.ndarray, split_touching: bool = False,
         markers, n_markers = _h_maxima_markers(depth, own, split_depth_px)
         if n_markers < 2:
             continue
-        parts = watershed(-depth, markers, mask=own, connectivity=2)
+        parts = watershed(-depth, markers, mask=own, connectivity=mask.ndim)
         block = out[sl]
         block[own] = np.where(parts[own] == 1, c, parts[own] - 2 + next_label)
         next_label += n_markers - 1
@@ -130,8 +131,8 @@ def _h_maxima_markers(depth: np.ndarray, own: np.ndarray, h: float):
     separate markers of them and split an elongated particle).
     """
     hmax = reconstruction(depth - (h - _DEPTH_TOLERANCE), depth, method="dilation")
-    plateaus = local_maxima(hmax, connectivity=2, allow_borders=True) & own
-    return ndi.label(plateaus, structure=_STRUCTURE_8)
+    plateaus = local_maxima(hmax, connectivity=hmax.ndim, allow_borders=True) & own
+    return ndi.label(plateaus, structure=np.ones((3,) * hmax.ndim, dtype=bool))
 
 
 def _components_with_several_peaks(dist, mask, components) -> np.ndarray:
@@ -142,7 +143,7 @@ def _components_with_several_peaks(dist, mask, components) -> np.ndarray:
     run on their bounding boxes alone, which keeps splitting cheap on large images.
     """
     peaks = (ndi.maximum_filter(dist, size=3) == dist) & mask
-    plateaus, _ = ndi.label(peaks, structure=_STRUCTURE_8)
+    plateaus, _ = ndi.label(peaks, structure=np.ones((3,) * dist.ndim, dtype=bool))
     first = np.unique(plateaus.ravel(), return_index=True)[1][1:]
     per_component = np.bincount(components.ravel()[first], minlength=int(components.max()) + 1)
     return np.flatnonzero(per_component > 1)
