@@ -24,6 +24,8 @@ import numpy as np
 from . import layered
 
 MODES = ("conduction", "bulk", "shear")
+HOLLOW_MIN = 1e-3
+"""Inner/outer diameter ratios below this are solid particles (core fraction ≤ 1e-6)."""
 
 
 @dataclass(frozen=True)
@@ -41,7 +43,8 @@ class Particle:
         3D isotropic K and G, GPa (0 for a pore). The 2D schemes use the plane-strain
         transverse bulk modulus K + G/3 from these.
     hollow : float
-        Inner/outer diameter ratio of a hollow particle, 0 ≤ hollow < 1 (0: solid).
+        Inner/outer diameter ratio of a hollow particle, 0 ≤ hollow < 1; below
+        `HOLLOW_MIN` the particle is solid.
     core_conductivity : float
         Conductivity of the gas in the core of a hollow particle, W/(m·K).
     name : str
@@ -55,6 +58,11 @@ class Particle:
     hollow: float = 0.0
     core_conductivity: float = 0.0
     name: str = ""
+
+    @property
+    def is_hollow(self) -> bool:
+        """True for a hollow particle (diameter ratio at least `HOLLOW_MIN`)."""
+        return self.hollow >= HOLLOW_MIN
 
     def has(self, mode: str) -> bool:
         """True when the particle has the properties *mode* needs."""
@@ -78,7 +86,7 @@ class Particle:
 
     def layers(self, mode: str, dim: int, scale: float = 1.0) -> list:
         """``[(props, outer radius), ...]`` from the centre out, outer radius *scale*."""
-        if self.hollow <= 0.0:
+        if not self.is_hollow:
             return [(self.props(mode, dim), scale)]
         core = (self.core_conductivity,) if mode == "conduction" else (0.0, 0.0)
         return [(core, self.hollow * scale), (self.props(mode, dim), scale)]
@@ -166,9 +174,9 @@ def factors(p: Particle, mode: str, dim: int, ref: Moduli) -> tuple[float, float
     .. [3] Herve, E., & Zaoui, A. (1993). n-layered inclusion-based micromechanical
        modelling. Int. J. Eng. Sci. 31, 1–10.
     """
-    if p.hollow > 0.0 and mode == "shear":
+    if p.is_hollow and mode == "shear":
         return layered.factors(p.layers(mode, dim), mode, dim, _ref_props(mode, ref))
-    m = equivalent(p, mode, dim) if p.hollow > 0.0 else p.modulus(mode, dim)
+    m = equivalent(p, mode, dim)
     c = constraint(mode, dim, ref)
     m0 = ref.get(mode)
     t_eps = (m0 + c) / (m + c)
@@ -181,7 +189,7 @@ def equivalent(p: Particle, mode: str, dim: int) -> float:
     Exact for conduction and bulk, where a coated sphere or cylinder acts outside as a
     homogeneous one (Hashin 1962); for a solid particle its own modulus.
     """
-    if p.hollow <= 0.0:
+    if not p.is_hollow:
         return p.modulus(mode, dim)
     if mode == "shear":
         raise ValueError("a hollow particle has no equivalent shear modulus")
@@ -211,16 +219,25 @@ def mean_field(particles, mode: str, dim: int, ref: Moduli) -> float:
 def residual(particles, mode: str, dim: int, ref: Moduli) -> float:
     """``Σ f (t_sig − M t_eps) / (M + M')`` with M the reference modulus of *mode*.
 
-    Zero at the self-consistent point; the division by M + M' keeps its sign and scale
-    as the reference stiffness tends to zero (the dilute factors carry M + M').
+    Zero at the self-consistent point. For a homogeneous particle the term is
+    ``f (M_i − M)/(M_i + M')``, free of the common factor M + M' that vanishes with the
+    reference stiffness; a void particle in a medium of zero constraint gives −∞.
     """
     m0 = ref.get(mode)
-    scale = m0 + constraint(mode, dim, ref)
+    c = constraint(mode, dim, ref)
     total = 0.0
     for p in particles:
-        t_eps, t_sig = factors(p, mode, dim, ref)
-        total += p.fraction * (t_sig - m0 * t_eps)
-    return total / scale
+        if p.fraction == 0.0:
+            continue
+        if p.is_hollow and mode == "shear":
+            t_eps, t_sig = factors(p, mode, dim, ref)
+            total += p.fraction * (t_sig - m0 * t_eps) / (m0 + c)
+            continue
+        m = equivalent(p, mode, dim)
+        if m + c <= 0.0:
+            return -np.inf
+        total += p.fraction * (m - m0) / (m + c)
+    return total
 
 
 def constituents(particles, dim: int) -> list[Particle]:
@@ -231,7 +248,7 @@ def constituents(particles, dim: int) -> list[Particle]:
     """
     out = []
     for p in particles:
-        if p.hollow <= 0.0:
+        if not p.is_hollow:
             out.append(p)
             continue
         core = p.fraction * p.hollow ** dim

@@ -93,7 +93,7 @@ def _sc_scalar(particles, mode, dim, others: Moduli):
     def g(m):
         return residual(particles, mode, dim, _with(others, mode, m))
 
-    if lo == 0.0:
+    if lo == 0.0 and not (mode == "bulk" and constraint("bulk", dim, others) > 0.0):
         lo = 1e-9 * hi
         if g(lo) <= 0.0:
             return 0.0

@@ -312,8 +312,6 @@ def _validate(phases, matrix, dim, hollow):
         if not (0.0 <= ratio < 1.0):
             raise InputError(f"hollow phase {name!r}: inner/outer diameter ratio {ratio:g} must be "
                              "at least 0 and less than 1")
-        if name == matrix:
-            raise InputError(f"the matrix {name!r} cannot be hollow: hollow phases are inclusions")
     return names
 
 
@@ -370,6 +368,11 @@ def evaluate(phases, *, matrix: str | None = None, dim: int = 3,
     fractions = check_fractions(phases)
     if matrix is None:
         matrix = names[int(np.argmax(fractions))]
+        if matrix in hollow:
+            raise InputError(f"the matrix defaults to the phase with the largest fraction, "
+                             f"{matrix!r}, which is hollow: name a solid matrix phase")
+    elif matrix in hollow:
+        raise InputError(f"the matrix {matrix!r} cannot be hollow: hollow phases are inclusions")
     notes = []
     air = get_material("air").conductivity
     particles = []
@@ -471,6 +474,9 @@ class _Context:
 
     def _expansion_bound(self, lo: Moduli, hi: Moduli) -> Bound:
         i, j = np.flatnonzero(self.f > 0)
+        if self.K[i] == 0.0 or self.K[j] == 0.0:
+            solid = self.alpha[j] if self.K[i] == 0.0 else self.alpha[i]
+            return Bound(solid, solid)
         if self.dim == 3:
             return Bound(*schapery_bounds(self.f[i], self.K[i], self.G[i], self.alpha[i],
                                           self.f[j], self.K[j], self.G[j], self.alpha[j]))
