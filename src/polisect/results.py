@@ -65,6 +65,7 @@ class Result:
     bounds: dict | None = None
     shock: dict | None = None
     windows: dict | None = None
+    correlation: dict | None = None
     warnings: tuple[str, ...] = ()
     notes: tuple[str, ...] = ()
     timings_s: dict = field(default_factory=dict)
@@ -91,6 +92,7 @@ class Result:
             "bounds": self.bounds,
             "shock": self.shock,
             "windows": self.windows,
+            "correlation": self.correlation,
             "warnings": list(self.warnings),
             "notes": list(self.notes),
             "timings_s": self.timings_s,
