@@ -149,6 +149,7 @@ class Handler(BaseHTTPRequestHandler):
         self._dispatch("OTHER")
 
     def _dispatch(self, method: str) -> None:
+        self._unread = method != "GET"
         try:
             self._check_host()
             path = urllib.parse.urlsplit(self.path).path
@@ -214,6 +215,7 @@ class Handler(BaseHTTPRequestHandler):
             self.close_connection = True
             raise HttpError(413, "request too large")
         raw = self.rfile.read(length)
+        self._unread = False
         try:
             data = json.loads(raw.decode("utf-8") or "{}", parse_constant=_no_constant)
         except (UnicodeDecodeError, ValueError) as exc:
@@ -235,11 +237,8 @@ class Handler(BaseHTTPRequestHandler):
             self.close_connection = True
             raise HttpError(413, f"{os.path.basename(name)[:120]}: "
                                  + store.limit_message(length))
-        try:
-            upload = store.save(self.rfile, length, name)
-        except InputError:
-            self.close_connection = True
-            raise
+        upload = store.save(self.rfile, length, name)
+        self._unread = False
         self._json(self._inspect_upload(upload, "auto", fresh=True))
 
     def _inspect_upload(self, upload, crop, *, fresh: bool = False) -> dict:
@@ -332,12 +331,29 @@ class Handler(BaseHTTPRequestHandler):
         self._send(status, json.dumps(data, allow_nan=False).encode("utf-8"), "application/json")
 
     def _error(self, status: int, message: str) -> None:
-        if self.command != "GET":
-            self.close_connection = True  # the body may be unread: never reuse the connection
+        if self._unread:
+            self.close_connection = True  # the rest of the body must not be read as a request
         try:
             self._json({"error": message}, status=status)
+            if self._unread:
+                self._linger()
         except (BrokenPipeError, ConnectionResetError):
             self.close_connection = True
+
+    def _linger(self) -> None:
+        """Close our side, then read and drop what the client still sends (for up to 2 s).
+
+        Closing a socket with unread data makes the kernel reset the connection, and a
+        reset can destroy the error message before the browser reads it.
+        """
+        try:
+            self.connection.shutdown(socket.SHUT_WR)
+            self.connection.settimeout(0.5)
+            deadline = time.monotonic() + 2.0
+            while time.monotonic() < deadline and self.connection.recv(1 << 16):
+                pass
+        except OSError:
+            pass
 
     def _send(self, status, body: bytes, ctype: str, *, csp: str = "default-src 'none'",
               disposition: str | None = None, cache: bool = False) -> None:

@@ -1,0 +1,554 @@
+"""Endpoint tests of `polisect serve`: uploads, limits, traversal, origin checks, bad input,
+runs (concurrent, cancelled, crashed) and the run configuration the page writes.
+
+The server runs in a thread of the test process on a free loopback port; its work runs in
+child processes as in normal use. Images are rendered with `polisect.synth` (known phase
+maps), so no sample file is needed.
+"""
+
+from __future__ import annotations
+
+import http.client
+import json
+import os
+import signal
+import socket
+import threading
+import time
+
+import numpy as np
+import pytest
+from hypothesis import given, strategies as st
+
+from polisect.config import load_config
+from polisect.image import write_tiff
+from polisect.pipeline import analyze
+from polisect.serve.runconfig import run_config_toml
+from polisect.serve.server import is_loopback, serve
+from polisect.serve.uploads import safe_stem, sniff
+from polisect.synth import checkerboard, render_sem, rsa_discs
+
+NO_PROPS = {"properties": []}
+
+
+def _section(path, seed=3, shape=(192, 192), pixel_size_um=0.5):
+    """A rendered three-phase section (pores dark, particles mid, matrix bright) as a TIFF."""
+    rng = np.random.default_rng(seed)
+    particles = rsa_discs(shape, 0.25, 9.0, seed=rng).labels
+    pores = rsa_discs(shape, 0.05, 4.0, seed=rng).labels
+    labels = np.where(particles == 1, 1, 2)
+    labels[(pores == 1) & (particles == 0)] = 0
+    img = render_sem(labels, {0: 0.08, 1: 0.45, 2: 0.8}, noise_sd=0.02, seed=seed)
+    write_tiff(path, img, pixel_size_um=pixel_size_um)
+    return path
+
+
+class Client:
+    """Plain HTTP requests to the test server."""
+
+    def __init__(self, server):
+        self.server = server
+        self.port = server.port
+        self.app = server.app
+
+    def request(self, method, path, body=b"", headers=None, page=True):
+        conn = http.client.HTTPConnection("127.0.0.1", self.port, timeout=60)
+        hdrs = {"X-Polisect": "1"} if page else {}
+        hdrs.update(headers or {})
+        if isinstance(body, (dict, list)):
+            body = json.dumps(body).encode()
+            hdrs.setdefault("Content-Type", "application/json")
+        conn.request(method, path, body=body if method != "GET" else None, headers=hdrs)
+        resp = conn.getresponse()
+        data = resp.read()
+        conn.close()
+        return resp.status, dict(resp.getheaders()), data
+
+    def json(self, method, path, body=b"", **kw):
+        status, headers, data = self.request(method, path, body, **kw)
+        return status, json.loads(data) if data else None
+
+    def upload(self, path, name=None):
+        with open(path, "rb") as f:
+            data = f.read()
+        return self.json("POST", "/api/uploads", data,
+                         headers={"X-Filename": name or os.path.basename(path)})
+
+    def run(self, upload_id, config, timeout=60):
+        status, body = self.json("POST", "/api/runs", {"upload": upload_id, "config": config})
+        assert status == 201, body
+        return self.wait(body["id"], timeout)
+
+    def wait(self, run_id, timeout=60, until=("done", "failed", "cancelled", "interrupted")):
+        t0 = time.monotonic()
+        while time.monotonic() - t0 < timeout:
+            _, st = self.json("GET", f"/api/runs/{run_id}")
+            if st["state"] in until:
+                return st
+            time.sleep(0.1)
+        raise AssertionError(f"run {run_id} still {st['state']} after {timeout} s")
+
+
+def _start(tmp_path, **kw):
+    box = {}
+    ready = threading.Event()
+
+    def on_ready(server):
+        box["server"] = server
+        ready.set()
+
+    thread = threading.Thread(target=serve, kwargs=dict(port=0, out_dir=str(tmp_path / "out"),
+                                                        ready=on_ready, **kw), daemon=True)
+    thread.start()
+    assert ready.wait(60), "the server did not start"
+    return box["server"], thread
+
+
+@pytest.fixture(scope="module")
+def served(tmp_path_factory):
+    tmp = tmp_path_factory.mktemp("serve")
+    server, thread = _start(tmp, max_upload_mb=1.0, parallel_runs=2)
+    yield Client(server), tmp
+    server.shutdown()
+    thread.join(30)
+
+
+@pytest.fixture(scope="module")
+def image(served):
+    return _section(str(served[1] / "kfs_amc_b1_s1.tif"))
+
+
+def _three_phases(**solve):
+    return {"segment": {"method": "multi-otsu", "classes": 3, "denoise": "median"},
+            "phase": [{"label": 0, "name": "pore", "material": "air"},
+                      {"label": 1, "name": "SiC", "material": "silicon-carbide"},
+                      {"label": 2, "material": "aluminium"}],
+            "solve": solve or NO_PROPS}
+
+
+# -- uploads ------------------------------------------------------------------------------
+
+def test_info_lists_library_and_limit(served):
+    """The page learns the material library and the upload limit from /api/info."""
+    client, _ = served
+    status, info = client.json("GET", "/api/info")
+    assert status == 200
+    assert info["max_upload_bytes"] == 10**6
+    keys = {m["key"] for m in info["materials"]}
+    assert {"alumina", "silicon-carbide", "air"} <= keys
+    assert info["properties"] == ["conductivity", "elasticity", "expansion"]
+
+
+def test_upload_reports_size_pixel_size_and_preview(served, image):
+    """A TIFF with resolution tags: its shape, 0.5 µm pixels (written by write_tiff) and a
+    3-class suggestion for a rendered three-phase section; the preview has the image's size."""
+    client, _ = served
+    status, facts = client.upload(image)
+    assert status == 200, facts
+    assert facts["shape"] == [192, 192]
+    assert facts["pixel_size_um"] == pytest.approx(0.5)
+    assert facts["pixel_size_from"] == "tiff-tags"
+    assert facts["suggested_classes"] == 3
+    assert sum(facts["histogram"]["counts"]) == 192 * 192
+    status, _, raw = client.request("GET", f"/api/uploads/{facts['id']}/preview")
+    assert status == 200 and len(raw) == 4 * 192 * 192
+
+
+def test_type_is_taken_from_content_not_name(served, tmp_path):
+    """A PNG named .tif is accepted and stored as .png; a text file named .tif is refused."""
+    import imageio.v3 as iio
+
+    client, _ = served
+    png = tmp_path / "really_png.tif"
+    iio.imwrite(png, (np.arange(64 * 64).reshape(64, 64) % 251).astype(np.uint8),
+                extension=".png")
+    status, facts = client.upload(str(png))
+    assert status == 200, facts
+    assert client.app.uploads.get(facts["id"]).path.endswith("really_png.png")
+    text = tmp_path / "notes.tif"
+    text.write_text("hello, this is not an image\n")
+    status, body = client.upload(str(text))
+    assert status == 400
+    assert "text" in body["error"] and "not a TIFF, PNG, JPEG or BMP" in body["error"]
+
+
+@pytest.mark.parametrize("case, expect", [
+    ("empty", "empty (0 bytes)"),
+    ("truncated", "truncated"),
+    ("one_pixel", "too small"),
+    ("nan", "NaN"),
+])
+def test_bad_images_get_a_clear_message(served, tmp_path, image, case, expect):
+    """The foundation issue's bad files: each answered 400 with a message, server still up."""
+    client, _ = served
+    path = tmp_path / f"{case}.tif"
+    if case == "empty":
+        path.write_bytes(b"")
+    elif case == "truncated":
+        path.write_bytes(open(image, "rb").read()[:5000])
+    elif case == "one_pixel":
+        write_tiff(path, np.zeros((1, 1), np.uint8))
+    else:
+        data = np.ones((32, 32), np.float32)
+        data[3, 4] = np.nan
+        write_tiff(path, data)
+    status, body = client.upload(str(path))
+    assert status == 400, body
+    assert expect in body["error"]
+    assert str(tmp_path) not in body["error"] and client.app.uploads.root not in body["error"]
+    assert client.json("GET", "/api/info")[0] == 200
+
+
+def test_uniform_image_explains_itself(served, tmp_path):
+    """A uniform image: no suggestion, a note why, and 3 classes are refused with a message."""
+    client, _ = served
+    path = tmp_path / "uniform.tif"
+    write_tiff(path, np.full((40, 40), 120, np.uint8))
+    status, facts = client.upload(str(path))
+    assert status == 200
+    assert facts["suggested_classes"] is None and "uniform" in facts["suggest_note"]
+    status, body = client.json("POST", f"/api/uploads/{facts['id']}/thresholds",
+                               {"classes": 3, "denoise": "median", "denoise_px": 1})
+    assert status == 400 and "no contrast" in body["error"]
+
+
+def test_upload_limit_refused_before_the_body(served):
+    """Content-Length above the limit: 413 at once; nothing of the body is stored."""
+    client, _ = served
+    with socket.create_connection(("127.0.0.1", client.port), timeout=10) as s:
+        s.sendall(b"POST /api/uploads HTTP/1.1\r\nHost: 127.0.0.1:%d\r\nX-Polisect: 1\r\n"
+                  b"X-Filename: big.tif\r\nContent-Length: 50000000\r\n\r\nII*\x00"
+                  % client.port)
+        answer = _read_all(s)
+    assert answer.startswith("HTTP/1.1 413")
+    assert "more than this server's limit of 1 MB" in answer
+    assert client.json("GET", "/api/info")[0] == 200
+
+
+def test_upload_without_length_or_cut_short(served):
+    """No Content-Length → 411; a body shorter than announced → 400, nothing kept."""
+    client, _ = served
+    with socket.create_connection(("127.0.0.1", client.port), timeout=10) as s:
+        s.sendall(b"POST /api/uploads HTTP/1.1\r\nHost: 127.0.0.1:%d\r\nX-Polisect: 1\r\n"
+                  b"Transfer-Encoding: chunked\r\n\r\n4\r\nII*\x00\r\n0\r\n\r\n" % client.port)
+        assert _read_all(s).startswith("HTTP/1.1 411")
+    before = set(os.listdir(client.app.uploads.root))
+    with socket.create_connection(("127.0.0.1", client.port), timeout=10) as s:
+        s.sendall(b"POST /api/uploads HTTP/1.1\r\nHost: 127.0.0.1:%d\r\nX-Polisect: 1\r\n"
+                  b"Content-Length: 5000\r\n\r\nII*\x00" % client.port)
+        s.shutdown(socket.SHUT_WR)
+        answer = _read_all(s)
+    assert answer.startswith("HTTP/1.1 400") and "stopped after 4 of 5000 bytes" in answer
+    assert set(os.listdir(client.app.uploads.root)) == before
+
+
+def _read_all(sock) -> str:
+    chunks = []
+    while True:
+        block = sock.recv(65536)
+        if not block:
+            return b"".join(chunks).decode("utf-8", "replace")
+        chunks.append(block)
+
+
+# -- names, paths, origins ----------------------------------------------------------------
+
+@given(st.text(max_size=200))
+def test_safe_stem_is_always_a_plain_name(name):
+    """Any name sent by a browser becomes ASCII letters, digits, _ and - only."""
+    stem = safe_stem(name)
+    assert stem and len(stem) <= 64
+    assert all(c.isascii() and (c.isalnum() or c in "_-") for c in stem)
+
+
+def test_sniff_signatures():
+    """File signatures: TIFF (both byte orders, BigTIFF), PNG, JPEG, BMP (format specs)."""
+    assert sniff(b"II*\x00....") == sniff(b"MM\x00*") == sniff(b"II+\x00") == ".tif"
+    assert sniff(b"\x89PNG\r\n\x1a\n") == ".png"
+    assert sniff(b"\xff\xd8\xff\xe0") == ".jpg"
+    assert sniff(b"BM6\x00") == ".bmp"
+    assert sniff(b"GIF89a") is None and sniff(b"") is None
+
+
+def test_traversal_attempts_find_nothing(served, image):
+    """Path tricks in the file name, the URL, the upload and run ids reach no file outside."""
+    client, _ = served
+    status, facts = client.upload(image, name="../../../etc/passwd.tif")
+    assert status == 200
+    stored = client.app.uploads.get(facts["id"]).path
+    assert os.path.dirname(os.path.dirname(stored)) == client.app.uploads.root
+    assert os.path.basename(stored) == "passwd.tif"
+    for path in ("/static/../server.py", "/static/%2e%2e/server.py", "/../../etc/passwd",
+                 "/api/runs/..%2F..%2Fetc/files/json", "/api/runs/../files/json",
+                 "/api/uploads/..%2F..%2F/preview", "/api/runs/20260101-000000-x-abcd/files/json",
+                 "/static/app.js/../../jobs.py"):
+        status, _, body = client.request("GET", path)
+        assert status in (400, 404), path
+        assert b"import" not in body and b"root:" not in body
+    status, body = client.json("POST", "/api/runs", {"upload": "../" + facts["id"],
+                                                     "config": _three_phases()})
+    assert status == 400 and "no such upload" in body["error"]
+
+
+def test_download_kinds_are_a_fixed_list(served, image):
+    """Only the listed kinds can be downloaded; a name in the status file cannot point out."""
+    client, _ = served
+    _, facts = client.upload(image)
+    st = client.run(facts["id"], _three_phases())
+    assert st["state"] == "done", st
+    status, _, _ = client.request("GET", f"/api/runs/{st['id']}/files/status")
+    assert status == 404
+    folder = client.app.runs.folder(st["id"])
+    with open(os.path.join(folder, "status.json"), encoding="utf-8") as f:
+        forged = json.load(f)
+    forged["outputs"]["json"] = "../../../etc/passwd"
+    with open(os.path.join(folder, "status.json"), "w", encoding="utf-8") as f:
+        json.dump(forged, f)
+    status, _, _ = client.request("GET", f"/api/runs/{st['id']}/files/json")
+    assert status == 404
+
+
+def test_cross_site_and_foreign_host_refused(served):
+    """POST without the page's header or from another origin: 403; another Host: 421."""
+    client, _ = served
+    assert client.json("POST", "/api/runs", {}, page=False)[0] == 403
+    status, _ = client.json("POST", "/api/runs", {},
+                            headers={"Origin": "http://evil.example"})
+    assert status == 403
+    status, _ = client.json("GET", "/api/info", headers={"Host": "evil.example:80"})
+    assert status == 421
+
+
+def test_malformed_requests_do_not_hurt_the_server(served):
+    """Bad JSON, NaN, a list, an oversized body, unknown paths and methods: clear errors."""
+    client, _ = served
+    cases = [("POST", "/api/runs", b"{not json", 400), ("POST", "/api/runs", b'{"a": NaN}', 400),
+             ("POST", "/api/runs", b"[1, 2]", 400), ("POST", "/api/runs", b" " * (2 << 20), 413),
+             ("GET", "/api/nothing", b"", 404), ("PUT", "/api/runs", b"", 405),
+             ("POST", "/api/info", b"{}", 405)]
+    for method, path, body, expect in cases:
+        status, _, data = client.request(method, path, body,
+                                         headers={"Content-Type": "application/json"})
+        assert status == expect, (method, path, data)
+        assert "error" in json.loads(data)
+    assert client.json("GET", "/api/info")[0] == 200
+
+
+def test_security_headers(served):
+    """The page forbids framing and foreign scripts; nothing is content-sniffed."""
+    client, _ = served
+    status, headers, body = client.request("GET", "/")
+    assert status == 200 and b"polisect" in body
+    assert "frame-ancestors 'none'" in headers["Content-Security-Policy"]
+    assert headers["X-Content-Type-Options"] == "nosniff"
+
+
+# -- bad settings -------------------------------------------------------------------------
+
+@pytest.mark.parametrize("change, expect", [
+    (lambda c: c["phase"][2].update(material="aluminum"), "did you mean aluminium"),
+    (lambda c: c["phase"][2].update(material=None, conductivity=-3.0), "negative"),
+    (lambda c: c["phase"][2].update(material=None, youngs_modulus=70, poisson_ratio=0.5,
+                                    conductivity=200, expansion=2e-5), "Poisson's ratio"),
+    (lambda c: c["image"].update(colour="blue"), "unknown key 'colour' in [image]"),
+    (lambda c: c["segment"].update(classes="three"), "classes"),
+    (lambda c: c["solve"].update(properties=["conductivity"]) or c["phase"][0].pop("material"),
+     "has no conductivity"),
+])
+def test_bad_settings_named_before_the_run(served, image, change, expect):
+    """Wrong materials, values or keys: 400 with the config reader's message, no run made."""
+    client, _ = served
+    _, facts = client.upload(image)
+    config = {"image": {}, **_three_phases()}
+    change(config)
+    before = client.app.runs.list()
+    status, body = client.json("POST", "/api/runs", {"upload": facts["id"], "config": config})
+    assert status == 400, body
+    assert expect in body["error"]
+    assert len(client.app.runs.list()) == len(before)
+
+
+def test_labels_missing_from_config_fail_the_run_with_a_message(served, image):
+    """Four classes but three phases: the run fails with the pipeline's message."""
+    client, _ = served
+    _, facts = client.upload(image)
+    config = _three_phases()
+    config["segment"]["classes"] = 4
+    st = client.run(facts["id"], config)
+    assert st["state"] == "failed" and st["error_kind"] == "input"
+    assert "no [[phase]] entry describes" in st["error"]
+
+
+# -- runs ---------------------------------------------------------------------------------
+
+def test_run_writes_what_analyze_writes(served, image):
+    """The run's JSON equals `analyze` on the same image and config; every download works."""
+    client, _ = served
+    _, facts = client.upload(image)
+    st = client.run(facts["id"], _three_phases())
+    assert st["state"] == "done", st
+    assert {"report", "json", "csv", "phasemap", "overlay"} <= set(st["outputs"])
+    folder = client.app.runs.folder(st["id"])
+    status, headers, raw = client.request("GET", f"/api/runs/{st['id']}/files/config")
+    assert status == 200 and "attachment" in headers["Content-Disposition"]
+    config_path = os.path.join(str(folder), "again.toml")
+    with open(config_path, "wb") as f:
+        f.write(raw)
+    direct = analyze(image, load_config(config_path)).result.to_dict()
+    status, served_json = client.json("GET", f"/api/runs/{st['id']}/files/json")
+    assert status == 200
+    for a, b in zip(served_json["phases"], direct["phases"]):
+        assert (a["name"], a["fraction"], a["fraction_ci95"]) == \
+            (b["name"], b["fraction"], b["fraction_ci95"])
+    for kind, magic in (("phasemap", b"II*\x00"), ("overlay", b"\x89PNG"), ("csv", b"path"),
+                        ("report", b"<!DOCTYPE html>")):
+        status, _, body = client.request("GET", f"/api/runs/{st['id']}/files/{kind}")
+        assert status == 200 and body.startswith(magic), kind
+    assert any(r["id"] == st["id"] for r in client.json("GET", "/api/runs")[1]["runs"])
+
+
+def test_concurrent_runs_each_get_their_own_folder(served, image):
+    """Three runs submitted at once from three threads (two workers): all finish, apart."""
+    client, _ = served
+    _, facts = client.upload(image)
+    results = []
+
+    def one(classes):
+        config = _three_phases()
+        if classes == 2:
+            config["segment"]["classes"] = 2
+            config["phase"] = config["phase"][1:]
+            config["phase"][0]["label"], config["phase"][1]["label"] = 0, 1
+        results.append((classes, client.run(facts["id"], config)))
+
+    threads = [threading.Thread(target=one, args=(n,)) for n in (3, 2, 3)]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join(120)
+    assert len(results) == 3 and all(st["state"] == "done" for _, st in results)
+    assert len({st["id"] for _, st in results}) == 3
+    for classes, st in results:
+        _, d = client.json("GET", f"/api/runs/{st['id']}/files/json")
+        assert len(d["phases"]) == classes
+
+
+def _slow_config():
+    """Non-local means on a 1500² image: seconds of work, long enough to cancel."""
+    return {"segment": {"method": "multi-otsu", "classes": 2, "denoise": "nl-means",
+                        "denoise_px": 3},
+            "phase": [{"label": 0, "material": "air"}, {"label": 1, "material": "alumina"}],
+            "solve": NO_PROPS}
+
+
+@pytest.fixture(scope="module")
+def big_image(served):
+    path = str(served[1] / "big.tif")
+    write_tiff(path, render_sem(checkerboard((1500, 1500), 30), {0: 0.3, 1: 0.7}, seed=1))
+    return path
+
+
+def test_cancel_stops_a_running_and_a_queued_run(tmp_path, big_image):
+    """One worker: cancel the queued second run, then the running first one; both stop."""
+    server, thread = _start(tmp_path, parallel_runs=1, max_upload_mb=10)
+    client = Client(server)
+    try:
+        _, facts = client.upload(big_image)
+        ids = [client.json("POST", "/api/runs", {"upload": facts["id"],
+                                                 "config": _slow_config()})[1]["id"]
+               for _ in range(2)]
+        running = client.wait(ids[0], until=("running",))
+        assert client.json("POST", f"/api/runs/{ids[1]}/cancel", {})[1]["state"] == "cancelled"
+        assert client.json("POST", f"/api/runs/{ids[0]}/cancel", {})[1]["state"] == "cancelled"
+        assert not _alive(running["pid"])
+        time.sleep(0.5)
+        assert client.json("GET", f"/api/runs/{ids[1]}")[1]["state"] == "cancelled"
+    finally:
+        server.shutdown()
+        thread.join(30)
+
+
+def test_a_crashed_worker_is_reported(tmp_path, big_image):
+    """A worker killed from outside: the run is marked failed with the exit code."""
+    server, thread = _start(tmp_path, parallel_runs=1, max_upload_mb=10)
+    client = Client(server)
+    try:
+        _, facts = client.upload(big_image)
+        run_id = client.json("POST", "/api/runs", {"upload": facts["id"],
+                                                   "config": _slow_config()})[1]["id"]
+        running = client.wait(run_id, until=("running",))
+        os.kill(running["pid"], signal.SIGKILL)
+        st = client.wait(run_id)
+        assert st["state"] == "failed" and "exit code -9" in st["error"]
+    finally:
+        server.shutdown()
+        thread.join(30)
+
+
+def _alive(pid):
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    with open(f"/proc/{pid}/stat") as f:
+        return f.read().split()[2] != "Z"
+
+
+def test_runs_are_listed_after_a_restart(tmp_path, image):
+    """Past runs come back after a restart; one left running is marked interrupted."""
+    server, thread = _start(tmp_path)
+    client = Client(server)
+    _, facts = client.upload(image)
+    done = client.run(facts["id"], _three_phases())
+    folder = client.app.runs.folder(done["id"])
+    server.shutdown()
+    thread.join(30)
+    stale = os.path.join(os.path.dirname(folder), "20260101-000000-stale-abcd")
+    os.makedirs(stale)
+    with open(os.path.join(stale, "status.json"), "w", encoding="utf-8") as f:
+        json.dump({"id": "20260101-000000-stale-abcd", "state": "running"}, f)
+    server, thread = _start(tmp_path)
+    try:
+        runs = {r["id"]: r["state"] for r in Client(server).json("GET", "/api/runs")[1]["runs"]}
+        assert runs == {done["id"]: "done", "20260101-000000-stale-abcd": "interrupted"}
+    finally:
+        server.shutdown()
+        thread.join(30)
+
+
+# -- the config the page writes, the address ----------------------------------------------
+
+def test_page_settings_round_trip_through_toml(tmp_path):
+    """The TOML written for the page reads back as the same configuration."""
+    settings = {"image": {"kind": "grayscale", "crop_bottom_px": "auto", "pixel_size_um": 0.25},
+                "segment": {"method": "thresholds", "thresholds": [61.5, 140.25],
+                            "denoise": "none", "denoise_px": 1.0, "min_feature_px": 9},
+                "phase": [{"label": 0, "name": "pore \"A\"", "material": "air", "particles": True},
+                          {"label": 1, "name": "own", "conductivity": 3.5,
+                           "youngs_modulus": 100, "poisson_ratio": 0.2, "expansion": 4e-6},
+                          {"label": 2, "material": "mullite", "particles": None}],
+                "solve": {"properties": ["conductivity"], "plane": "plane-stress"}}
+    path = tmp_path / "config.toml"
+    path.write_text(run_config_toml(settings, "s1"), encoding="utf-8")
+    cfg = load_config(path)
+    assert cfg.image.crop_bottom_px == "auto" and cfg.image.pixel_size_um == 0.25
+    assert cfg.segment.thresholds == (61.5, 140.25) and cfg.segment.min_feature_px == 9
+    assert [p.name for p in cfg.phases] == ['pore "A"', "own", "mullite"]
+    assert cfg.phases[0].particles is True and cfg.phases[2].particles is None
+    assert cfg.phases[1].material.expansion == 4e-6
+    assert cfg.solve.properties == ("conductivity",) and cfg.solve.plane == "plane-stress"
+
+
+def test_loopback_detection_and_warning(tmp_path, capsys):
+    """Only loopback addresses count as private; another host prints the no-login warning."""
+    assert is_loopback("127.0.0.1") and is_loopback("::1") and is_loopback("localhost")
+    assert not is_loopback("0.0.0.0") and not is_loopback("192.168.1.10")
+    box, ready = {}, threading.Event()
+    thread = threading.Thread(target=serve, kwargs=dict(
+        host="0.0.0.0", port=0, out_dir=str(tmp_path / "o"),
+        ready=lambda s: (box.setdefault("s", s), ready.set())), daemon=True)
+    thread.start()
+    assert ready.wait(60)
+    box["s"].shutdown()
+    thread.join(30)
+    assert "no login" in capsys.readouterr().err
