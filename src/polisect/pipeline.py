@@ -22,7 +22,7 @@ from .config import Config
 from .errors import InputError
 from .image import Micrograph, read_image, to_grayscale
 from .materials import Material
-from .morphology import field_fractions
+from .morphology import enclosed_fractions, field_fractions, particle_phases, phase_particles
 from .phasemap import Phase, PhaseMap
 from .results import PhaseFraction, Result, Source
 
@@ -38,7 +38,8 @@ class Analysis:
     image: np.ndarray | None
     thresholds: tuple[float, ...] = ()
     particle_rows: list = field(default_factory=list)
-    particle_detail: dict = field(default_factory=dict)
+    particles: tuple = ()
+    correlations: dict = field(default_factory=dict)
     field_maps: dict = field(default_factory=dict)
 
 
@@ -86,26 +87,70 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
 
     tick = time.perf_counter()
     say("measuring phase fractions")
-    estimates = field_fractions(phasemap.labels, [p.label for p in phases],
-                                n_fields=cfg.segment.fields)
-    fractions = tuple(
-        PhaseFraction(label=p.label, name=p.name, material=p.material.to_dict(),
-                      fraction=est.mean,
-                      fraction_ci95=(max(0.0, est.mean - est.ci95), min(1.0, est.mean + est.ci95)),
-                      relative_accuracy_pct=est.to_dict()["relative_accuracy_pct"],
-                      fields=est.n_fields)
-        for p, est in ((p, estimates[p.label]) for p in phases))
+    fractions = _fractions(phasemap, cfg)
     timings["fractions"] = time.perf_counter() - tick
+
+    tick = time.perf_counter()
+    measured, correlations = _particles(phasemap, cfg, say) if phasemap.ndim == 2 else ((), {})
+    if phasemap.ndim == 3:
+        notes.append("particle statistics of voxel stacks are not measured yet; fractions "
+                     "and effective properties are")
+    timings["particles"] = time.perf_counter() - tick
 
     src = Source(path=micro.path, sha256=micro.sha256, shape=tuple(phasemap.shape),
                  pixel_size_um=micro.pixel_size_um, pixel_size_from=micro.pixel_size_from,
                  cropped_bottom_px=micro.cropped_bottom_px)
     result = Result(source=src, phases=fractions, version=__version__,
+                    particles={pp.name: pp.to_dict() for pp in measured} or None,
+                    correlation={name: {"correlation_length": c.correlation_length,
+                                        "units": c.units, "fraction": c.fraction}
+                                 for name, c in correlations.items()} or None,
                     config_toml=cfg.raw, warnings=tuple(warnings), notes=tuple(notes),
                     timings_s=timings,
                     created=_dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"))
+    rows = [{"phase": pp.name, **row} for pp in measured for row in pp.table.rows()]
     return Analysis(result=result, phasemap=phasemap, image=micro.data,
-                    thresholds=tuple(thresholds))
+                    thresholds=tuple(thresholds), particle_rows=rows, particles=measured,
+                    correlations=correlations)
+
+
+def _fractions(phasemap: PhaseMap, cfg: Config) -> tuple[PhaseFraction, ...]:
+    """Fractions with their field-based intervals, and the part of each phase that lies
+    inside particles of another phase (internal porosity of hollow particles)."""
+    phases = phasemap.phases
+    estimates = field_fractions(phasemap.labels, [p.label for p in phases],
+                                n_fields=cfg.segment.fields)
+    hosts = [p.label for p in particle_phases(phasemap)]
+    inside: dict[int, float] = {}
+    for e in enclosed_fractions(phasemap.labels, hosts, n_fields=cfg.segment.fields):
+        inside[e.phase] = inside.get(e.phase, 0.0) + e.fraction.mean
+    out = []
+    for p in phases:
+        est = estimates[p.label]
+        out.append(PhaseFraction(
+            label=p.label, name=p.name, material=p.material.to_dict(), fraction=est.mean,
+            fraction_ci95=(max(0.0, est.mean - est.ci95), min(1.0, est.mean + est.ci95)),
+            relative_accuracy_pct=est.to_dict()["relative_accuracy_pct"], fields=est.n_fields,
+            inside_particles=inside.get(p.label) if hosts else None))
+    return tuple(out)
+
+
+def _particles(phasemap: PhaseMap, cfg: Config, say: Progress):
+    """Particle statistics of every particle phase, and S2 of every phase."""
+    from .stereology import two_point_correlation
+
+    measured = []
+    for p in particle_phases(phasemap):
+        say(f"measuring particles of {p.name}")
+        pc = cfg.phase(p.label)
+        measured.append(phase_particles(phasemap, p.label,
+                                        split_touching=bool(pc and pc.split_touching)))
+    say("two-point correlation")
+    r_max = max(4, min(phasemap.shape) // 4)
+    correlations = {p.name: two_point_correlation(phasemap.labels == p.label, r_max=r_max,
+                                                  voxel_size_um=phasemap.voxel_size_um)
+                    for p in phasemap.phases}
+    return tuple(measured), correlations
 
 
 def _micrograph(source, cfg: Config, pixel_size_um: float | None) -> Micrograph:

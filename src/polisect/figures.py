@@ -1,0 +1,77 @@
+"""Matplotlib figures of the report (each returns a Figure; the report embeds it)."""
+
+from __future__ import annotations
+
+import matplotlib
+
+matplotlib.use("Agg")
+import matplotlib.pyplot as plt  # noqa: E402
+import numpy as np  # noqa: E402
+from skimage.segmentation import find_boundaries  # noqa: E402
+
+
+def size_distributions(pp):
+    """Section ECD histogram (number-weighted, edge-corrected) beside the unfolded 3D
+    sphere-diameter distribution (Saltykov) of one particle phase."""
+    t, sph = pp.table, pp.spheres
+    unit = "µm" if t.units == "um" else "px"
+    fig, axes = plt.subplots(1, 2, figsize=(9.0, 3.2))
+    keep = t.weight > 0
+    ecd = t.ecd[keep]
+    if ecd.size:
+        axes[0].hist(ecd, bins=15, weights=t.weight[keep], color="#3f7f8c", edgecolor="white")
+    axes[0].set_xlabel(f"section ECD ({unit})")
+    axes[0].set_ylabel("particles (edge-corrected)")
+    axes[0].set_title("2D sections", fontsize=10)
+    nv = np.asarray(sph.number_density, dtype=float)
+    if nv.size and nv.sum() > 0:
+        widths = np.diff(sph.edges)
+        axes[1].bar(sph.edges[:-1], nv / nv.sum() * 100, width=widths, align="edge",
+                    color="#c0793a", edgecolor="white")
+    axes[1].set_xlabel(f"sphere diameter ({unit})")
+    axes[1].set_ylabel("% of spheres by number")
+    axes[1].set_title("3D spheres (Saltykov unfolding)", fontsize=10)
+    fig.suptitle(pp.name, fontsize=11)
+    fig.tight_layout()
+    return fig
+
+
+OUTLINE_COLORS = ("#ffd23f", "#3fd0ff", "#ff5fa2", "#9cff57")
+
+
+def outlines(image, phasemap, measured):
+    """Particle outlines of every measured phase (colours `OUTLINE_COLORS` in order) over
+    the micrograph."""
+    labels = phasemap.labels
+    fig, ax = plt.subplots(figsize=(4.6, 4.6))
+    if image is not None and image.ndim == 2 and image.shape == labels.shape:
+        ax.imshow(image, cmap="gray", interpolation="nearest")
+    else:
+        ax.imshow(labels, cmap="gray", interpolation="nearest")
+    rgba = np.zeros(labels.shape + (4,), dtype=float)
+    for pp, color in zip(measured, OUTLINE_COLORS * 4):
+        edge = find_boundaries(pp.particle_labels, mode="inner")
+        rgba[edge] = matplotlib.colors.to_rgba(color)
+    ax.imshow(rgba, interpolation="nearest")
+    ax.set_axis_off()
+    return fig
+
+
+def correlations(curves, colors_by_name):
+    """Normalised two-point correlation (S2 − φ²)/(φ − φ²) of every phase against r."""
+    fig, ax = plt.subplots(figsize=(5.2, 3.2))
+    unit = "µm"
+    for name, c in curves.items():
+        phi = c.fraction
+        if not 0 < phi < 1:
+            continue
+        unit = "µm" if c.units == "um" else "px"
+        ax.plot(c.r, (c.s2 - phi ** 2) / (phi - phi ** 2), color=colors_by_name.get(name),
+                label=f"{name} (ℓ = {c.correlation_length:.3g} {unit})")
+    ax.axhline(np.exp(-1), color="#888", lw=0.8, ls="--")
+    ax.set_xlabel(f"r ({unit})")
+    ax.set_ylabel("(S₂ − φ²)/(φ − φ²)")
+    ax.set_ylim(-0.2, 1.02)
+    ax.legend(fontsize=8)
+    fig.tight_layout()
+    return fig
