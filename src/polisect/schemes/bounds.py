@@ -14,7 +14,7 @@ from .core import MODES, Moduli, bulk_constraint, constituents, hs_form, shear_c
 
 
 def _columns(particles, dim):
-    parts = constituents(particles, dim)
+    parts = [p for p in constituents(particles, dim) if p.fraction > 0.0]
     f = np.array([p.fraction for p in parts])
     cols = {}
     for mode in MODES:

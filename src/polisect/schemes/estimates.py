@@ -69,8 +69,8 @@ def mori_tanaka(particles, matrix: int, dim: int = 3) -> Moduli:
 
 
 def _range(particles, mode, dim):
-    """Least and greatest phase modulus, gas cores included."""
-    values = [p.modulus(mode, dim) for p in constituents(particles, dim)]
+    """Least and greatest modulus of the phases present, gas cores included."""
+    values = [p.modulus(mode, dim) for p in constituents(particles, dim) if p.fraction > 0.0]
     return min(values), max(values)
 
 
@@ -101,7 +101,7 @@ def _sc_scalar(particles, mode, dim, others: Moduli):
 
 
 def _bulk_range(particles, dim):
-    values = [equivalent(p, "bulk", dim) for p in particles]
+    values = [equivalent(p, "bulk", dim) for p in particles if p.fraction > 0.0]
     return min(values), max(values)
 
 
