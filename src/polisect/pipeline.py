@@ -97,11 +97,17 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
                      "and effective properties are")
     timings["particles"] = time.perf_counter() - tick
 
+    tick = time.perf_counter()
+    schemes = _schemes(phasemap, fractions, measured, notes)
+    timings["schemes"] = time.perf_counter() - tick
+
     src = Source(path=micro.path, sha256=micro.sha256, shape=tuple(phasemap.shape),
                  pixel_size_um=micro.pixel_size_um, pixel_size_from=micro.pixel_size_from,
                  cropped_bottom_px=micro.cropped_bottom_px)
     result = Result(source=src, phases=fractions, version=__version__,
                     particles={pp.name: pp.to_dict() for pp in measured} or None,
+                    schemes=schemes.get("schemes"), bounds=schemes.get("bounds"),
+                    schemes_3d=schemes.get("schemes_3d"), bounds_3d=schemes.get("bounds_3d"),
                     correlation={name: {"correlation_length": c.correlation_length,
                                         "units": c.units, "fraction": c.fraction}
                                  for name, c in correlations.items()} or None,
@@ -133,6 +139,56 @@ def _fractions(phasemap: PhaseMap, cfg: Config) -> tuple[PhaseFraction, ...]:
             relative_accuracy_pct=est.to_dict()["relative_accuracy_pct"], fields=est.n_fields,
             inside_particles=inside.get(p.label) if hosts else None))
     return tuple(out)
+
+
+def _schemes(phasemap: PhaseMap, fractions, measured, notes: list) -> dict:
+    """Bounds and mean-field estimates for the measured fractions.
+
+    ``schemes``/``bounds`` match the model the solvers use (2D: circular cylinders in the
+    transverse plane, the prismatic structure of a solved section; 3D: spheres); for a 2D
+    section ``schemes_3d``/``bounds_3d`` add the spherical-particle composite. A particle
+    phase whose particles are mostly hollow is treated as hollow spheres (cylinders) with
+    its mean inner/outer ratio, the pores inside it counted in its envelope.
+    """
+    from .schemes import evaluate
+
+    mats = {p.name: p.material for p in phasemap.phases}
+    if not any(m.conductivity is not None or m.youngs_modulus is not None for m in mats.values()):
+        return {}
+    frac = {f.name: f.fraction for f in fractions}
+    hollow = {}
+    for pp in measured:
+        d = pp.to_dict()
+        ratio = d.get("inner_outer_ratio_mean")
+        if (d.get("hollow_fraction") or 0) >= 0.5 and ratio:
+            core = _enclosed_by(phasemap, pp.label)
+            if core is not None:
+                name, f_core = core
+                frac[pp.name] += f_core
+                frac[name] = max(0.0, frac[name] - f_core)
+                hollow[pp.name] = ratio
+                notes.append(f"schemes: {pp.name} treated as hollow particles (inner/outer "
+                             f"diameter {ratio:.3g}); the {name} inside them is their core")
+    phases = [(n, mats[n], f) for n, f in frac.items() if f > 0]
+    out = {}
+    dims = (2, 3) if phasemap.ndim == 2 else (3,)
+    for dim in dims:
+        res = evaluate(phases, dim=dim, hollow=hollow).to_dict()
+        suffix = "_3d" if (dim == 3 and phasemap.ndim == 2) else ""
+        out["schemes" + suffix] = res["schemes"]
+        out["bounds" + suffix] = res["bounds"]
+        notes.extend(f"schemes ({dim}D): {n}" for n in res["notes"])
+    return out
+
+
+def _enclosed_by(phasemap: PhaseMap, host: int):
+    """(name, fraction) of the phase enclosed most inside particles of *host*, or None."""
+    best = None
+    for e in enclosed_fractions(phasemap.labels, [host]):
+        if e.phase != host and e.fraction.mean > 0 and (best is None
+                                                         or e.fraction.mean > best[1]):
+            best = (phasemap.phase(e.phase).name, e.fraction.mean)
+    return best
 
 
 def _particles(phasemap: PhaseMap, cfg: Config, say: Progress):

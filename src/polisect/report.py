@@ -84,7 +84,8 @@ def _source(analysis, d, colors) -> str:
     if s["cropped_bottom_px"]:
         rows.append(("Cropped at the bottom", f"{s['cropped_bottom_px']} rows (information band)"))
     for note in d["notes"]:
-        rows.append(("Note", note))
+        if not note.startswith("schemes"):
+            rows.append(("Note", note))
     if analysis.thresholds:
         rows.append(("Thresholds", ", ".join(f"{t:.4g}" for t in analysis.thresholds)))
     return "<section><h2>Section</h2>" + _table(rows) + "</section>"
@@ -237,7 +238,73 @@ def _n(value) -> str:
     return f"{value:.4g}"
 
 
-SECTIONS = [_caution, _source, _images, _fractions, _particles, _windows, _warnings, _config, _raw_json]
+SCHEME_COLUMNS = (("conductivity_W_mK", "k W/(m·K)", 1.0),
+                  ("bulk_modulus_GPa", "K GPa", 1.0),
+                  ("shear_modulus_GPa", "G GPa", 1.0),
+                  ("youngs_modulus_GPa", "E GPa", 1.0),
+                  ("poisson_ratio", "ν", 1.0),
+                  ("expansion_per_K", "α 10⁻⁶/K", 1e6))
+
+
+def computed_values(d) -> dict:
+    """The solver's isotropic values under the scheme column keys (empty when not solved)."""
+    eff = d.get("effective") or {}
+    out = {}
+    if eff.get("conductivity"):
+        out["conductivity_W_mK"] = eff["conductivity"].get("mean_W_mK")
+    el = eff.get("elasticity") or {}
+    for key in ("bulk_modulus_GPa", "shear_modulus_GPa", "youngs_modulus_GPa", "poisson_ratio"):
+        out[key] = (el.get("scheme_comparable") or el).get(key)
+    if eff.get("expansion"):
+        ex = eff["expansion"]
+        out["expansion_per_K"] = (ex.get("scheme_comparable") or ex).get("mean_per_K")
+    return {k: v for k, v in out.items() if v is not None}
+
+
+def _schemes_table(schemes, bounds, computed, title, note):
+    head = ("",) + tuple(c[1] for c in SCHEME_COLUMNS)
+    rows = []
+
+    def cell(key, value, scale):
+        return "–" if value is None else f"{value * scale:.4g}"
+
+    if computed:
+        rows.append(("<strong>computed (solver)</strong>",) + tuple(
+            f"<strong>{cell(k, computed.get(k), sc)}</strong>" for k, _, sc in SCHEME_COLUMNS))
+    for side in ("lower", "upper"):
+        rows.append((f"bound, {side}",) + tuple(
+            "–" if k == "poisson_ratio" else cell(k, (bounds.get(k) or {}).get(side), sc)
+            for k, _, sc in SCHEME_COLUMNS))
+    for name, est in schemes.items():
+        rows.append((html.escape(name),) + tuple(cell(k, est.get(k), sc)
+                                                 for k, _, sc in SCHEME_COLUMNS))
+    return (f"<h3>{html.escape(title)}</h3>" + _grid(head, rows, raw=True)
+            + f'<p class="note">{html.escape(note)}</p>')
+
+
+def _schemes(analysis, d, colors) -> str:
+    if not d.get("schemes"):
+        return ""
+    two_d = analysis.phasemap.ndim == 2
+    computed = computed_values(d)
+    parts = [_schemes_table(
+        d["schemes"], d["bounds"], computed,
+        "Circular cylinders, transverse plane (the model a solved 2D section describes)"
+        if two_d else "Spherical particles",
+        "Bounds: Hashin–Shtrikman (conductivity, moduli), Schapery / Rosen–Hashin "
+        "(two-phase expansion). For 2D, K is the plane-strain transverse bulk modulus.")]
+    if d.get("schemes_3d"):
+        parts.append(_schemes_table(
+            d["schemes_3d"], d["bounds_3d"], {},
+            "Spherical particles (the 3D particle composite; no 3D solve of a 2D section)",
+            "These estimates treat the section's phases as spheres in 3D. They are the "
+            "analytical counterpart of the 3D composite, not of the 2D solve above."))
+    notes = "".join(f"<li>{html.escape(n)}</li>" for n in d["notes"] if n.startswith("schemes"))
+    return ("<section><h2>Bounds and mean-field estimates</h2>" + "".join(parts)
+            + (f'<ul class="note">{notes}</ul>' if notes else "") + "</section>")
+
+
+SECTIONS = [_caution, _source, _images, _fractions, _particles, _schemes, _windows, _warnings, _config, _raw_json]
 
 
 def _table(rows) -> str:
@@ -307,7 +374,8 @@ table{border-collapse:collapse;font-size:.92rem;margin:6px 0}
 .figs{display:flex;flex-wrap:wrap;gap:16px}
 figure{margin:0}
 figure img{max-width:480px;width:100%;border:1px solid #dedbd2}
-figure.wide img{max-width:980px}
+figure.wide{width:100%}
+figure.wide img{max-width:100%;width:auto}
 section{overflow-x:auto}
 .grid td{white-space:nowrap}
 figcaption{font-size:.85rem;color:#4a5560}

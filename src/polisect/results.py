@@ -63,6 +63,8 @@ class Result:
     particles: dict | None = None
     schemes: dict | None = None
     bounds: dict | None = None
+    schemes_3d: dict | None = None
+    bounds_3d: dict | None = None
     shock: dict | None = None
     windows: dict | None = None
     correlation: dict | None = None
@@ -90,6 +92,8 @@ class Result:
             "particles": self.particles,
             "schemes": self.schemes,
             "bounds": self.bounds,
+            "schemes_3d": self.schemes_3d,
+            "bounds_3d": self.bounds_3d,
             "shock": self.shock,
             "windows": self.windows,
             "correlation": self.correlation,
