@@ -488,13 +488,18 @@ def test_hollow_consistency(dim):
 def test_hollow_fraction_is_the_envelope():
     """Hollow spheres with ratio ρ: the bounds see shell f(1 − ρ³) and gas core fρ³
     (common practice, no source): the Voigt bulk modulus counts the shell material only.
-    A hollow matrix is refused."""
+    The default matrix is the largest solid phase; a hollow matrix is refused."""
     mullite, alumina = get_material("mullite"), get_material("alumina")
     r = evaluate([("mullite", mullite, 0.5), ("alumina", alumina, 0.5)], hollow={"alumina": 0.5})
     want = 0.5 * mullite.bulk_modulus + 0.5 * (1 - 0.125) * alumina.bulk_modulus
     assert r.scheme("voigt").bulk_modulus == pytest.approx(want, rel=1e-12)
-    with pytest.raises(InputError, match="largest fraction"):
-        evaluate([("mullite", mullite, 0.4), ("alumina", alumina, 0.6)], hollow={"alumina": 0.5})
+    r = evaluate([("mullite", mullite, 0.4), ("alumina", alumina, 0.6)], hollow={"alumina": 0.5})
+    assert r.matrix == "mullite"
+    with pytest.raises(InputError, match="every phase is hollow"):
+        evaluate([("alumina", alumina, 1.0)], hollow={"alumina": 0.5})
+    with pytest.raises(InputError, match="cannot be hollow"):
+        evaluate([("mullite", mullite, 0.4), ("alumina", alumina, 0.6)], matrix="alumina",
+                 hollow={"alumina": 0.5})
 
 
 # ---------------------------------------------------------------- worked examples

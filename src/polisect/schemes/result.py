@@ -327,7 +327,7 @@ def evaluate(phases, *, matrix: str | None = None, dim: int = 3,
     matrix : str, optional
         Phase the matrix-based schemes (Mori–Tanaka, differential, generalized
         self-consistent, composite assemblage, Kerner) use as matrix; by default the
-        phase with the largest fraction.
+        solid (not hollow) phase with the largest fraction.
     dim : {3, 2}
         3: spheres; 2: circular cylinders seen in their transverse plane.
     hollow : dict, optional
@@ -367,10 +367,11 @@ def evaluate(phases, *, matrix: str | None = None, dim: int = 3,
     names = _validate(phases, matrix, dim, hollow)
     fractions = check_fractions(phases)
     if matrix is None:
-        matrix = names[int(np.argmax(fractions))]
-        if matrix in hollow:
-            raise InputError(f"the matrix defaults to the phase with the largest fraction, "
-                             f"{matrix!r}, which is hollow: name a solid matrix phase")
+        solid = [(f, -i) for i, (n, f) in enumerate(zip(names, fractions)) if n not in hollow]
+        if not solid:
+            raise InputError("every phase is hollow: the matrix-based schemes need a solid "
+                             "matrix phase; name it and leave it out of the hollow phases")
+        matrix = names[-max(solid)[1]]
     elif matrix in hollow:
         raise InputError(f"the matrix {matrix!r} cannot be hollow: hollow phases are inclusions")
     notes = []
