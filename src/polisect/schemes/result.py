@@ -104,7 +104,7 @@ class Placement:
             return None
         bound = self.lower if self.position == "below" else self.upper
         side = "lower" if self.position == "below" else "upper"
-        return (f"{label} {self.value:.4g} is {self.position} the Hashin–Shtrikman {side} bound "
+        return (f"{label} {self.value:.4g} is {self.position} the {side} bound "
                 f"{bound:.4g} by {100 * self.excess:.2g} % of the bounds (tolerance "
                 f"{100 * self.tol:.2g} %): check the phase properties, the segmentation, the "
                 "solver convergence, or whether the structure is far from isotropic")
@@ -496,7 +496,10 @@ def _young_poisson(K: float, G: float) -> tuple[float, float | None]:
 
 
 def _standard_notes(dim, matrix, hollow, ctx) -> list[str]:
-    notes = [f"matrix-based schemes (Mori–Tanaka, differential, generalized self-consistent, "
+    notes = ["bounds: Hashin–Shtrikman on conductivity, K and G, with E and nu from them; "
+             + ("Schapery" if dim == 3 else "Rosen–Hashin") + " on a two-phase expansion; "
+             "voigt and reuss are the wider Wiener bounds",
+             f"matrix-based schemes (Mori–Tanaka, differential, generalized self-consistent, "
              f"composite assemblage, Kerner) use {matrix!r} as the matrix"]
     if dim == 2:
         notes.append("2D: K is the plane-strain transverse bulk modulus k_T = K + G/3; G, E, nu "
