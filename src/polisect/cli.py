@@ -46,7 +46,31 @@ def _add_analyze(sub):
     p.add_argument("--pixel-size", type=float, metavar="UM", help="pixel size in µm")
     p.add_argument("--kind", choices=("grayscale", "labels", "palette"), help="[image] kind")
     p.add_argument("--quiet", action="store_true", help="no progress messages")
+    _add_window_options(p)
     p.set_defaults(run=_run_analyze)
+
+
+def _add_window_options(p) -> None:
+    p.add_argument("--windows", action="store_true",
+                   help="window-size study: is the image big enough? (integral range, "
+                        "supported error, required size)")
+    p.add_argument("--target-error", metavar="PCT",
+                   help="target relative error at 95 %% for the required size, e.g. 2%% "
+                        "(default 5%%; implies --windows)")
+    p.add_argument("--edges", choices=("periodic", "mirror"),
+                   help="window boundary for the effective properties: periodic (default) "
+                        "or mirrored windows (implies --windows)")
+
+
+def _window_options(args):
+    """The window-study options given on the command line, or None."""
+    if not (args.windows or args.target_error or args.edges):
+        return None
+    from .batch import WindowOptions
+    from .rve import parse_target_error
+
+    return WindowOptions(edges=args.edges or "periodic",
+                         target_error=parse_target_error(args.target_error or "5%"))
 
 
 def _run_analyze(args) -> int:
@@ -63,6 +87,12 @@ def _run_analyze(args) -> int:
         if str(args.image) in str(exc):
             raise
         raise InputError(f"{args.image}: {exc}") from None
+    windows = _window_options(args)
+    if windows is not None:
+        from .rve import add_window_study
+
+        analysis = add_window_study(analysis, cfg, edges=windows.edges,
+                                    target_error=windows.target_error, progress=progress)
     progress("writing outputs")
     paths = write_outputs(analysis, args.out, config=cfg)
     _emit_json(args.json, analysis.result.to_json())
@@ -90,6 +120,8 @@ def _summary(result, paths) -> None:
         lines.append(f"  ({eff.get('model', '')})")
     for w in d["warnings"]:
         lines.append(f"  warning: {w}")
+    if d.get("windows"):
+        lines.append(f"  window study: {d['windows']['verdict']}")
     lines.append(f"  report: {paths.report}")
     lines.append(f"  json:   {paths.json}")
     print("\n".join(lines), file=sys.stderr)
@@ -218,6 +250,84 @@ def _run_serve(args) -> int:
     return EXIT_OK
 
 
+def _add_batch(sub):
+    p = sub.add_parser("batch", help="analyse every image of a folder",
+                       description="Analyse every image under a folder (recursively) in "
+                       "parallel; survives bad files and kills (--resume), writes summary.csv, "
+                       "failures.csv, index.html and a manifest.")
+    p.add_argument("folder", help="folder holding the images (searched recursively)")
+    p.add_argument("--config", help="run configuration (TOML) for every image")
+    p.add_argument("--out", default="polisect-batch", help="output folder (default: "
+                   "polisect-batch)")
+    p.add_argument("--pattern", default="*.tif", help="file-name pattern(s), comma-separated, "
+                   "case-insensitive (default: *.tif)")
+    p.add_argument("--jobs", type=int, default=1, help="worker processes (default 1)")
+    p.add_argument("--scheduler", metavar="ADDRESS", help="run on a Dask distributed "
+                   "scheduler, e.g. tcp://host:8786 (needs polisect[dask])")
+    p.add_argument("--resume", action="store_true", help="keep what a previous run into --out "
+                   "finished; redo changed images or a changed config")
+    p.add_argument("--group-by", metavar="folder|REGEX", help="batches by folder (default) or "
+                   "by a regex with (?P<batch>...) on the file name")
+    p.add_argument("--classes", type=int, help="number of grey-level classes (multi-Otsu)")
+    p.add_argument("--assign", help="materials per class, e.g. 0=air,1=alumina,2=zirconia")
+    p.add_argument("--pixel-size", type=float, metavar="UM", help="pixel size in µm")
+    p.add_argument("--kind", choices=("grayscale", "labels", "palette"), help="[image] kind")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+    _add_window_options(p)
+    p.set_defaults(run=_run_batch)
+
+
+def _run_batch(args) -> int:
+    from .batch import run_batch
+    from .config import load_config, quick_config
+
+    cfg = load_config(args.config) if args.config else None
+    if any(v is not None for v in (args.classes, args.assign, args.kind)) or cfg is None:
+        cfg = quick_config(classes=args.classes, assign=args.assign, kind=args.kind, base=cfg)
+    r = run_batch(args.folder, args.out, config=cfg, pattern=args.pattern, jobs=args.jobs,
+                  scheduler=args.scheduler, resume=args.resume, group_by=args.group_by,
+                  pixel_size_um=args.pixel_size, windows=_window_options(args),
+                  quiet=args.quiet)
+    if not args.quiet:
+        print(f"{r.done} of {r.total} images done ({r.skipped} from before), {r.failed} "
+              f"failed, {r.seconds:.1f} s\n  index:    {r.index_html}\n  summary:  "
+              f"{r.summary_csv}\n  failures: {r.failures_csv}", file=sys.stderr)
+    return EXIT_OK
+
+
+def _add_compare(sub):
+    p = sub.add_parser("compare", help="compare sections and batches",
+                       description="Statistics of the sections of each batch (mean, 95 %% "
+                       "interval, %%RA), Grubbs outliers, Welch's t-test / ANOVA between "
+                       "batches, heterogeneity against the window studies, as HTML and JSON.")
+    p.add_argument("dirs", nargs="+", metavar="DIR", help="folders written by polisect batch "
+                   "(or holding result JSON files)")
+    p.add_argument("--group-by", metavar="dir|folder|REGEX", help="batches: as recorded by "
+                   "polisect batch (default), each DIR (dir), the image folder (folder), or a "
+                   "regex with (?P<batch>...) on the image file name")
+    p.add_argument("--out", metavar="FILE.html", default="comparison.html",
+                   help="HTML page to write (default: comparison.html)")
+    p.add_argument("--json", metavar="FILE", help="also write the comparison as JSON "
+                   "('-' = stdout)")
+    p.add_argument("--quiet", action="store_true", help="do not print the findings")
+    p.set_defaults(run=_run_compare)
+
+
+def _run_compare(args) -> int:
+    from .compare import compare, load_sections, write_html
+
+    comparison = compare(load_sections(args.dirs, args.group_by))
+    write_html(comparison, args.out)
+    _emit_json(args.json, comparison.to_json())
+    if not args.quiet:
+        lines = [f"{len(comparison.sections)} sections in {len(comparison.batches)} batch(es): "
+                 + ", ".join(comparison.batches)]
+        lines += [f"  {s}" for s in comparison.sentences()]
+        lines.append(f"  report: {args.out}")
+        print("\n".join(lines), file=sys.stderr)
+    return EXIT_OK
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="polisect",
@@ -225,8 +335,8 @@ def build_parser() -> argparse.ArgumentParser:
                     "effective properties with bounds and confidence.")
     parser.add_argument("--version", action="version", version=f"polisect {__version__}")
     sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
-    for add in (_add_analyze, _add_demo, _add_materials, _add_estimate, _add_bench,
-                _add_serve):
+    for add in (_add_analyze, _add_batch, _add_compare, _add_demo, _add_materials,
+                _add_estimate, _add_bench, _add_serve):
         add(sub)
     return parser
 
