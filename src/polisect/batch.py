@@ -719,7 +719,8 @@ def write_tables(out: str, manifest: dict) -> tuple[str, str, str]:
 
 def index_html(manifest: dict, rows: list[dict], failures: list[dict]) -> str:
     """The batch's index page: every section with its headline numbers and report link."""
-    from .compare import _sig, quantity_keys, quantity_label
+    from .compare import quantity_keys, quantity_label
+    from .sectionstats import sig
     from .report import _CSS, CAUTION
 
     entries = manifest["entries"]
@@ -733,7 +734,7 @@ def index_html(manifest: dict, rows: list[dict], failures: list[dict]) -> str:
             outs = entries[r["image"]]["outputs"]
             link = (f'<a href="{html.escape(outs["report"])}">{html.escape(r["image"])}</a>'
                     if outs.get("report") else html.escape(r["image"]))
-            cells = "".join(f"<td>{_sig(r[k], 4) if isinstance(r.get(k), float) else '–'}</td>"
+            cells = "".join(f"<td>{sig(r[k], 4) if isinstance(r.get(k), float) else '–'}</td>"
                             for k in keys)
             body.append(f'<tr><td>{link}</td>{cells}<td><a href="{html.escape(outs["json"])}">'
                         "json</a></td></tr>")

@@ -146,7 +146,8 @@ def _windows(analysis, d, colors) -> str:
     w = d.get("windows")
     if not w:
         return ""
-    from .compare import _sig, quantity_label
+    from .compare import quantity_label
+    from .sectionstats import sig
     from .rve import EDGE_NOTES, window_figure
 
     um = w["pixel_size_um"]
@@ -161,16 +162,16 @@ def _windows(analysis, d, colors) -> str:
         a3 = q["integral_range_px"]
         err = q["supported_error_pct"]
         gitman = q["gitman_smallest_side_px"]
-        rows.append((label + (f" ({unit})" if unit else ""), _sig(q["value"], 4),
-                     "–" if a3 is None else _sig(a3 * scale, 3),
+        rows.append((label + (f" ({unit})" if unit else ""), sig(q["value"], 4),
+                     "–" if a3 is None else sig(a3 * scale, 3),
                      "–" if q["exponent"] is None else f"{q['exponent']:.2f}",
-                     "–" if err is None else f"±{_sig(err)} %",
-                     "–" if side is None else f"{_sig(side, 3)} {length}",
+                     "–" if err is None else f"±{sig(err)} %",
+                     "–" if side is None else f"{sig(side, 3)} {length}",
                      "–" if q["images_needed"] is None else str(q["images_needed"]),
-                     "–" if gitman is None else f"{_sig(gitman * (um or 1), 3)} {length}"))
+                     "–" if gitman is None else f"{sig(gitman * (um or 1), 3)} {length}"))
     head = ("Quantity", "Whole image", f"Integral range ({area_unit})", "Exponent α",
             f"Error supported ({w['confidence'] * 100:g} %)",
-            f"Side for ±{_sig(w['target_error_pct'])} %", "Images of this size",
+            f"Side for ±{sig(w['target_error_pct'])} %", "Images of this size",
             "χ² criterion met from side")
     notes = "".join(f"<li>{html.escape(n)}</li>" for n in w["notes"])
     return ("<section><h2>Is the image big enough? (window-size study)</h2>"

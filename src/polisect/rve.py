@@ -109,7 +109,7 @@ class WindowLevel:
         return math.prod(self.side_px)
 
     def to_dict(self) -> dict:
-        from .compare import gitman_chi2
+        from .sectionstats import gitman_chi2
 
         out = {}
         for key, v in self.values.items():
@@ -552,7 +552,7 @@ def _fit(key, value, point_var, fit_levels, levels, area, ndim, z, target, confi
 
 
 def _gitman_side(key, levels) -> int | None:
-    from .compare import gitman_chi2
+    from .sectionstats import gitman_chi2
 
     passing = None
     for lv in levels:
@@ -578,26 +578,26 @@ def _size_words(measure: float, ndim: int, pixel_um: float | None) -> str:
 
 
 def _length(px: float, pixel_um: float | None) -> str:
-    from .compare import _sig
+    from .sectionstats import sig
 
     if not pixel_um:
-        return f"{_sig(px, 3)} px"
+        return f"{sig(px, 3)} px"
     um = px * pixel_um
-    return f"{_sig(um / 1000.0, 3)} mm" if um >= 1000 else f"{_sig(um, 3)} µm"
+    return f"{sig(um / 1000.0, 3)} mm" if um >= 1000 else f"{sig(um, 3)} µm"
 
 
 def _pct(fraction: float) -> str:
-    from .compare import _sig
+    from .sectionstats import sig
 
-    return f"±{_sig(fraction * 100.0)} %"
+    return f"±{sig(fraction * 100.0)} %"
 
 
 def _need_words(q: QuantityFit, area: float, ndim: int, pixel_um: float | None) -> str:
-    from .compare import _sig
+    from .sectionstats import sig
 
     ratio = (q.required_area_px / area) ** (1.0 / ndim)
     return (f"an image of {_size_words(q.required_area_px, ndim, pixel_um)} "
-            f"({_sig(ratio)}× the side of this one) or {q.images_needed} images of this size")
+            f"({sig(ratio)}× the side of this one) or {q.images_needed} images of this size")
 
 
 def _overall_verdict(quantities, target, confidence, notes, area, ndim, pixel_um) -> str:
@@ -691,7 +691,8 @@ def window_figure(windows: dict):
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from .compare import _sig, quantity_label
+    from .compare import quantity_label
+    from .sectionstats import sig
 
     keys = list(windows["quantities"])
     z = float(stats.norm.ppf(0.5 + windows["confidence"] / 2.0))
@@ -716,7 +717,7 @@ def window_figure(windows: dict):
                             alpha=0.25, label="integral-range fit, 95 %")
         ax.axhline(q["value"], color="#e0a030", lw=1)
         ax.set_xscale("log", base=2)
-        ax.set_xticks(side, [_sig(v, 3) for v in side])
+        ax.set_xticks(side, [sig(v, 3) for v in side])
         ax.minorticks_off()
         label, unit = quantity_label(key)
         ax.set_title(label + (f" ({unit})" if unit else ""), fontsize=9)
