@@ -356,6 +356,10 @@ def main(argv: list[str] | None = None) -> int:
         print(f"polisect: error: {exc.filename}: {exc.strerror}; check the path and its "
               "permissions", file=sys.stderr)
         return EXIT_INPUT
+    except BrokenPipeError:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        return EXIT_OK
     except KeyboardInterrupt:
         print("polisect: interrupted", file=sys.stderr)
         return 130
