@@ -21,6 +21,7 @@ import pytest
 from hypothesis import given, strategies as st
 
 from polisect.config import load_config
+from polisect.errors import InputError
 from polisect.image import write_tiff
 from polisect.pipeline import analyze
 from polisect.serve.runconfig import run_config_toml
@@ -552,3 +553,19 @@ def test_loopback_detection_and_warning(tmp_path, capsys):
     box["s"].shutdown()
     thread.join(30)
     assert "no login" in capsys.readouterr().err
+
+
+def test_upload_store_forgets_the_oldest(tmp_path, image):
+    """More uploads than the store keeps: the oldest go, the newest stay readable."""
+    from polisect.serve.uploads import UploadStore
+
+    store = UploadStore(str(tmp_path / "up"), max_bytes=10**6, keep=2)
+    size = os.path.getsize(image)
+    held = []
+    for _ in range(3):
+        with open(image, "rb") as f:
+            held.append(store.save(f, size, "s.tif").id)
+    with pytest.raises(InputError, match="no longer on the server"):
+        store.get(held[0])
+    assert store.get(held[2]).size == size
+    assert sorted(os.listdir(store.root)) == sorted(held[1:])

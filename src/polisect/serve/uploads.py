@@ -83,7 +83,8 @@ class Upload:
 
 
 class UploadStore:
-    """Uploads in their own folders under *root*; the oldest go when more than *keep* are held.
+    """Uploads in their own folders under *root*; the oldest go when more than *keep* are held
+    or they take more than five times the upload limit.
 
     Parameters
     ----------
@@ -100,7 +101,7 @@ class UploadStore:
         self.max_bytes = int(max_bytes)
         self.keep = keep
         self._lock = threading.Lock()
-        self._order: list[str] = []
+        self._held: dict[str, int] = {}
         os.makedirs(self.root, exist_ok=True)
 
     def limit_message(self, size: int) -> str:
@@ -142,7 +143,7 @@ class UploadStore:
         except BaseException:
             shutil.rmtree(folder, ignore_errors=True)
             raise
-        self._remember(upload_id)
+        self._remember(upload_id, length)
         return Upload(upload_id, folder, path, shown, length)
 
     @staticmethod
@@ -158,11 +159,14 @@ class UploadStore:
                 received += len(block)
         return received
 
-    def _remember(self, upload_id: str) -> None:
+    def _remember(self, upload_id: str, size: int) -> None:
         with self._lock:
-            self._order.append(upload_id)
-            while len(self._order) > self.keep:
-                shutil.rmtree(os.path.join(self.root, self._order.pop(0)), ignore_errors=True)
+            self._held[upload_id] = size
+            while len(self._held) > 1 and (len(self._held) > self.keep
+                                           or sum(self._held.values()) > 5 * self.max_bytes):
+                oldest = next(iter(self._held))
+                del self._held[oldest]
+                shutil.rmtree(os.path.join(self.root, oldest), ignore_errors=True)
 
     def get(self, upload_id: str) -> Upload:
         """The upload with this identifier.
@@ -187,8 +191,7 @@ class UploadStore:
         if UPLOAD_ID.fullmatch(upload_id):
             shutil.rmtree(os.path.join(self.root, upload_id), ignore_errors=True)
             with self._lock:
-                if upload_id in self._order:
-                    self._order.remove(upload_id)
+                self._held.pop(upload_id, None)
 
     def close(self) -> None:
         """Delete every upload and the store's folder."""

@@ -39,7 +39,7 @@
     }
     return opts.binary ? resp.arrayBuffer() : resp.json();
   }
-  function show(el, text) { el.textContent = text; el.hidden = false; }
+  function show(el, text, kind = "error") { el.textContent = text; el.className = `msg ${kind}`; el.hidden = false; }
   function hide(el) { el.hidden = true; el.textContent = ""; }
   function el(tag, attrs = {}, ...kids) {
     const node = document.createElement(tag);
@@ -52,9 +52,10 @@
     for (const kid of kids) if (kid !== null && kid !== undefined) node.append(kid);
     return node;
   }
+  /** A number to *digits* significant digits, without trailing zeros. */
   function fmt(v, digits = 4) {
     if (v === null || v === undefined || Number.isNaN(v)) return "–";
-    return Number(v).toPrecision(digits).replace(/\.?0+(e|$)/, "$1");
+    return String(Number(Number(v).toPrecision(digits)));
   }
   function fixed(v, digits = 4) { return (v === null || v === undefined) ? "–" : Number(v).toFixed(digits); }
   function debounce(fn, ms) {
@@ -180,6 +181,10 @@
     [S.ph, S.pw] = facts.preview_shape;
     showFacts(facts, note);
     const labelsOk = Array.isArray(facts.label_values);
+    if (labelsOk && facts.cropped_bottom_px && $("crop").value === "auto") {
+      $("crop").value = "0";  // a label image has no information band: keep every row
+      return reinspect();
+    }
     $("kind-labels").disabled = !labelsOk;
     const kind = labelsOk ? "labels" : "grayscale";
     document.querySelector(`input[name=kind][value=${kind}]`).checked = true;
@@ -205,7 +210,9 @@
       ? `${f.cropped_bottom_px} rows cut; the image analysed is ${nx} × ${ny} px.`
       : "Nothing cut.";
     const notes = $("image-notes");
-    notes.replaceChildren(...[note, ...f.notes].filter(Boolean).map((n) => el("li", { text: n })));
+    const said = /^(pixel size unknown|auto crop:|cut an information band)/;  // said above already
+    notes.replaceChildren(...[note, ...f.notes.filter((n) => !said.test(n))].filter(Boolean)
+      .map((n) => el("li", { text: n })));
     drawThumb();
   }
 
@@ -247,13 +254,15 @@
     S.kind = document.querySelector("input[name=kind]:checked").value;
     const grey = S.kind === "grayscale";
     for (const id of ["class-controls", "hist-wrap", "th-inputs", "th-mode"]) $(id).hidden = !grey;
+    $("label-summary").hidden = grey;
     document.querySelector(".hist-legend").hidden = !grey;
     document.querySelector("details.more").hidden = !grey;
     hide($("map-msg"));
     if (grey) {
       $("classes").value = S.classes;
-      $("suggested").textContent = S.up.suggested_classes
-        ? `suggested: ${S.up.suggested_classes}` : "no suggestion";
+      const n = S.up.suggested_classes;
+      $("suggested").textContent = n >= 2 ? `suggested: ${n}`
+        : n === 1 ? "no clear phases in the histogram" : "no suggestion";
       if (S.up.suggest_note) show($("map-msg"), S.up.suggest_note);
       await autoThresholds();
     } else {
@@ -261,6 +270,8 @@
       buildRows();
       drawOverlay();
       $("overlay-note").textContent = "Each value of the label image is one phase.";
+      $("label-summary").textContent = `The image holds the values ${S.up.label_values.join(", ")}: `
+        + "one phase each, used as they are (no thresholds). Give each a material in step 3.";
     }
   }
 
@@ -383,7 +394,11 @@
         const inp = el("input", { type: "number", step: "any", id: `th-${i}`,
           "aria-label": `Threshold ${i + 1}, grey level` });
         inp.addEventListener("change", () => setThreshold(i, Number(inp.value), true));
-        inputs.append(el("label", { for: `th-${i}`, text: `${i}|${i + 1}` }), inp);
+        const pair = el("label", { for: `th-${i}`, class: "pair", title: `between class ${i} and class ${i + 1}` },
+          el("span", { class: "swatch" }), el("span", { class: "swatch" }));
+        pair.children[0].style.background = colour(i);
+        pair.children[1].style.background = colour(i + 1);
+        inputs.append(el("span", { class: "th-field" }, pair, inp));
       });
     }
     const [lo, hi] = greyRange();
@@ -564,7 +579,10 @@
     };
     const render = () => {
       const q = input.value.trim().toLowerCase();
-      const hits = lib.filter((m) => !q || q === "own values" || m.key.includes(q) || m.description.toLowerCase().includes(q));
+      const rank = (m) => (!q || q === "own values" ? 0 : m.key.startsWith(q) ? 0 : m.key.includes(q) ? 1
+        : m.description.toLowerCase().includes(q) ? 2 : 3);
+      const hits = lib.map((m) => [rank(m), m]).filter(([r]) => r < 3)
+        .sort((a, b) => a[0] - b[0]).map(([, m]) => m);
       options = [...hits, { own: true }];
       list.replaceChildren(...options.map((m, i) => el("li", {
         role: "option", id: `${listId}-${i}`, "aria-selected": i === active ? "true" : "false", class: m.own ? "own" : null,
@@ -621,6 +639,7 @@
       if (!st.own && st.material) p.material = st.material;
       if (st.particles !== "auto") p.particles = st.particles === "yes";
       if (st.own) {
+        p.source = "own values entered in the page";
         for (const [key, , , scale] of OWN) {
           const raw = (st.values[key] ?? "").toString().trim();
           if (raw !== "") p[key] = Number(raw) * scale;
@@ -634,13 +653,25 @@
     return { image, segment, phase, solve };
   }
 
+  /** A phase without material while properties are asked for: say so before the server does. */
+  function missingMaterial(config) {
+    if (!config.solve.properties.length) return null;
+    const bare = config.phase.find((p) => !p.material && !OWN.some(([key]) => key in p));
+    if (!bare) return null;
+    return `class ${bare.label} has no material: pick one from the library or enter own values `
+      + "(or untick the effective properties to measure the fractions only)";
+  }
+
   async function submitRun() {
     hide($("run-msg"));
     if (!S.up) { show($("run-msg"), "drop an image first (step 1)"); return; }
+    const config = runConfig();
+    const missing = missingMaterial(config);
+    if (missing) { show($("run-msg"), missing); return; }
     const btn = $("run");
     btn.disabled = true;
     try {
-      const r = await api("/api/runs", { json: { upload: S.up.id, config: runConfig() } });
+      const r = await api("/api/runs", { json: { upload: S.up.id, config } });
       await openRun(r.id);
       refreshRuns();
     } catch (e) {
@@ -655,7 +686,8 @@
     clearTimeout(S.pollTimer);
     S.runId = id;
     $("step-result").hidden = false;
-    $("result-title").textContent = `Run ${id}`;
+    $("result-title").textContent = "Run";
+    $("run-folder").textContent = `${S.info.out_dir}/${id}`;
     $("result").hidden = true;
     hide($("result-msg"));
     $("log").replaceChildren();
@@ -674,6 +706,7 @@
       return;
     }
     if (id !== S.runId) return;
+    $("result-title").textContent = `Run: ${st.image}`;
     const final = FINAL.includes(st.state);
     $("progress").hidden = final && st.state === "done";
     $("state").textContent = st.state;
@@ -692,8 +725,8 @@
     if (!first || st.state !== "done" || $("result").hidden) refreshRuns();
     if (st.state === "done") await showResult(id, st);
     else if (st.error) show($("result-msg"), st.error);
-    else if (st.state === "cancelled") show($("result-msg"), "the run was cancelled; its folder keeps what was written so far");
-    else if (st.state === "interrupted") show($("result-msg"), "the server stopped during this run; run it again");
+    else if (st.state === "cancelled") show($("result-msg"), "Cancelled. The run folder keeps what was written so far.", "info");
+    else if (st.state === "interrupted") show($("result-msg"), "The server stopped during this run; run it again.", "info");
   }
 
   async function cancelRun() {
@@ -730,7 +763,7 @@
     $("fractions").replaceChildren(head, el("tbody", {}, ...rows));
     $("effective").replaceChildren(effectiveTable(d.effective));
     $("warnings").replaceChildren(...(d.warnings || []).map((w) => el("li", { text: w })));
-    $("repeat").textContent = `polisect analyze ${st.image} --config config.toml   (in ${S.info.out_dir}/${id})`;
+    $("repeat").textContent = `polisect analyze ${st.image} --config config.toml`;
     $("report").src = `${base}/report?inline=1`;
     $("result").hidden = false;
   }
