@@ -264,6 +264,17 @@ def stress_to_voigt(sig: np.ndarray) -> np.ndarray:
     return np.stack([sig[..., i, j] for i, j in pairs], axis=-1)
 
 
+def voigt_to_stress(v: np.ndarray) -> np.ndarray:
+    """Symmetric stress tensor (..., d, d) from its Voigt vector (no shear factor)."""
+    v = np.asarray(v, dtype=float)
+    dim = {3: 2, 6: 3}[v.shape[-1]]
+    sig = np.zeros(v.shape[:-1] + (dim, dim))
+    for a, (i, j) in enumerate(VOIGT_PAIRS[dim]):
+        sig[..., i, j] = v[..., a]
+        sig[..., j, i] = v[..., a]
+    return sig
+
+
 def _isotropic_basis(dim: int) -> tuple[np.ndarray, np.ndarray]:
     """Mandel matrices of the spherical (J) and deviatoric (K) projectors."""
     ones = np.zeros(len(VOIGT_PAIRS[dim]))

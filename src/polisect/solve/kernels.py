@@ -16,6 +16,11 @@ from __future__ import annotations
 import numba as nb
 import numpy as np
 
+# Threads that wait on a queue rather than spin: on a machine with few cores the FFT
+# workers and other processes need the cores between two parallel kernels (the OpenMP
+# layer made a CG iteration 2-3x slower there, measured).
+nb.config.THREADING_LAYER = "workqueue"
+
 _OPTS = dict(cache=True, fastmath=True)
 
 
