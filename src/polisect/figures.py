@@ -75,3 +75,13 @@ def correlations(curves, colors_by_name):
     ax.legend(fontsize=8)
     fig.tight_layout()
     return fig
+
+
+def field_map(values, label, cmap):
+    """A per-pixel field (image-indexed) with a colour bar clipped at the 99.5th percentile."""
+    fig, ax = plt.subplots(figsize=(4.8, 4.2))
+    top = float(np.percentile(values, 99.5)) or float(values.max()) or 1.0
+    im = ax.imshow(values, cmap=cmap, vmin=0.0, vmax=top, interpolation="nearest")
+    ax.set_axis_off()
+    fig.colorbar(im, ax=ax, fraction=0.046, pad=0.03, label=label)
+    return fig

@@ -101,11 +101,18 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
     schemes = _schemes(phasemap, fractions, measured, notes)
     timings["schemes"] = time.perf_counter() - tick
 
+    tick = time.perf_counter()
+    effective = _effective(phasemap, cfg, say, warnings, notes)
+    timings["solve"] = time.perf_counter() - tick
+    if effective is not None and schemes.get("bounds"):
+        warnings.extend(bounds_warnings(effective.block, schemes["bounds"]))
+
     src = Source(path=micro.path, sha256=micro.sha256, shape=tuple(phasemap.shape),
                  pixel_size_um=micro.pixel_size_um, pixel_size_from=micro.pixel_size_from,
                  cropped_bottom_px=micro.cropped_bottom_px)
     result = Result(source=src, phases=fractions, version=__version__,
                     particles={pp.name: pp.to_dict() for pp in measured} or None,
+                    effective=effective.block if effective else None,
                     schemes=schemes.get("schemes"), bounds=schemes.get("bounds"),
                     schemes_3d=schemes.get("schemes_3d"), bounds_3d=schemes.get("bounds_3d"),
                     correlation={name: {"correlation_length": c.correlation_length,
@@ -117,7 +124,54 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
     rows = [{"phase": pp.name, **row} for pp in measured for row in pp.table.rows()]
     return Analysis(result=result, phasemap=phasemap, image=micro.data,
                     thresholds=tuple(thresholds), particle_rows=rows, particles=measured,
-                    correlations=correlations)
+                    correlations=correlations,
+                    field_maps=effective.maps if effective else {})
+
+
+def _effective(phasemap: PhaseMap, cfg: Config, say: Progress, warnings: list, notes: list):
+    """The solvers' block, or None (with a note) when the materials do not allow it."""
+    from .effective import solve_effective
+
+    props = cfg.solve.properties
+    if not props:
+        return None
+    if not cfg.phases:
+        notes.append("no materials assigned to the phases: effective properties not computed "
+                     "(give [[phase]] entries or --assign)")
+        return None
+    eff = solve_effective(phasemap, props, method=cfg.solve.method, tol=cfg.solve.tolerance,
+                          plane=cfg.solve.plane, maps=cfg.solve.fields, progress=say)
+    warnings.extend(eff.warnings)
+    return eff
+
+
+ISOTROPIC_LOOKING = 0.05
+
+
+def bounds_warnings(block: dict, bounds: dict, tol: float = 0.01) -> list[str]:
+    """Warnings for computed values of an isotropic-looking structure outside the bounds.
+
+    A value outside the Hashin–Shtrikman bounds by more than *tol* (relative) means the
+    structure is not isotropic, the image is too small, or the phase map is wrong.
+    """
+    from .schemes import place
+
+    out = []
+    checks = [("conductivity", "conductivity_W_mK", "mean_W_mK", "conductivity"),
+              ("elasticity", "bulk_modulus_GPa", "bulk_modulus_GPa", "bulk modulus"),
+              ("elasticity", "shear_modulus_GPa", "shear_modulus_GPa", "shear modulus")]
+    for prop, bkey, vkey, label in checks:
+        res = block.get(prop)
+        if not res or (res.get("anisotropy") or 0) > ISOTROPIC_LOOKING:
+            continue
+        src = res.get("scheme_comparable", res)
+        value, b = src.get(vkey), bounds.get(bkey) or {}
+        if value is None or b.get("lower") is None or b.get("upper") is None:
+            continue
+        warning = place(value, b["lower"], b["upper"], tol).warning(label)
+        if warning:
+            out.append(warning)
+    return out
 
 
 def _fractions(phasemap: PhaseMap, cfg: Config) -> tuple[PhaseFraction, ...]:

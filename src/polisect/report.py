@@ -254,11 +254,12 @@ def computed_values(d) -> dict:
     if eff.get("conductivity"):
         out["conductivity_W_mK"] = eff["conductivity"].get("mean_W_mK")
     el = eff.get("elasticity") or {}
+    el = el.get("scheme_comparable", el)
     for key in ("bulk_modulus_GPa", "shear_modulus_GPa", "youngs_modulus_GPa", "poisson_ratio"):
-        out[key] = (el.get("scheme_comparable") or el).get(key)
+        out[key] = el.get(key)
     if eff.get("expansion"):
         ex = eff["expansion"]
-        out["expansion_per_K"] = (ex.get("scheme_comparable") or ex).get("mean_per_K")
+        out["expansion_per_K"] = ex.get("scheme_comparable", ex).get("mean_per_K")
     return {k: v for k, v in out.items() if v is not None}
 
 
@@ -305,7 +306,78 @@ def _schemes(analysis, d, colors) -> str:
             + (f'<ul class="note">{notes}</ul>' if notes else "") + "</section>")
 
 
-SECTIONS = [_caution, _source, _images, _fractions, _particles, _schemes, _windows, _warnings, _config, _raw_json]
+def _effective(analysis, d, colors) -> str:
+    eff = d.get("effective")
+    if not eff:
+        return ""
+    from . import figures
+
+    rows, facts = [], []
+    c, e, x = eff.get("conductivity"), eff.get("elasticity"), eff.get("expansion")
+    if c:
+        rows.append(("Thermal conductivity (mean of the tensor)", f"{c['mean_W_mK']:.4g} W/(m·K)"))
+        facts.append(("conductivity", c["solver"]))
+    if e:
+        rows += [("Young's modulus (in-plane, isotropic part)" if eff["dimension"] == 2
+                  else "Young's modulus (isotropic part)", f"{e['youngs_modulus_GPa']:.4g} GPa"),
+                 ("Poisson's ratio", f"{e['poisson_ratio']:.4g}"),
+                 ("Bulk modulus" + (" (in-plane, areal)" if eff["dimension"] == 2 else ""),
+                  f"{e['bulk_modulus_GPa']:.4g} GPa"),
+                 ("Shear modulus", f"{e['shear_modulus_GPa']:.4g} GPa")]
+        if e.get("axial"):
+            a = e["axial"]
+            rows += [("Axial Young's modulus (along the prism)", f"{a['youngs_modulus_GPa']:.4g} GPa"),
+                     ("Axial shear modulus", f"{a['shear_modulus_GPa']:.4g} GPa")]
+        facts.append(("elasticity", e["solver"]))
+    if x:
+        rows.append(("Thermal expansion (mean" + (", in-plane)" if eff["dimension"] == 2
+                                                   else ")"), f"{x['mean_per_K'] * 1e6:.4g} ×10⁻⁶/K"))
+        if x.get("axial_per_K") is not None:
+            rows.append(("Axial thermal expansion", f"{x['axial_per_K'] * 1e6:.4g} ×10⁻⁶/K"))
+        facts.append(("expansion", x["solver"]))
+    tens = []
+    if c:
+        tens.append(("Conductivity tensor, W/(m·K)", c["tensor_W_mK"], 1.0))
+    if e:
+        tens.append(("Stiffness, Voigt (" + ("xx, yy, xy" if eff["dimension"] == 2 else
+                                             "xx, yy, zz, yz, xz, xy") + "), GPa",
+                     e["stiffness_GPa"], 1.0))
+    if x:
+        tens.append(("Thermal expansion tensor, 10⁻⁶/K", x["tensor_per_K"], 1e6))
+    tensor_html = "".join(f"<h3>{html.escape(t)}</h3>" + _matrix(m, sc) for t, m, sc in tens)
+    fact_rows = [(what, f["method"], str(f["iterations"]), f"{f['seconds']:.2f} s",
+                  f"{f['tolerance']:g}", "yes" if f["converged"] else "NO")
+                 for what, f in facts]
+    maps = []
+    if "heat_flux" in analysis.field_maps:
+        maps.append(("Heat-flux magnitude under a unit mean gradient along x",
+                     figure_png(figures.field_map(analysis.field_maps["heat_flux"],
+                                                  "|q|, W/m² per K/m", "inferno"))))
+    if "von_mises" in analysis.field_maps:
+        maps.append(("von Mises stress under a unit uniaxial mean stress along x",
+                     figure_png(figures.field_map(analysis.field_maps["von_mises"],
+                                                  "σ_vM / σ̄", "viridis"))))
+    cells = "".join(f'<figure><img alt="{html.escape(t)}" src="{u}"><figcaption>'
+                    f"{html.escape(t)}</figcaption></figure>" for t, u in maps)
+    note = (f'<p class="prism"><strong>Model:</strong> {html.escape(eff["model"])}. '
+            f'{html.escape(eff["note"] or "")}</p>')
+    return ("<section><h2>Effective properties (computed on the phase map)</h2>" + note
+            + _table(rows) + tensor_html
+            + "<h3>Solvers</h3>" + _grid(("property", "method", "iterations", "time",
+                                          "tolerance", "converged"), fact_rows)
+            + f'<p class="note">Axes: {html.escape(eff["axes"])}. Periodic pixel-element '
+            "solution; the image is treated as one periodic cell.</p>"
+            + (f'<div class="figs">{cells}</div>' if cells else "") + "</section>")
+
+
+def _matrix(m, scale) -> str:
+    body = "".join("<tr>" + "".join(f"<td>{v * scale:.4g}</td>" for v in row) + "</tr>"
+                   for row in m)
+    return f'<table class="grid matrix"><tbody>{body}</tbody></table>'
+
+
+SECTIONS = [_caution, _warnings, _source, _images, _fractions, _effective, _schemes,
+            _particles, _windows, _config, _raw_json]
 
 
 def _table(rows) -> str:
@@ -383,5 +455,6 @@ figcaption{font-size:.85rem;color:#4a5560}
 .swatch{display:inline-block;width:.9em;height:.9em;border-radius:2px;margin-right:6px;
 vertical-align:-1px;border:1px solid #0003}
 .note{font-size:.86rem;color:#4a5560}
+.prism{background:#eef4f6;border-left:4px solid #3f7f8c;padding:8px 12px}
 pre{background:#f3f2ee;padding:10px;overflow-x:auto;font-size:.82rem}
 """
