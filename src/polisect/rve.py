@@ -353,43 +353,34 @@ def solver_evaluator(phasemap, properties, *, method: str = "auto", tol: float =
                      plane: str = "generalized-plane-strain") -> Evaluate:
     """A function window labels → {headline key: value} for the asked effective properties.
 
-    Conductivity: mean of the diagonal of the tensor (W/(m·K)); elasticity: Young's
-    modulus of the nearest isotropic stiffness (GPa); expansion: mean of the diagonal of
-    the expansion tensor (1/K). Solved with `polisect.solve`.
+    The values are the solver results' own isotropic projections, the numbers the section
+    reports: conductivity ``tr(k)/d`` (W/(m·K)), Young's modulus of the nearest isotropic
+    stiffness (GPa; in 2D for the plane mode), expansion ``tr(α)/d`` (1/K). Solved with
+    `polisect.solve`.
     """
     from . import solve
-    from .tensors import E_nu_from_bulk_shear, isotropic_projection
 
     unknown = [p for p in properties if p not in PROPERTY_KEYS]
     if unknown:
         raise InputError(f"window study: unknown properties {unknown}; choose from "
                          f"{', '.join(PROPERTY_KEYS)}")
     materials = phasemap.materials
-    planar = None if phasemap.ndim == 3 else ("plane-stress" if plane == "plane-stress"
-                                              else "plane-strain")
 
     def evaluate(labels: np.ndarray) -> dict:
-        out = {}
+        out, stiff = {}, None
         if "conductivity" in properties:
-            r = solve.conductivity(labels, materials, method=method, tol=tol)
-            out["conductivity_W_mK"] = float(np.trace(r.tensor) / labels.ndim)
+            out["conductivity_W_mK"] = solve.conductivity(labels, materials, method=method,
+                                                          tol=tol).mean()
         if "elasticity" in properties:
-            e = solve.elasticity(labels, materials, plane=plane, method=method, tol=tol)
-            K, G = isotropic_projection(np.asarray(e.stiffness)[:_voigt(labels.ndim),
-                                                                :_voigt(labels.ndim)])
-            out["youngs_modulus_GPa"] = float(E_nu_from_bulk_shear(K, G, planar)[0])
+            stiff = solve.elasticity(labels, materials, plane=plane, method=method, tol=tol)
+            out["youngs_modulus_GPa"] = stiff.isotropic().youngs_modulus
         if "expansion" in properties:
-            x = solve.expansion(labels, materials, plane=plane, method=method, tol=tol)
-            t = np.asarray(x.tensor)
-            out["expansion_per_K"] = float(np.trace(t[:labels.ndim, :labels.ndim])
-                                           / labels.ndim)
+            out["expansion_per_K"] = solve.expansion(labels, materials, plane=plane,
+                                                     method=method, tol=tol,
+                                                     stiffness=stiff).mean()
         return out
 
     return evaluate
-
-
-def _voigt(ndim: int) -> int:
-    return 3 if ndim == 2 else 6
 
 
 def window_study(phasemap, properties=(), *, evaluate: Evaluate | None = None,
