@@ -106,13 +106,14 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
     timings["solve"] = time.perf_counter() - tick
     if effective is not None and schemes.get("bounds"):
         warnings.extend(bounds_warnings(effective.block, schemes["bounds"]))
+    shock = _shock(effective.block if effective else None, cfg, notes)
 
     src = Source(path=micro.path, sha256=micro.sha256, shape=tuple(phasemap.shape),
                  pixel_size_um=micro.pixel_size_um, pixel_size_from=micro.pixel_size_from,
                  cropped_bottom_px=micro.cropped_bottom_px)
     result = Result(source=src, phases=fractions, version=__version__,
                     particles={pp.name: pp.to_dict() for pp in measured} or None,
-                    effective=effective.block if effective else None,
+                    effective=effective.block if effective else None, shock=shock,
                     schemes=schemes.get("schemes"), bounds=schemes.get("bounds"),
                     schemes_3d=schemes.get("schemes_3d"), bounds_3d=schemes.get("bounds_3d"),
                     correlation={name: {"correlation_length": c.correlation_length,
@@ -143,6 +144,25 @@ def _effective(phasemap: PhaseMap, cfg: Config, say: Progress, warnings: list, n
                           plane=cfg.solve.plane, maps=cfg.solve.fields, progress=say)
     warnings.extend(eff.warnings)
     return eff
+
+
+def _shock(block: dict | None, cfg: Config, notes: list) -> dict | None:
+    """Hasselman's thermal-shock indices from the computed effective properties."""
+    from .shock import thermal_shock_indices
+
+    svc = cfg.service
+    if svc.strength_MPa is None:
+        return None
+    el = (block or {}).get("elasticity")
+    ex = (block or {}).get("expansion")
+    if not el or not ex:
+        notes.append("[service] strength given, but thermal-shock indices need the computed "
+                     "elasticity and expansion: add both to [solve] properties")
+        return None
+    k = ((block.get("conductivity") or {}).get("mean_W_mK"))
+    ind = thermal_shock_indices(el["youngs_modulus_GPa"], el["poisson_ratio"], ex["mean_per_K"],
+                                k, svc.strength_MPa, svc.fracture_energy_J_m2)
+    return {**ind.to_dict(), "model": block["model"]}
 
 
 ISOTROPIC_LOOKING = 0.05

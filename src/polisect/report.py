@@ -376,7 +376,22 @@ def _matrix(m, scale) -> str:
     return f'<table class="grid matrix"><tbody>{body}</tbody></table>'
 
 
-SECTIONS = [_caution, _warnings, _source, _images, _fractions, _effective, _schemes,
+def _shock(analysis, d, colors) -> str:
+    sh = d.get("shock")
+    if not sh:
+        return ""
+    from .shock import CAUTION as SHOCK_CAUTION
+
+    rows = [(f"{sym}: {sh['labels'].get(k, k)}", "–" if sh.get(k) is None
+             else f"{sh[k]:.4g} {unit}")
+            for k, sym, unit in (("R_K", "R", "K"), ("R_prime_W_m", "R′", "W/m"),
+                                 ("R_4prime_m", "R′′′′", "m"))]
+    return ("<section><h2>Thermal-shock indices (Hasselman, 1969)</h2>" + _table(rows)
+            + f'<p class="note">From the computed properties ({html.escape(sh["model"])}). '
+            f"{html.escape(SHOCK_CAUTION)}</p></section>")
+
+
+SECTIONS = [_caution, _warnings, _source, _images, _fractions, _effective, _schemes, _shock,
             _particles, _windows, _config, _raw_json]
 
 
