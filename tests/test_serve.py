@@ -291,24 +291,6 @@ def test_traversal_attempts_find_nothing(served, image):
     assert status == 400 and "no such upload" in body["error"]
 
 
-def test_download_kinds_are_a_fixed_list(served, image):
-    """Only the listed kinds can be downloaded; a name in the status file cannot point out."""
-    client, _ = served
-    _, facts = client.upload(image)
-    st = client.run(facts["id"], _three_phases())
-    assert st["state"] == "done", st
-    status, _, _ = client.request("GET", f"/api/runs/{st['id']}/files/status")
-    assert status == 404
-    folder = client.app.runs.folder(st["id"])
-    with open(os.path.join(folder, "status.json"), encoding="utf-8") as f:
-        forged = json.load(f)
-    forged["outputs"]["json"] = "../../../etc/passwd"
-    with open(os.path.join(folder, "status.json"), "w", encoding="utf-8") as f:
-        json.dump(forged, f)
-    status, _, _ = client.request("GET", f"/api/runs/{st['id']}/files/json")
-    assert status == 404
-
-
 def test_cross_site_and_foreign_host_refused(served):
     """POST without the page's header or from another origin: 403; another Host: 421."""
     client, _ = served
@@ -383,7 +365,8 @@ def test_labels_missing_from_config_fail_the_run_with_a_message(served, image):
 # -- runs ---------------------------------------------------------------------------------
 
 def test_run_writes_what_analyze_writes(served, image):
-    """The run's JSON equals `analyze` on the same image and config; every download works."""
+    """The run's JSON equals `analyze` on the same image and config; every download works,
+    and nothing but the listed kinds can be downloaded."""
     client, _ = served
     _, facts = client.upload(image)
     st = client.run(facts["id"], _three_phases())
@@ -406,6 +389,15 @@ def test_run_writes_what_analyze_writes(served, image):
         status, _, body = client.request("GET", f"/api/runs/{st['id']}/files/{kind}")
         assert status == 200 and body.startswith(magic), kind
     assert any(r["id"] == st["id"] for r in client.json("GET", "/api/runs")[1]["runs"])
+
+    # only the listed kinds can be downloaded; a name in the status file cannot point out
+    assert client.request("GET", f"/api/runs/{st['id']}/files/status")[0] == 404
+    with open(os.path.join(folder, "status.json"), encoding="utf-8") as f:
+        forged = json.load(f)
+    forged["outputs"]["json"] = "../../../etc/passwd"
+    with open(os.path.join(folder, "status.json"), "w", encoding="utf-8") as f:
+        json.dump(forged, f)
+    assert client.request("GET", f"/api/runs/{st['id']}/files/json")[0] == 404
 
 
 def test_concurrent_runs_each_get_their_own_folder(served, image):

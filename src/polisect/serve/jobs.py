@@ -30,7 +30,7 @@ from . import work
 
 RUN_ID = re.compile(r"\d{8}-\d{6}-[A-Za-z0-9_-]{1,64}-[0-9a-f]{4}")
 FINAL = ("done", "failed", "cancelled", "interrupted")
-_PRELOAD = ["numpy", "scipy.ndimage", "skimage.filters", "polisect.pipeline",
+_PRELOAD = ["numpy", "scipy.ndimage", "skimage.filters", "polisect.pipeline", "polisect.report",
             "polisect.serve.work"]
 
 

@@ -68,7 +68,8 @@ def inspect_upload(path: str, crop) -> dict:
     dict
         ``shape``, ``dtype``, ``bit_depth``, ``is_rgb``, ``n_pages``, ``pixel_size_um``,
         ``pixel_size_from``, ``cropped_bottom_px``, ``notes``, ``range`` [min, max],
-        ``histogram`` {``lo``, ``hi``, ``counts``}, ``suggested_classes`` (or ``None``
+        ``histogram`` {``lo``, ``hi``, ``counts``} (256 bins, or one per grey level for an
+        integer image with fewer levels), ``suggested_classes`` (or ``None``
         with ``suggest_note``), ``label_values`` (the distinct values when the image
         could be a label image, else ``None``), ``preview_shape``, ``preview_step``.
     """
@@ -76,7 +77,11 @@ def inspect_upload(path: str, crop) -> dict:
 
     micro, grey = _grey(path, crop)
     lo, hi = float(grey.min()), float(grey.max())
-    counts, _ = np.histogram(grey, bins=HIST_BINS, range=(lo, hi if hi > lo else lo + 1))
+    edges = (lo, hi if hi > lo else lo + 1)
+    bins = HIST_BINS
+    if np.issubdtype(grey.dtype, np.integer) and hi - lo < HIST_BINS:
+        bins, edges = int(hi - lo) + 1, (lo - 0.5, hi + 0.5)  # one bin per grey level
+    counts, _ = np.histogram(grey, bins=bins, range=edges)
     suggested, note = None, None
     if hi > lo:
         try:
@@ -96,7 +101,8 @@ def inspect_upload(path: str, crop) -> dict:
             "is_rgb": micro.is_rgb, "n_pages": micro.n_pages,
             "pixel_size_um": micro.pixel_size_um, "pixel_size_from": micro.pixel_size_from,
             "cropped_bottom_px": micro.cropped_bottom_px, "notes": list(micro.notes),
-            "range": [lo, hi], "histogram": {"lo": lo, "hi": hi, "counts": counts.tolist()},
+            "range": [lo, hi],
+            "histogram": {"lo": edges[0], "hi": edges[1], "counts": counts.tolist()},
             "suggested_classes": suggested, "suggest_note": note,
             "label_values": _label_values(grey, micro.is_rgb),
             "preview_shape": list(preview.shape), "preview_step": step}

@@ -235,6 +235,8 @@
   }
 
   function greyRange() { return [S.up.range[0], S.up.range[1] > S.up.range[0] ? S.up.range[1] : S.up.range[0] + 1]; }
+  /** The histogram's axis (for integer images the bins are centred on the integers). */
+  function histRange() { return [S.up.histogram.lo, S.up.histogram.hi]; }
 
   function drawThumb() {
     const c = $("thumb");
@@ -350,7 +352,7 @@
     drawOverlay();
   }, 250);
 
-  function histX(v, w) { const [lo, hi] = greyRange(); return (v - lo) / (hi - lo) * w; }
+  function histX(v, w) { const [lo, hi] = histRange(); return (v - lo) / (hi - lo) * w; }
 
   function classOf(v) {
     let k = 0;
@@ -368,7 +370,7 @@
     ctx.clearRect(0, 0, w, h);
     const counts = S.up.histogram.counts, n = counts.length;
     const top = Math.log1p(Math.max(...counts));
-    const [lo, hi] = greyRange();
+    const [lo, hi] = histRange();
     for (let i = 0; i < n; i++) {
       const centre = lo + (hi - lo) * (i + 0.5) / n;
       const bh = top > 0 ? (h - 18) * Math.log1p(counts[i]) / top : 0;
@@ -401,7 +403,7 @@
         inputs.append(el("span", { class: "th-field" }, pair, inp));
       });
     }
-    const [lo, hi] = greyRange();
+    const [lo, hi] = histRange();
     const w = $("hist-wrap").clientWidth;
     S.th.forEach((t, i) => {
       const hnd = box.children[i];
@@ -417,7 +419,7 @@
 
   function setThreshold(i, v, final) {
     if (!Number.isFinite(v)) { placeHandles(); return; }
-    const [lo, hi] = greyRange();
+    const [lo, hi] = histRange();
     const gap = (hi - lo) / 1e4;
     const min = i > 0 ? S.th[i - 1] + gap : lo;
     const max = i < S.th.length - 1 ? S.th[i + 1] - gap : hi;
@@ -429,7 +431,7 @@
   function wireHandle(hnd, i) {
     const valueAt = (clientX) => {
       const r = $("hist-wrap").getBoundingClientRect();
-      const [lo, hi] = greyRange();
+      const [lo, hi] = histRange();
       return lo + (hi - lo) * (clientX - r.left) / r.width;
     };
     hnd.addEventListener("pointerdown", (e) => {
@@ -449,7 +451,7 @@
     hnd.addEventListener("pointerup", end);
     hnd.addEventListener("pointercancel", end);
     hnd.addEventListener("keydown", (e) => {
-      const [lo, hi] = greyRange();
+      const [lo, hi] = histRange();
       const bin = (hi - lo) / S.up.histogram.counts.length;
       const steps = { ArrowLeft: -1, ArrowDown: -1, ArrowRight: 1, ArrowUp: 1, PageDown: -10, PageUp: 10 };
       if (e.key in steps) setThreshold(i, S.th[i] + steps[e.key] * bin * (e.shiftKey ? 10 : 1), true);
@@ -546,7 +548,7 @@
       "aria-expanded": "false", "aria-controls": listId, autocomplete: "off",
       "aria-label": `Material of class ${label}`, placeholder: "type to search the library",
       value: st.own ? "own values" : st.material });
-    const list = el("ul", { role: "listbox", id: listId, hidden: true });
+    const list = el("ul", { role: "listbox", id: listId, hidden: true, tabindex: -1 });
     const props = el("div", { class: "matprops" });
     const own = el("div", { class: "own-values", hidden: !st.own });
     for (const [key, sym, unit, scale] of OWN) {
@@ -563,9 +565,14 @@
     const showProps = () => {
       const m = lib.find((x) => x.key === st.material);
       props.textContent = st.own ? "" : m ? describe(m)
-        : st.material ? "not in the library: the run will say what is close" : "";
+        : st.material && list.hidden ? "not in the library: the run will say what is close" : "";
     };
-    const close = () => { list.hidden = true; input.setAttribute("aria-expanded", "false"); input.removeAttribute("aria-activedescendant"); };
+    const close = () => {
+      list.hidden = true;
+      input.setAttribute("aria-expanded", "false");
+      input.removeAttribute("aria-activedescendant");
+      showProps();
+    };
     const choose = (opt) => {
       if (opt.own) {
         st.own = true; st.material = ""; input.value = "own values";
@@ -723,7 +730,12 @@
       return;
     }
     if (!first || st.state !== "done" || $("result").hidden) refreshRuns();
-    if (st.state === "done") await showResult(id, st);
+    if (st.state === "done") {
+      const box = $("step-result").getBoundingClientRect();
+      const watching = box.top < window.innerHeight && box.bottom > 0;
+      await showResult(id, st);
+      if (!first && watching) $("step-result").scrollIntoView({ behavior: "smooth", block: "start" });
+    }
     else if (st.error) show($("result-msg"), st.error);
     else if (st.state === "cancelled") show($("result-msg"), "Cancelled. The run folder keeps what was written so far.", "info");
     else if (st.state === "interrupted") show($("result-msg"), "The server stopped during this run; run it again.", "info");
@@ -761,7 +773,8 @@
         el("td", { class: "ci", text: `${fixed(p.fraction_ci95[0])} – ${fixed(p.fraction_ci95[1])}` }));
     });
     $("fractions").replaceChildren(head, el("tbody", {}, ...rows));
-    $("effective").replaceChildren(effectiveTable(d.effective));
+    $("effective").replaceChildren(effectiveTable(d.effective, d.bounds));
+    $("particles").replaceChildren(...[particlesTable(d.particles)].filter(Boolean));
     $("warnings").replaceChildren(...(d.warnings || []).map((w) => el("li", { text: w })));
     $("repeat").textContent = `polisect analyze ${st.image} --config config.toml`;
     $("report").src = `${base}/report?inline=1`;
@@ -775,24 +788,53 @@
     return m ? m.key : src;
   }
 
-  function effectiveTable(eff) {
+  function solverText(facts) {
+    if (!facts) return "";
+    const ok = facts.converged === false ? " · NOT converged" : "";
+    return `${facts.method || ""}${facts.iterations !== undefined ? ` · ${facts.iterations} it.` : ""}${ok}`;
+  }
+
+  function effectiveTable(eff, bounds) {
     if (!eff) {
       return el("p", { class: "hint", text: "No effective properties in this result: none was asked for, "
-        + "or this polisect version computes phase fractions only." });
+        + "or the phases have no materials." });
     }
     const rows = [];
-    if (eff.conductivity) rows.push(["Conductivity", fmt(eff.conductivity.mean_W_mK), "W/(m·K)", "conductivity"]);
-    if (eff.elasticity) {
-      const e = eff.elasticity;
-      rows.push(["Young's modulus", fmt(e.youngs_modulus_GPa), "GPa", "youngs_modulus"],
-        ["Poisson's ratio", fmt(e.poisson_ratio, 3), "–", "poisson_ratio"],
-        ["Bulk modulus", fmt(e.bulk_modulus_GPa), "GPa", "bulk_modulus"],
-        ["Shear modulus", fmt(e.shear_modulus_GPa), "GPa", "shear_modulus"]);
+    if (eff.conductivity) {
+      const b = (bounds || {}).conductivity_W_mK;
+      rows.push(["Conductivity", fmt(eff.conductivity.mean_W_mK), "W/(m·K)", "conductivity",
+        solverText(eff.conductivity.solver),
+        b && b.lower !== null && b.upper !== null ? `HS bounds ${fmt(b.lower)} – ${fmt(b.upper)}` : ""]);
     }
-    if (eff.expansion) rows.push(["Thermal expansion", fmt(eff.expansion.mean_per_K * 1e6), "10⁻⁶/K", "expansion"]);
-    const table = el("table", { class: "grid" }, el("tbody", {}, ...rows.map(([n, v, u, key]) =>
-      el("tr", { "data-key": key }, el("td", { text: n }), el("td", { class: "value", text: v }), el("td", { text: u })))));
-    return el("div", {}, table, eff.model ? el("p", { class: "hint", text: eff.model }) : null);
+    if (eff.elasticity) {
+      const e = eff.elasticity, how = solverText(e.solver);
+      rows.push(["Young's modulus", fmt(e.youngs_modulus_GPa), "GPa", "youngs_modulus", how, ""],
+        ["Poisson's ratio", fmt(e.poisson_ratio, 3), "–", "poisson_ratio", "", ""],
+        ["Bulk modulus", fmt(e.bulk_modulus_GPa), "GPa", "bulk_modulus", "", ""],
+        ["Shear modulus", fmt(e.shear_modulus_GPa), "GPa", "shear_modulus", "", ""]);
+    }
+    if (eff.expansion) {
+      rows.push(["Thermal expansion", fmt(eff.expansion.mean_per_K * 1e6), "10⁻⁶/K", "expansion",
+        solverText(eff.expansion.solver), ""]);
+    }
+    const table = el("table", { class: "grid" }, el("tbody", {}, ...rows.map(([n, v, u, key, how, b]) =>
+      el("tr", { "data-key": key }, el("td", { text: n }), el("td", { class: "value", text: v }),
+        el("td", { class: "unit", text: u }), el("td", { class: "how", text: [how, b].filter(Boolean).join(" · ") })))));
+    return el("div", {}, table, eff.model ? el("p", { class: "hint", text: `Model: ${eff.model}.` }) : null);
+  }
+
+  function particlesTable(particles, units) {
+    const entries = Object.entries(particles || {});
+    if (!entries.length) return null;
+    const head = el("thead", {}, el("tr", {}, ...["Particles of", "Count", "ECD d50", "per mm²"]
+      .map((h) => el("th", { scope: "col", text: h }))));
+    const body = el("tbody", {}, ...entries.map(([name, p]) => {
+      const unit = p.units === "um" ? " µm" : " px";
+      return el("tr", { "data-phase": name }, el("td", { text: name }), el("td", { text: String(p.count) }),
+        el("td", { text: p.ecd_um && p.ecd_um.d50 !== undefined ? `${fmt(p.ecd_um.d50, 3)}${unit}` : "–" }),
+        el("td", { text: p.count_per_mm2 ? fmt(p.count_per_mm2, 3) : "–" }));
+    }));
+    return el("div", {}, el("h3", { text: "Particles" }), el("table", { class: "grid" }, head, body));
   }
 
   // ---------------------------------------------------------------- runs list
