@@ -19,9 +19,11 @@ Examples
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 import numbers
 import os
+import re
 from dataclasses import dataclass
 
 import numpy as np
@@ -29,7 +31,8 @@ import numpy as np
 from .atomic import atomic_write
 from .errors import InputError
 
-__all__ = ["Micrograph", "read_image", "to_grayscale", "find_info_band", "write_tiff"]
+__all__ = ["Micrograph", "read_image", "read_stack", "check_slice_spacing", "to_grayscale",
+           "find_info_band", "write_tiff"]
 
 #: Smallest image side accepted, pixels.
 MIN_SIDE_PX = 2
@@ -167,6 +170,143 @@ def read_image(path: str | os.PathLike, *, crop_bottom_px: int | str = 0,
                       pixel_size_from=source, cropped_bottom_px=cropped, dtype=str(stored),
                       bit_depth=stored.itemsize * 8, is_rgb=is_rgb, n_pages=n_pages,
                       notes=tuple(notes))
+
+
+#: File name endings of slice images in a stack folder; other files there are ignored.
+SLICE_SUFFIXES = (".tif", ".tiff", ".png", ".bmp", ".jpg", ".jpeg")
+#: Largest relative difference between slice spacing and pixel size for cubic voxels.
+CUBIC_TOLERANCE = 0.01
+
+
+def read_stack(folder: str | os.PathLike, *, crop_bottom_px: int | str = 0,
+               pixel_size_um: float | None = None, pixel_size_from: str = "config",
+               slice_spacing_um: float | None = None) -> Micrograph:
+    """Read a folder of slice images as one (nz, ny, nx) volume.
+
+    The slices are the files whose names end in .tif, .tiff, .png, .bmp, .jpg or .jpeg,
+    in natural order of their names (``slice_2`` before ``slice_10``); each is read with
+    `read_image` (so its type is found from its content) and must hold one image. Other
+    files in the folder are ignored, with a note.
+
+    Parameters
+    ----------
+    folder : str or path-like
+        The folder of slices.
+    crop_bottom_px, pixel_size_um, pixel_size_from
+        As for `read_image`, applied to every slice.
+    slice_spacing_um : float, optional
+        Distance between slices; checked against the pixel size with
+        `check_slice_spacing` (the solvers need cubic voxels).
+
+    Returns
+    -------
+    Micrograph
+        ``path`` is the folder, ``sha256`` the SHA-256 of the slices' SHA-256 digests in
+        order, ``n_pages`` the number of slices.
+
+    Raises
+    ------
+    InputError
+        Not a folder; fewer than two slices; a slice unreadable, holding several pages, or
+        differing from the first in shape, colour, bit depth or pixel size; non-cubic
+        voxels.
+
+    Examples
+    --------
+    >>> import os, tempfile
+    >>> folder = tempfile.mkdtemp()
+    >>> for k in range(3):
+    ...     write_tiff(os.path.join(folder, f"z{k}.tif"), np.full((8, 8), k, np.uint8),
+    ...                pixel_size_um=2.0)
+    >>> m = read_stack(folder)
+    >>> m.shape, m.pixel_size_um, m.n_pages
+    ((3, 8, 8), 2.0, 3)
+    """
+    folder = os.fspath(folder)
+    if not os.path.isdir(folder):
+        raise InputError(f"{folder}: not a folder; --stack reads a folder of slice images "
+                         "(give a multi-page TIFF without --stack)")
+    names = sorted((n for n in os.listdir(folder) if not n.startswith(".")
+                    and os.path.isfile(os.path.join(folder, n))), key=_natural)
+    slices = [n for n in names if n.lower().endswith(SLICE_SUFFIXES)]
+    ignored = [n for n in names if n not in slices]
+    if len(slices) < 2:
+        raise InputError(f"{folder}: holds {len(slices)} slice image(s); a stack needs at least "
+                         f"two (files ending in {', '.join(SLICE_SUFFIXES)})")
+    parts = [read_image(os.path.join(folder, n), crop_bottom_px=crop_bottom_px,
+                        pixel_size_um=pixel_size_um, pixel_size_from=pixel_size_from)
+             for n in slices]
+    first = parts[0]
+    for name, m in zip(slices, parts):
+        if m.n_pages > 1:
+            raise InputError(f"{os.path.join(folder, name)}: holds {m.n_pages} pages; every "
+                             "file of a stack folder must hold one slice")
+        if (m.data.shape, m.dtype, m.is_rgb) != (first.data.shape, first.dtype, first.is_rgb):
+            raise InputError(f"{os.path.join(folder, name)}: {m.shape} {m.dtype}"
+                             f"{' RGB' if m.is_rgb else ''} differs from the first slice "
+                             f"({first.shape} {first.dtype}{' RGB' if first.is_rgb else ''}); "
+                             "all slices must have the same size and pixel type")
+        if m.pixel_size_um != first.pixel_size_um:
+            raise InputError(f"{os.path.join(folder, name)}: pixel size {m.pixel_size_um} µm "
+                             f"differs from the first slice's {first.pixel_size_um} µm; give "
+                             "--pixel-size if the tags are wrong")
+    notes = [f"{len(slices)} slices read from {folder} in name order"]
+    notes += [n for n in first.notes if not n.startswith("pixel size unknown")]
+    if ignored:
+        notes.append(f"ignored {len(ignored)} file(s) that are not slice images: "
+                     + ", ".join(ignored[:5]) + (" …" if len(ignored) > 5 else ""))
+    digest = hashlib.sha256("".join(m.sha256 for m in parts).encode()).hexdigest()
+    stack = Micrograph(data=np.stack([m.data for m in parts]), path=folder, sha256=digest,
+                       pixel_size_um=first.pixel_size_um,
+                       pixel_size_from=first.pixel_size_from,
+                       cropped_bottom_px=first.cropped_bottom_px, dtype=first.dtype,
+                       bit_depth=first.bit_depth, is_rgb=first.is_rgb, n_pages=len(slices),
+                       notes=tuple(notes))
+    return check_slice_spacing(stack, slice_spacing_um)
+
+
+def check_slice_spacing(micrograph: Micrograph, slice_spacing_um: float | None) -> Micrograph:
+    """Check that a volume's voxels are cubic: slice spacing equal to the pixel size.
+
+    Parameters
+    ----------
+    micrograph : Micrograph
+        A volume.
+    slice_spacing_um : float or None
+        Distance between slices, µm (``None``: taken equal to the pixel size).
+
+    Returns
+    -------
+    Micrograph
+        The same volume, with a note on the voxel size.
+
+    Raises
+    ------
+    InputError
+        When the spacing is not positive or differs from the pixel size by more than 1 %.
+    """
+    if slice_spacing_um is None:
+        note = "cubic voxels assumed (slice spacing equal to the pixel size)"
+    else:
+        if isinstance(slice_spacing_um, bool) or not isinstance(slice_spacing_um, numbers.Real) \
+                or not slice_spacing_um > 0:
+            raise InputError(f"slice spacing {slice_spacing_um!r} µm must be a positive number")
+        size = micrograph.pixel_size_um
+        if size is None:
+            note = (f"slice spacing {slice_spacing_um:g} µm given but the pixel size is unknown; "
+                    "cubic voxels assumed")
+        elif abs(slice_spacing_um - size) > CUBIC_TOLERANCE * size:
+            raise InputError(f"{micrograph.path or 'volume'}: slices are {slice_spacing_um:g} µm "
+                             f"apart but pixels are {size:g} µm wide; the 3D analysis needs "
+                             "cubic voxels — resample the stack to equal spacing in x, y and z")
+        else:
+            note = f"voxels {size:g} µm, slice spacing {slice_spacing_um:g} µm (cubic)"
+    return dataclasses.replace(micrograph, notes=micrograph.notes + (note,))
+
+
+def _natural(name: str):
+    """Sort key that orders embedded numbers by value (slice_2 before slice_10)."""
+    return [int(t) if t.isdigit() else t.lower() for t in re.split(r"(\d+)", name)]
 
 
 def _check_file(path: str) -> str:
