@@ -158,10 +158,19 @@ def _run_demo(args) -> int:
         cfg = load_config(section.config)
         analysis = analyze(section.image, cfg, progress=progress)
         paths = write_outputs(analysis, os.path.join(args.out, section.group), config=cfg)
-        written.append((section.title, paths.report))
-    print("Demo reports (fictional Kestrel Foundry Supply sections):")
-    for title, path in written:
-        print(f"  {title:<48} {os.path.abspath(path)}")
+        written.append((section.title, analysis.result.headline(), paths.report))
+    print("Demo: sections of the fictional Kestrel Foundry Supply's two product lines")
+    print("(2D sections solved as prismatic structures, generalized plane strain)\n")
+    for title, row, report in written:
+        fractions = ", ".join(f"{k[len('fraction_'):]} {v:.3f}" for k, v in row.items()
+                              if k.startswith("fraction_") and not k.endswith(("_low", "_high")))
+        print(f"  {title}")
+        print(f"    fractions: {fractions}")
+        print(f"    k = {row.get('conductivity_W_mK', float('nan')):.4g} W/(m·K),  "
+              f"E = {row.get('youngs_modulus_GPa', float('nan')):.4g} GPa,  "
+              f"alpha = {row.get('expansion_per_K', float('nan')) * 1e6:.4g} ×10⁻⁶/K")
+        print(f"    report: {os.path.abspath(report)}")
+    print("\nEstimates for screening and comparison, not design values; verify by measurement.")
     return EXIT_OK
 
 
