@@ -561,3 +561,41 @@ def test_upload_store_forgets_the_oldest(tmp_path, image):
         store.get(held[0])
     assert store.get(held[2]).size == size
     assert sorted(os.listdir(store.root)) == sorted(held[1:])
+
+
+@pytest.mark.parametrize("body, expect", [
+    ({"classes": 40, "denoise": "median", "denoise_px": 1}, "choose 2 to 8 classes"),
+    ({"classes": 3, "denoise": "median", "denoise_px": 1e6}, "give 1 to 25 pixels"),
+    ({"classes": 3, "denoise": "blur", "denoise_px": 1}, "denoise = 'blur' is not known"),
+])
+def test_preview_settings_are_bounded(served, image, body, expect):
+    """The preview endpoints refuse settings the page never sends (no runaway work)."""
+    client, _ = served
+    _, facts = client.upload(image)
+    status, answer = client.json("POST", f"/api/uploads/{facts['id']}/thresholds", body)
+    assert status == 400 and expect in answer["error"]
+    status, answer = client.json("POST", f"/api/uploads/{facts['id']}/labels",
+                                 {"thresholds": list(range(1, 300)), "denoise": "none",
+                                  "denoise_px": 1, "min_feature_px": 0})
+    assert status == 400 and "choose 2 to 8 classes" in answer["error"]
+
+
+def test_preview_of_a_small_image_is_the_segmentation(served, image):
+    """An image smaller than the preview is not subsampled: the preview labels with the
+    automatic thresholds are exactly `segment_grayscale` of the image, pixel for pixel."""
+    from polisect.image import read_image
+    from polisect.segment import segment_grayscale
+
+    client, _ = served
+    _, facts = client.upload(image)
+    assert facts["preview_step"] == 1
+    _, th = client.json("POST", f"/api/uploads/{facts['id']}/thresholds",
+                        {"crop": 0, "classes": 3, "denoise": "median", "denoise_px": 1})
+    status, _, raw = client.request("POST", f"/api/uploads/{facts['id']}/labels",
+                                    {"thresholds": th["thresholds"], "denoise": "median",
+                                     "denoise_px": 1, "min_feature_px": 4})
+    assert status == 200
+    direct = segment_grayscale(read_image(image).data, classes=3, denoise="median",
+                               denoise_px=1, min_feature_px=4)
+    assert list(direct.thresholds) == th["thresholds"]
+    np.testing.assert_array_equal(np.frombuffer(raw, np.uint8).reshape(192, 192), direct.labels)

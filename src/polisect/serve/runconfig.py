@@ -24,6 +24,7 @@ import tomli_w
 from ..config import DENOISERS, PLANES, SOLVE_PROPERTIES, config_from_dict, tomllib
 from ..errors import InputError
 from ..materials import PROPERTIES, library
+from .work import MAX_CLASSES
 
 
 def page_options() -> dict:
@@ -32,7 +33,7 @@ def page_options() -> dict:
                   **{p: getattr(m, p) for p in PROPERTIES if _is_number(getattr(m, p))}}
                  for key, m in library().items()]
     return {"materials": materials, "properties": list(SOLVE_PROPERTIES), "planes": list(PLANES),
-            "denoisers": list(DENOISERS), "max_classes": 8,
+            "denoisers": list(DENOISERS), "max_classes": MAX_CLASSES,
             "estimate_3d": importlib.util.find_spec("polisect.reconstruct") is not None}
 
 

@@ -30,6 +30,10 @@ PREVIEW_SIDE = 640
 HIST_BINS = 256
 #: An integer image with at most this many distinct values may be a label image.
 MAX_LABELS = 8
+#: Most classes the page offers (as `polisect.config` allows).
+MAX_CLASSES = 8
+#: Largest smoothing radius for the page's previews, pixels.
+MAX_SMOOTH_PX = 25
 _LOG_LINES = 400
 
 
@@ -117,10 +121,21 @@ def _label_values(grey: np.ndarray, is_rgb: bool) -> list[int] | None:
     return present.tolist() if len(present) <= MAX_LABELS else None
 
 
+def _check_page_settings(classes, denoise_px) -> None:
+    """The page offers 2 to `MAX_CLASSES` classes and smoothing radii up to `MAX_SMOOTH_PX`."""
+    if isinstance(classes, bool) or not isinstance(classes, int) \
+            or not 2 <= classes <= MAX_CLASSES:
+        raise InputError(f"classes = {classes!r}: choose 2 to {MAX_CLASSES} classes")
+    if isinstance(denoise_px, bool) or not isinstance(denoise_px, (int, float)) \
+            or not 1 <= denoise_px <= MAX_SMOOTH_PX:
+        raise InputError(f"smoothing radius {denoise_px!r} px: give 1 to {MAX_SMOOTH_PX} pixels")
+
+
 def auto_thresholds(path: str, crop, classes, denoise, denoise_px) -> list[float]:
     """The multi-Otsu thresholds a run with these settings finds on the full image."""
     from ..segment import segment_grayscale
 
+    _check_page_settings(classes, denoise_px)
     _, grey = _grey(path, crop)
     seg = segment_grayscale(grey, method="multi-otsu", classes=classes, denoise=denoise,
                             denoise_px=denoise_px)
@@ -140,6 +155,9 @@ def preview_labels(path: str, thresholds, denoise, denoise_px, min_feature_px) -
         meta = json.load(f)
     grey = np.fromfile(os.path.join(os.path.dirname(path), PREVIEW), dtype="<f4")
     grey = grey.reshape(meta["shape"])
+    if not isinstance(thresholds, list):
+        raise InputError("thresholds must be a list of grey levels")
+    _check_page_settings(len(thresholds) + 1, denoise_px)
     if not isinstance(min_feature_px, int) or isinstance(min_feature_px, bool) \
             or min_feature_px < 0:
         raise InputError(f"smallest feature {min_feature_px!r}: give a whole number of "

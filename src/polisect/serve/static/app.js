@@ -84,7 +84,8 @@
     }
     $("est3d").disabled = !S.info.estimate_3d;
     $("est3d-note").textContent = S.info.estimate_3d
-      ? "A statistically equivalent volume built from this section's statistics."
+      ? "Sets [solve] estimate_3d: statistically equivalent volumes built from this section, "
+        + "solved in 3D (slow). The report shows the estimate when the pipeline computes it."
       : "Not available in this version of polisect.";
     wireImageStep();
     wireMapStep();
