@@ -10,7 +10,9 @@ Singular parts are removed before the AMG hierarchy is built:
 * every node-connected solid cluster (`topology.periodic_clusters`) is pinned: one node
   for conduction (the constant); for elasticity the translations at one node, and the
   periodic rotations (all of them for an island, the one about the axis of a cluster that
-  wraps in one direction in 3D) at neighbouring nodes of the same pixel.
+  wraps in one direction in 3D) at neighbouring nodes of the same pixel. A pinned dof
+  keeps its place with an identity row and column, so the matrix keeps its node blocks
+  (block smoothed aggregation, BSR) and the solution is zero there.
 
 The dropped equations are implied by the others because the load is in the range of the
 operator, so the reduced solution solves the full system. Parts hinged to a cluster at a
@@ -154,14 +156,18 @@ class AMGSolver:
         self.K, self.B_mean = element_matrices(cell.L)
         A = assemble(cell.labels, self.K)
         solid = cell.solid
-        keep = np.repeat(grid.active_nodes(solid).ravel(), nc)
-        keep[pinned_dofs(solid, nc)] = False
-        self.kept = np.flatnonzero(keep)
-        self.A = A[self.kept][:, self.kept].tocsr()
+        self.kept = np.flatnonzero(np.repeat(grid.active_nodes(solid).ravel(), nc))
+        free = np.ones(self.kept.size)
+        free[np.searchsorted(self.kept, pinned_dofs(solid, nc))] = 0.0
+        self.free = free
+        A = A[self.kept][:, self.kept]
+        A = sp.diags(free) @ A @ sp.diags(free) + sp.diags(1.0 - free)
+        self.A = A.tobsr(blocksize=(nc, nc)) if nc > 1 else A.tocsr()
         near_null = np.zeros((self.kept.size, nc))
-        near_null[np.arange(self.kept.size), self.kept % nc] = 1.0
-        self.hierarchy = pyamg.smoothed_aggregation_solver(self.A, B=near_null,
-                                                           symmetry="symmetric")
+        near_null[np.arange(self.kept.size), self.kept % nc] = free
+        self.hierarchy = pyamg.smoothed_aggregation_solver(
+            self.A, B=near_null, symmetry="symmetric",
+            smooth=("jacobi", {"weighting": "local"}))
         self._M = self.hierarchy.aspreconditioner(cycle="V")
 
     def apply(self, x: np.ndarray, out: np.ndarray) -> None:
@@ -185,7 +191,7 @@ class AMGSolver:
     def solve(self, load: Load, fields: bool = False) -> Solution:
         """Solve one load case."""
         cell = self.cell
-        b = self.load_vector(load)[self.kept]
+        b = self.load_vector(load)[self.kept] * self.free
         x, info = pcg(self.apply, self.precondition, b, self.tol, self.maxiter)
         u = np.zeros(cell.labels.size * cell.ncomp)
         u[self.kept] = x
