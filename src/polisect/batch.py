@@ -13,8 +13,10 @@ process pool (or on a Dask distributed cluster) and writes, in the output folder
 A corrupt or unreadable image is recorded as failed and the batch goes on. Killed at any
 moment and run again with ``resume=True``, the batch redoes nothing that is done: an image
 is skipped when the manifest says done, its content hash and the configuration hash are
-unchanged and its outputs exist. A changed image or configuration is redone. Failed
-images are tried again. To spare reading every image again, the stored content hash is
+unchanged and its outputs exist. A changed image or configuration is redone. An image
+that failed on bad input (a corrupt file, a label without a phase) stays failed until it or
+the configuration changes; one whose worker died or hit an internal error is tried again.
+To spare reading every image again, the stored content hash is
 reused while the file's size and modification time are unchanged (as version-control
 tools do); any change to either makes the image be hashed again.
 
@@ -198,6 +200,7 @@ def analyze_one(task: Task, settings: Settings) -> dict:
     -------
     dict
         ``status`` (``"done"`` / ``"failed"``), ``reason`` (one line, empty when done),
+        ``retry`` (False when the input itself is bad: trying again cannot help),
         ``outputs`` (file paths), ``seconds``.
     """
     from .pipeline import analyze, write_outputs
@@ -213,15 +216,16 @@ def analyze_one(task: Task, settings: Settings) -> dict:
                                         target_error=settings.windows.target_error)
         paths = write_outputs(analysis, task.out_dir, stem=task.stem, config=settings.config)
         outputs = {k: v for k, v in dataclasses.asdict(paths).items() if v}
-        return {"status": "done", "reason": "", "outputs": outputs,
+        return {"status": "done", "reason": "", "retry": False, "outputs": outputs,
                 "seconds": time.perf_counter() - t0}
     except InputError as exc:
-        reason = str(exc)
+        return {"status": "failed", "reason": one_line(str(exc)), "retry": False,
+                "outputs": {}, "seconds": time.perf_counter() - t0}
     except MemoryError:
         reason = "out of memory while analysing this image; run it alone or with fewer --jobs"
     except Exception as exc:  # noqa: BLE001 - a bad image must not stop the batch
         reason = f"internal error {type(exc).__name__}: {exc}"
-    return {"status": "failed", "reason": one_line(reason), "outputs": {},
+    return {"status": "failed", "reason": one_line(reason), "retry": True, "outputs": {},
             "seconds": time.perf_counter() - t0}
 
 
@@ -353,7 +357,7 @@ class ProgressBar:
         bar = "█" * filled + "░" * (width - filled)
         parts = [f"[{bar}] {self.skipped + finished}/{self.total}"]
         if self.skipped:
-            parts.append(f"{self.skipped} already done")
+            parts.append(f"{self.skipped} from before")
         parts.append(f"{self.failed} failed")
         if finished:
             rate = finished / elapsed
@@ -391,6 +395,10 @@ def _worker_init(threads: int) -> None:
     for var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS",
                 "NUMBA_NUM_THREADS", "POLISECT_THREADS"):
         os.environ[var] = str(threads)
+    if "numba" in sys.modules:
+        import numba
+
+        numba.set_num_threads(min(threads, numba.config.NUMBA_NUM_THREADS))
 
 
 def _local_results(tasks: list[Task], settings: Settings, jobs: int, work=analyze_one
@@ -445,15 +453,23 @@ def _local_results(tasks: list[Task], settings: Settings, jobs: int, work=analyz
 
 
 def _pool(jobs: int, threads: int):
+    """A process pool. Where the platform has it, workers fork from a server process that
+    imported the pipeline once (``forkserver``): later pools and restarted workers start
+    warm. Elsewhere they are spawned afresh."""
     import multiprocessing
     from concurrent.futures import ProcessPoolExecutor
 
-    return ProcessPoolExecutor(max_workers=jobs, mp_context=multiprocessing.get_context("spawn"),
-                               initializer=_worker_init, initargs=(threads,))
+    if "forkserver" in multiprocessing.get_all_start_methods():
+        ctx = multiprocessing.get_context("forkserver")
+        ctx.set_forkserver_preload(["polisect.pipeline", "polisect.report", "polisect.rve"])
+    else:
+        ctx = multiprocessing.get_context("spawn")
+    return ProcessPoolExecutor(max_workers=jobs, mp_context=ctx, initializer=_worker_init,
+                               initargs=(threads,))
 
 
 def _died(task: Task) -> dict:
-    return {"status": "failed", "outputs": {}, "seconds": 0.0,
+    return {"status": "failed", "outputs": {}, "seconds": 0.0, "retry": True,
             "reason": "the worker process died while analysing this image (out of memory or "
                       "a crash in a library); run it alone with polisect analyze"}
 
@@ -488,7 +504,7 @@ def _dask_results(tasks: list[Task], settings: Settings, address
             try:
                 yield task, fut.result()
             except Exception as exc:  # noqa: BLE001 - a killed worker fails its image only
-                yield task, {"status": "failed", "outputs": {}, "seconds": 0.0,
+                yield task, {"status": "failed", "outputs": {}, "seconds": 0.0, "retry": True,
                              "reason": one_line(f"the Dask worker failed on this image: "
                                                 f"{type(exc).__name__}: {exc}")}
     finally:
@@ -507,7 +523,8 @@ class BatchResult:
     out : str
         Output folder.
     total, done, failed, skipped : int
-        Images found; done now or before; failed; skipped as already done (resume).
+        Images found; done (now or before); failed; not analysed again because a previous
+        run finished them (resume: done, or failed on bad input).
     seconds : float
         Wall time of the run.
     analysis_seconds : float
@@ -597,9 +614,9 @@ def run_batch(folder: str | os.PathLike, out: str | os.PathLike, *, config=None,
                          and prev.get("mtime_ns") == st.st_mtime_ns)
             sha = prev["sha256"] if same_stat else file_sha256(path)
             group = grouping.group(path, folder)
-            if prev and prev.get("status") == "done" and prev.get("sha256") == sha \
-                    and prev.get("config_sha256") == config_sha \
-                    and _outputs_exist(out, prev.get("outputs", {})):
+            if prev and prev.get("sha256") == sha and prev.get("config_sha256") == config_sha \
+                    and (prev.get("status") == "done" and _outputs_exist(out, prev["outputs"])
+                         or prev.get("status") == "failed" and prev.get("retry") is False):
                 entries[rel] = {**prev, "group": group}
                 skipped += 1
                 continue
@@ -625,7 +642,7 @@ def run_batch(folder: str | os.PathLike, out: str | os.PathLike, *, config=None,
         try:
             for task, rec in results:
                 entry = entries[task.rel]
-                entry.update(status=rec["status"], reason=rec["reason"],
+                entry.update(status=rec["status"], reason=rec["reason"], retry=rec["retry"],
                              seconds=rec["seconds"], finished=_now(),
                              outputs={k: os.path.relpath(v, out).replace(os.sep, "/")
                                       for k, v in rec["outputs"].items()})

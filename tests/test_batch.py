@@ -1,0 +1,284 @@
+"""Tests of polisect.batch: discovery, grouping, bad files, manifest, resume after a kill,
+the Dask path, a crashing worker, the progress bar and the lock."""
+
+import csv
+import io
+import json
+import os
+import shutil
+import signal
+import subprocess
+import sys
+import time
+
+import numpy as np
+import pytest
+import tifffile
+
+from polisect.batch import (MANIFEST, Grouping, ProgressBar, Settings, Task, _local_results,
+                            discover, read_manifest, run_batch)
+from polisect.cli import main
+from polisect.config import load_config
+from polisect.errors import InputError
+from polisect.synth import rsa_discs
+
+CONFIG = ('[image]\nkind = "labels"\n[solve]\nproperties = ["conductivity"]\nfields = false\n'
+          '[[phase]]\nlabel = 0\nname = "matrix"\nconductivity = 1.0\n'
+          '[[phase]]\nlabel = 1\nname = "grain"\nconductivity = 10.0\n')
+GOOD = [f"{lot}/s{i}.tif" for lot in ("A", "B") for i in range(2)]
+
+
+def _make_folder(root):
+    """Four 64² label images in two folders, a truncated TIFF, a text file named .tif, a PNG
+    the pattern skips and a hidden file."""
+    for i, rel in enumerate(GOOD):
+        path = root / rel
+        path.parent.mkdir(parents=True, exist_ok=True)
+        fraction = 0.25 if rel.startswith("A") else 0.35
+        lab = rsa_discs((64, 64), fraction, 3.0, seed=i).labels.astype(np.uint8)
+        tifffile.imwrite(path, lab)
+    data = (root / "A" / "s0.tif").read_bytes()
+    (root / "A" / "cut.tif").write_bytes(data[: len(data) // 2])
+    (root / "B" / "readme.tif").write_text("notes on batch B, not an image\n")
+    (root / "B" / "other.png").write_bytes(b"")
+    (root / "A" / ".hidden.tif").write_bytes(data)
+    cfg = root.parent / f"{root.name}.toml"
+    cfg.write_text(CONFIG)
+    return cfg
+
+
+@pytest.fixture(scope="module")
+def folder(tmp_path_factory):
+    root = tmp_path_factory.mktemp("batch") / "images"
+    cfg = _make_folder(root)
+    return root, cfg
+
+
+@pytest.fixture(scope="module")
+def reference(folder, tmp_path_factory):
+    """An uninterrupted run with the local process pool (2 jobs)."""
+    root, cfg = folder
+    out = tmp_path_factory.mktemp("ref") / "out"
+    result = run_batch(root, out, config=load_config(cfg), jobs=2, quiet=True)
+    return result, (out / "summary.csv").read_text()
+
+
+def test_discovery_is_recursive_sorted_and_filtered(folder, tmp_path):
+    """Recursive, case-insensitive patterns; hidden files and the output folder skipped."""
+    root, _ = folder
+    assert discover(root, "*.tif") == ["A/cut.tif", "A/s0.tif", "A/s1.tif", "B/readme.tif",
+                                       "B/s0.tif", "B/s1.tif"]
+    assert discover(root, "*.PNG, s0.*") == ["A/s0.tif", "B/other.png", "B/s0.tif"]
+    assert "A/s0.tif" not in discover(root, "*.tif", exclude=[root / "A"])
+    with pytest.raises(InputError, match="not a folder"):
+        discover(tmp_path / "nothing")
+
+
+def test_grouping_by_folder_and_regex():
+    """Folder grouping uses the path below the batch folder; a regex needs (?P<batch>...)."""
+    g = Grouping.parse(None)
+    assert g.group("/d/in/A/s1.tif", "/d/in") == "A"
+    assert g.group("/d/in/A/x/s1.tif", "/d/in") == "A/x"
+    assert g.group("/d/in/s1.tif", "/d/in") == "in"
+    r = Grouping.parse(r"(?P<batch>K\d+)-")
+    assert r.group("/d/K12-s3.tif") == "K12" and r.group("/d/other.tif") == "(unmatched)"
+    with pytest.raises(InputError, match="batch"):
+        Grouping.parse(r"K\d+")
+    with pytest.raises(InputError, match="regular expression"):
+        Grouping.parse("(")
+
+
+def test_bad_files_fail_and_the_rest_complete(reference):
+    """A truncated TIFF and a text file named .tif end in failures.csv with a one-line reason;
+    every good image has a row in summary.csv, its outputs and a manifest entry; no temporary
+    file is left (atomic writes)."""
+    result, summary = reference
+    out = result.out
+    assert (result.total, result.done, result.failed, result.skipped) == (6, 4, 2, 0)
+    rows = list(csv.DictReader(io.StringIO(summary)))
+    assert [r["image"] for r in rows] == GOOD
+    assert {r["batch"] for r in rows} == {"A", "B"}
+    assert all(float(r["conductivity_W_mK"]) > 1.0 for r in rows)
+    with open(os.path.join(out, "failures.csv"), newline="") as f:
+        failures = {r["image"]: r for r in csv.DictReader(f)}
+    assert set(failures) == {"A/cut.tif", "B/readme.tif"}
+    assert "truncated" in failures["A/cut.tif"]["reason"]
+    assert "text" in failures["B/readme.tif"]["reason"]
+    assert all("\n" not in r["reason"] for r in failures.values())
+    manifest = read_manifest(out)
+    entry = manifest["entries"]["A/s1.tif"]
+    assert entry["status"] == "done" and len(entry["sha256"]) == 64
+    assert entry["config_sha256"] == manifest["config_sha256"]
+    for path in entry["outputs"].values():
+        assert os.path.exists(os.path.join(out, path))
+    assert manifest["entries"]["A/cut.tif"]["status"] == "failed"
+    index = open(os.path.join(out, "index.html"), encoding="utf-8").read()
+    assert "sections/A/s1_report.html" in index and "truncated" in index
+    leftovers = [f for _, _, files in os.walk(out) for f in files if f.startswith(".tmp-")]
+    assert leftovers == []
+
+
+def test_resume_redoes_only_changed_images_and_configs(folder, reference, tmp_path):
+    """--resume skips what is done and what failed on bad input (the stored hash is trusted
+    while size and modification time are unchanged), redoes a changed image, and redoes all
+    after a config change."""
+    root, cfg = folder
+    work, out = tmp_path / "images", tmp_path / "out"
+    shutil.copytree(root, work)
+    shutil.copytree(reference[0].out, out)
+    manifest = read_manifest(out)
+    for rel, entry in manifest["entries"].items():   # the copy moved the images
+        entry["path"] = str(work / rel)
+    (out / MANIFEST).write_text(json.dumps(manifest))
+    config = load_config(cfg)
+    again = run_batch(work, out, config=config, jobs=2, resume=True, quiet=True)
+    assert (again.skipped, again.done, again.failed) == (6, 4, 2)
+    lab = rsa_discs((64, 64), 0.3, 3.0, seed=99).labels.astype(np.uint8)
+    tifffile.imwrite(work / "B" / "s1.tif", lab)
+    changed = run_batch(work, out, config=config, jobs=2, resume=True, quiet=True)
+    assert (changed.skipped, changed.done) == (5, 4)
+    old = read_manifest(reference[0].out)["entries"]["B/s1.tif"]["sha256"]
+    assert read_manifest(out)["entries"]["B/s1.tif"]["sha256"] != old
+    new_cfg = tmp_path / "new.toml"
+    new_cfg.write_text(CONFIG.replace("conductivity = 10.0", "conductivity = 12.0"))
+    redo = run_batch(work, out, config=load_config(new_cfg), pattern="s0.tif", resume=True,
+                     quiet=True)
+    assert (redo.skipped, redo.done) == (0, 2)
+
+
+def test_killed_batch_resumes_to_the_same_summary(folder, reference, tmp_path):
+    """A real `polisect batch` subprocess killed with SIGKILL mid-run, then run again with
+    --resume: nothing done is redone, the summary equals the uninterrupted run's (no
+    duplicate rows) and no half-written file is left."""
+    root, cfg = folder
+    out = tmp_path / "out"
+    cmd = [sys.executable, "-m", "polisect.cli", "batch", str(root), "--config", str(cfg),
+           "--out", str(out), "--jobs", "1", "--quiet"]
+    proc = subprocess.Popen(cmd, start_new_session=True, stdout=subprocess.DEVNULL,
+                            stderr=subprocess.DEVNULL)
+    done = []
+    try:
+        deadline = time.monotonic() + 120
+        while time.monotonic() < deadline and proc.poll() is None:
+            try:
+                entries = json.loads((out / MANIFEST).read_text())["entries"]
+            except (OSError, ValueError, KeyError):
+                entries = {}
+            done = [k for k, e in entries.items() if e["status"] == "done"]
+            if len(done) >= 2:
+                break
+            time.sleep(0.05)
+    finally:
+        if proc.poll() is None:
+            os.killpg(proc.pid, signal.SIGKILL)
+        proc.wait(timeout=30)
+    assert len(done) >= 2, "the batch ended before it could be killed"
+    assert proc.returncode == -signal.SIGKILL
+    assert not (out / "summary.csv").exists()
+    stamps = {rel: os.stat(out / "sections" / (rel[:-4] + ".json")).st_mtime_ns for rel in done}
+    resumed = run_batch(root, out, config=load_config(cfg), jobs=2, resume=True, quiet=True)
+    assert resumed.skipped >= len(done)
+    for rel, stamp in stamps.items():
+        assert os.stat(out / "sections" / (rel[:-4] + ".json")).st_mtime_ns == stamp
+    summary = (out / "summary.csv").read_text()
+    assert summary == reference[1]
+    images = [r["image"] for r in csv.DictReader(io.StringIO(summary))]
+    assert len(images) == len(set(images)) == 4
+    leftovers = [f for _, _, files in os.walk(out) for f in files if f.startswith(".tmp-")]
+    assert leftovers == []
+
+
+def test_dask_local_cluster_gives_the_same_summary(folder, reference, tmp_path):
+    """The Dask distributed path (a LocalCluster, two worker processes) writes the same
+    summary.csv and failures as the local process pool."""
+    distributed = pytest.importorskip("distributed")
+    root, cfg = folder
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
+                                  dashboard_address=":0") as cluster:
+        r = run_batch(root, tmp_path / "out", config=load_config(cfg),
+                      scheduler=cluster.scheduler_address, quiet=True)
+    assert (r.done, r.failed) == (4, 2)
+    assert (tmp_path / "out" / "summary.csv").read_text() == reference[1]
+    assert (tmp_path / "out" / "failures.csv").read_text() == \
+        open(os.path.join(reference[0].out, "failures.csv")).read()
+
+
+def crash_on_named(task, settings):
+    """Stands in for analyze_one: kills its worker process on images named crash*."""
+    if os.path.basename(task.rel).startswith("crash"):
+        os._exit(3)
+    return {"status": "done", "reason": "", "retry": False, "outputs": {}, "seconds": 0.0}
+
+
+def test_a_dying_worker_fails_only_its_image(tmp_path):
+    """A worker process that dies (as under the out-of-memory killer) takes only its own
+    image down; the others are still analysed (common practice for process pools)."""
+    tasks = [Task(rel, str(tmp_path / rel), "g", "0" * 64, str(tmp_path), rel[:-4])
+             for rel in ("a.tif", "b.tif", "crash.tif", "d.tif", "e.tif", "f.tif")]
+    results = dict((t.rel, rec) for t, rec in _local_results(tasks, Settings(config=None), 2,
+                                                            work=crash_on_named))
+    assert set(results) == {t.rel for t in tasks}
+    assert results["crash.tif"]["status"] == "failed"
+    assert "worker process died" in results["crash.tif"]["reason"]
+    assert all(results[r]["status"] == "done" for r in results if r != "crash.tif")
+
+
+def test_progress_bar_counts_failures_and_time_left():
+    """Counts, failures, rate and time left; one line per update interval off a terminal."""
+    stream = io.StringIO()
+    bar = ProgressBar(10, skipped=2, stream=stream, interval=0.0)
+    bar.update("done")
+    bar.update("failed")
+    line = bar.line()
+    assert line.startswith("[") and "4/10" in line and "2 from before" in line
+    assert "1 failed" in line and "left" in line and "img/s" in line
+    assert len(stream.getvalue().splitlines()) == 2
+    ProgressBar(3, stream=stream, quiet=True).draw(final=True)
+    assert len(stream.getvalue().splitlines()) == 2
+
+
+def test_one_batch_per_output_folder(folder, tmp_path):
+    """A live batch's lock in the output folder refuses a second batch; a stale lock (its
+    process gone) is taken over."""
+    root, cfg = folder
+    out = tmp_path / "out"
+    out.mkdir()
+    (out / ".polisect-batch.lock").write_text(str(os.getpid()))
+    with pytest.raises(InputError, match="another polisect batch"):
+        run_batch(root, out, config=load_config(cfg), pattern="s0.tif", quiet=True)
+    gone = subprocess.Popen([sys.executable, "-c", "pass"])
+    gone.wait()
+    (out / ".polisect-batch.lock").write_text(str(gone.pid))
+    r = run_batch(root, out, config=load_config(cfg), pattern="s0.tif", quiet=True)
+    assert r.done == 2 and not (out / ".polisect-batch.lock").exists()
+
+
+def test_cli_batch_and_bad_input(folder, tmp_path, capsys):
+    """`polisect batch` with --group-by REGEX and --windows (fractions only, to keep it
+    quick); bad input exits with code 2."""
+    root, _ = folder
+    cfg = tmp_path / "fractions.toml"
+    cfg.write_text(CONFIG.replace('properties = ["conductivity"]', "properties = []"))
+    out = tmp_path / "out"
+    code = main(["batch", str(root), "--config", str(cfg), "--out", str(out), "--pattern",
+                 "s1.tif", "--group-by", r"(?P<batch>s\d)", "--windows", "--quiet"])
+    assert code == 0
+    rows = list(csv.DictReader(open(out / "summary.csv", newline="")))
+    assert [r["batch"] for r in rows] == ["s1", "s1"]
+    assert all(r["window_verdict_enough"] in ("True", "False") for r in rows)
+    d = json.loads((out / "sections" / "A" / "s1.json").read_text())
+    assert d["windows"]["edges"] == "periodic"
+    assert main(["batch", str(tmp_path / "missing"), "--out", str(out)]) == 2
+    assert main(["batch", str(root), "--out", str(out), "--jobs", "0"]) == 2
+    assert main(["batch", str(root), "--out", str(out), "--pattern", "*.xyz"]) == 2
+    assert "no files matching" in capsys.readouterr().err
+
+
+@pytest.mark.slow
+def test_bench_batch_quick_runs():
+    """The batch benchmark runs and reports its figures (no timing assertion)."""
+    from polisect.batch import bench_batch
+
+    rows = bench_batch(quick=True)
+    assert [r["case"] for r in rows][1:] == ["batch, 1 job", "batch, 2 jobs"]
+    assert rows[2]["speedup"] > 0 and "overhead_pct" in rows[1]
