@@ -599,3 +599,15 @@ def test_preview_of_a_small_image_is_the_segmentation(served, image):
                                denoise_px=1, min_feature_px=4)
     assert list(direct.thresholds) == th["thresholds"]
     np.testing.assert_array_equal(np.frombuffer(raw, np.uint8).reshape(192, 192), direct.labels)
+
+
+def test_short_tasks_that_crash_or_overrun_are_stopped():
+    """A child that dies is reported with its exit code; one that overruns is killed."""
+    from polisect.serve.jobs import TaskFailed, Tasks, process_context
+
+    tasks = Tasks(process_context(), parallel=1, timeout_s=0.5)
+    with pytest.raises(TaskFailed, match="exit code 3"):
+        tasks.call(os._exit, 3, what="reading")
+    with pytest.raises(InputError, match="took longer than 0 s"):
+        tasks.call(time.sleep, 30, what="sleeping")
+    assert tasks.call(sorted, [3, 1, 2]) == [1, 2, 3]

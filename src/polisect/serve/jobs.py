@@ -74,8 +74,9 @@ class Tasks:
             proc = self.ctx.Process(target=work.child_call, args=(send, fn, args), daemon=True)
             proc.start()
             send.close()
+            answered = receive.poll(self.timeout_s)
             try:
-                if not receive.poll(self.timeout_s):
+                if not answered:
                     raise InputError(f"{what} took longer than {self.timeout_s:.0f} s and was "
                                      "stopped; try a smaller image")
                 kind, payload = receive.recv()
@@ -85,7 +86,7 @@ class Tasks:
                                  "the file may be damaged in a way the decoder cannot handle")
             finally:
                 receive.close()
-                _stop(proc, grace_s=5)
+                _stop(proc, grace_s=5 if answered else 0)
         if kind == "input":
             raise InputError(payload)
         if kind == "error":

@@ -37,6 +37,7 @@ import ipaddress
 import json
 import os
 import re
+import shutil
 import socket
 import sys
 import tempfile
@@ -141,12 +142,9 @@ class Handler(BaseHTTPRequestHandler):
         self._dispatch("POST")
 
     def do_PUT(self):
-        self._refuse()
+        self._dispatch("OTHER")
 
     do_DELETE = do_PATCH = do_PUT
-
-    def _refuse(self):
-        self._dispatch("OTHER")
 
     def _dispatch(self, method: str) -> None:
         self._unread = method != "GET"
@@ -264,7 +262,7 @@ class Handler(BaseHTTPRequestHandler):
         if not os.path.isfile(path):
             raise HttpError(404, "no preview for this upload yet")
         with open(path, "rb") as f:
-            self._send(200, f.read(), "application/octet-stream")
+            self._send(200, f, "application/octet-stream")
 
     def _thresholds(self, upload_id):
         body = self._json_body()
@@ -318,12 +316,11 @@ class Handler(BaseHTTPRequestHandler):
                 os.path.join(folder, name)):
             raise HttpError(404, f"run {run_id} has no {kind} file"
                                  + ("" if status.get("state") == "done" else " (it is not done)"))
-        with open(os.path.join(folder, name), "rb") as f:
-            body = f.read()
         inline = urllib.parse.parse_qs(urllib.parse.urlsplit(self.path).query).get("inline")
         disposition = None if inline else f'attachment; filename="{name}"'
-        self._send(200, body, DOWNLOADS[kind], disposition=disposition,
-                   csp=REPORT_CSP if kind == "report" else "default-src 'none'; sandbox")
+        with open(os.path.join(folder, name), "rb") as f:
+            self._send(200, f, DOWNLOADS[kind], disposition=disposition,
+                       csp=REPORT_CSP if kind == "report" else "default-src 'none'; sandbox")
 
     # -- answers ------------------------------------------------------------------------
 
@@ -355,11 +352,13 @@ class Handler(BaseHTTPRequestHandler):
         except OSError:
             pass
 
-    def _send(self, status, body: bytes, ctype: str, *, csp: str = "default-src 'none'",
+    def _send(self, status, body, ctype: str, *, csp: str = "default-src 'none'",
               disposition: str | None = None, cache: bool = False) -> None:
+        """Answer with *body*: bytes, or an open binary file streamed in blocks."""
+        size = len(body) if isinstance(body, bytes) else os.fstat(body.fileno()).st_size
         self.send_response(status)
         self.send_header("Content-Type", ctype)
-        self.send_header("Content-Length", str(len(body)))
+        self.send_header("Content-Length", str(size))
         self.send_header("X-Content-Type-Options", "nosniff")
         self.send_header("Referrer-Policy", "no-referrer")
         self.send_header("Cross-Origin-Resource-Policy", "same-origin")
@@ -370,7 +369,10 @@ class Handler(BaseHTTPRequestHandler):
         if self.close_connection:
             self.send_header("Connection", "close")
         self.end_headers()
-        self.wfile.write(body)
+        if isinstance(body, bytes):
+            self.wfile.write(body)
+        else:
+            shutil.copyfileobj(body, self.wfile, 1 << 20)
 
     def log_message(self, format, *args):  # noqa: A002 - the base class's signature
         if self.server.verbose:
