@@ -8,10 +8,12 @@ Unknown: the gradient (strain) at pixel centres. With a homogeneous reference me
 until the equilibrium error ``√⟨|div σ|²⟩ / |⟨σ⟩|`` (in Fourier space, lengths scaled so
 that the longest side of the cell is 1) falls below the tolerance. ``Γ̂0`` is applied as
 ``(Γ̂0 σ̂)_ai = sym(ξ_i N_ab(ξ) σ̂_bj ξ_j)`` with ``N = (L0_{aibj} ξ_i ξ_j)⁻¹``. On an
-even grid the Nyquist frequencies have no consistent sign of ξ (a real field cannot carry
-their derivative), and the continuous Γ̂0 there stalls the iteration; there ``Γ̂0 = L0⁻¹``
-is used, which drives σ̂ to zero at those frequencies (the treatment described by
-Moulinec & Suquet 1998 for even grids, from memory). The reference medium is the mean of the extreme
+even grid the Nyquist wave number has no sign a real field can follow; where the sign
+would change Γ̂0 (another component of ξ non-zero) that component is taken as 0, the
+value of a real field's discrete derivative there, and where ξ then vanishes the strain
+has no fluctuation (`wave_vectors`). With the continuous ξ there the iteration stalls, and
+with ``Γ̂0 = L0⁻¹`` on all Nyquist frequencies a laminate loaded along its layers comes
+out wrong (both tried). The reference medium is the mean of the extreme
 phases: ``k0 = (k_min + k_max)/2`` for conduction, ``λ0 = (λ_min + λ_max)/2`` and
 ``μ0 = (μ_min + μ_max)/2`` for elasticity.
 
@@ -63,6 +65,30 @@ def reference_medium(L: np.ndarray) -> np.ndarray:
     return tensors.voigt_to_tensor(tensors.stiffness_from_bulk_shear(K0, mu0, dim=dim))
 
 
+def wave_vectors(shape: tuple[int, ...]) -> np.ndarray:
+    """Wave vectors ξ (d, m) of the rfftn half spectrum, the longest cell side scaled to 1.
+
+    On an even axis the Nyquist wave number ±π has no sign a real field can follow; where
+    another component is non-zero the sign changes Γ̂0 (its ξ_k ξ_l terms), so there the
+    Nyquist component is set to 0 (a real field's discrete derivative at Nyquist is 0).
+    Alone (ξ = (±π, 0, 0) and permutations) it is kept: Γ̂0 is even there.
+    """
+    dim = len(shape)
+    scale = max(shape)
+    axes, nyq = [], []
+    for k, n in enumerate(shape):
+        idx = np.arange(n // 2 + 1) if k == dim - 1 else np.fft.fftfreq(n) * n
+        axes.append(2.0 * np.pi * idx * scale / n)
+        nyq.append(2 * np.abs(idx) == n)
+    xi = np.array([g.ravel() for g in np.meshgrid(*axes, indexing="ij")])
+    at_nyquist = np.array([g.ravel() for g in np.meshgrid(*nyq, indexing="ij")])
+    nonzero = xi != 0.0
+    for k in range(dim):
+        others = np.any(np.delete(nonzero, k, axis=0), axis=0)
+        xi[k, at_nyquist[k] & others] = 0.0
+    return np.ascontiguousarray(xi)
+
+
 @nb.njit(parallel=True, cache=True, fastmath=True)
 def _local_law(eps, labels, Lc, tauc, sig):
     """``σ_c = Σ_c' Lc[p, c, c'] ε_c' + τ_c[p]`` per pixel (flat arrays (nv, N))."""
@@ -87,7 +113,7 @@ def _pick(a, v0, v1, v2):
 
 @nb.njit(cache=True, fastmath=True)
 def _green_one(eps_hat, sig_hat, xi, N, comp_a, comp_i, f):
-    """`_green_update` at a frequency *f* below the Nyquist ones; returns ``|σ̂·ξ|²``."""
+    """`_green_update` at one frequency *f*; returns ``|σ̂·ξ|²``."""
     nc = N.shape[0]
     v0 = 0j
     v1 = 0j
@@ -132,24 +158,14 @@ def _green_one(eps_hat, sig_hat, xi, N, comp_a, comp_i, f):
 
 
 @nb.njit(parallel=True, cache=True, fastmath=True)
-def _green_update(eps_hat, sig_hat, xi, N, comp_a, comp_i, weight, nyquist, S0):
-    """``ε̂ ← ε̂ − Γ̂0 σ̂`` at every non-zero frequency (``Γ̂0 = L0⁻¹`` on the Nyquist
-    frequencies); returns ``Σ w |σ̂·ξ|²``."""
+def _green_update(eps_hat, sig_hat, xi, N, comp_a, comp_i, weight, null):
+    """``ε̂ ← ε̂ − Γ̂0 σ̂`` at every non-zero frequency (``ε̂ = 0`` where the effective
+    wave vector vanishes); returns ``Σ w |σ̂·ξ|²``."""
     err = 0.0
-    nv = sig_hat.shape[0]
     for f in nb.prange(1, sig_hat.shape[1]):
-        if nyquist[f]:
-            e = 0.0
-            for c in range(nv):
-                t = 0j
-                for c2 in range(nv):
-                    t += S0[c, c2] * sig_hat[c2, f]
-                eps_hat[c, f] -= t
-                e += abs(sig_hat[c, f]) ** 2
-            xi2 = 0.0
-            for k in range(xi.shape[0]):
-                xi2 += xi[k, f] ** 2
-            err += weight[f] * e * xi2
+        if null[f]:
+            for c in range(sig_hat.shape[0]):
+                eps_hat[c, f] = 0.0
         else:
             err += weight[f] * _green_one(eps_hat, sig_hat, xi, N, comp_a, comp_i, f)
     return err
@@ -182,27 +198,17 @@ class MSSolver:
         ).transpose(2, 0, 1) * factor[None, None, :])
         self.labels = np.ascontiguousarray(cell.labels.ravel(), dtype=np.int32)
         L0 = reference_medium(cell.L)
-        scale = max(shape)
-        axes_xi = []
-        for k, n in enumerate(shape):
-            idx = np.arange(n // 2 + 1) if k == dim - 1 else np.fft.fftfreq(n) * n
-            axes_xi.append(2.0 * np.pi * idx * scale / n)
-        mesh = np.meshgrid(*axes_xi, indexing="ij")
-        self.xi = np.ascontiguousarray(np.array([g.ravel() for g in mesh]))
+        self.xi = wave_vectors(shape)
+        self.null = np.ascontiguousarray(~np.any(self.xi != 0.0, axis=0))
+        self.null[0] = False
         acoustic = np.einsum("aibj,im,jm->abm", L0, self.xi, self.xi)
-        acoustic[:, :, 0] = np.eye(nc)
+        acoustic[:, :, self.null | (np.arange(self.null.size) == 0)] = np.eye(nc)[:, :, None]
         self.N = np.ascontiguousarray(np.moveaxis(
             np.linalg.inv(np.moveaxis(acoustic, -1, 0)), 0, -1))
-        index = np.meshgrid(*[np.arange(len(x)) for x in axes_xi], indexing="ij")
-        self.nyquist = np.ascontiguousarray(np.any(
-            [(2 * idx == n) for idx, n in zip(index, shape)], axis=0).ravel())
-        L0c = np.array([[L0[a, i, b, j] for (b, j) in comps] for (a, i) in comps]) * factor
-        self.S0 = np.ascontiguousarray(np.linalg.inv(L0c)).astype(np.complex128)
+        self.half_shape = shape[:-1] + (shape[-1] // 2 + 1,)
         last = np.arange(shape[-1] // 2 + 1)
         w_last = np.where((last == 0) | (2 * last == shape[-1]), 1.0, 2.0)
-        self.weight = np.ascontiguousarray(np.broadcast_to(
-            w_last, mesh[0].shape).ravel())
-        self.half_shape = mesh[0].shape
+        self.weight = np.ascontiguousarray(np.broadcast_to(w_last, self.half_shape).ravel())
         self._factor = factor
 
     def solve(self, load: Load, fields: bool = False) -> Solution:
@@ -225,8 +231,7 @@ class MSSolver:
             norm = np.sqrt(np.sum(self._factor * mean ** 2))
             eps_hat.reshape(nv, -1)[:, 0] = E * n
             err2 = _green_update(eps_hat.reshape(nv, -1), sig_hat.reshape(nv, -1), self.xi,
-                                 self.N, self.comp_a, self.comp_i, self.weight,
-                                 self.nyquist, self.S0)
+                                 self.N, self.comp_a, self.comp_i, self.weight, self.null)
             history.append(np.sqrt(err2) / norm if norm > 0 else 0.0)
             if history[-1] <= self.tol or iterations >= self.maxiter:
                 converged = history[-1] <= self.tol
