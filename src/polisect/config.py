@@ -85,6 +85,8 @@ class SolveConfig:
     plane: str = "generalized-plane-strain"
     estimate_3d: bool = False
     fields: bool = True
+    voxels: int = 160
+    realizations: int = 3
 
 
 @dataclass(frozen=True)
@@ -266,6 +268,13 @@ def _check(cfg: Config) -> None:
     if not (0 < sol.tolerance < 1e-1):
         raise InputError(f"[solve] tolerance = {sol.tolerance}: give a relative tolerance "
                          "between 0 and 0.1 (default 1e-6)")
+    if isinstance(sol.voxels, bool) or not isinstance(sol.voxels, int) or sol.voxels < 16:
+        raise InputError(f"[solve] voxels = {sol.voxels!r}: give the voxels per edge of the 3D "
+                         "estimate's cubes, a whole number of at least 16 (default 160)")
+    if isinstance(sol.realizations, bool) or not isinstance(sol.realizations, int) \
+            or sol.realizations < 1:
+        raise InputError(f"[solve] realizations = {sol.realizations!r}: give a whole number of "
+                         "3D reconstructions of at least 1 (default 3)")
     if im.kind == "palette":
         missing = [p.name for p in cfg.phases if p.color is None]
         if missing:

@@ -175,37 +175,22 @@ def rsa_pack(radii, box: float, *, seed, gap: float = 0.0,
     centres = np.empty((n, 3))
     tree, indexed = None, 0
     trials = 0
-    batch = 64
     for k, i in enumerate(order):
-        if k - indexed > 32 + indexed // 4:
+        if k - indexed >= _REBUILD:
             tree, indexed = cKDTree(centres[order[:k]], boxsize=box), k
-        reach = radii[i] + radii[order[0]] + gap
         tried = 0
         while True:
-            cand = rng.uniform(0.0, box, (batch, 3))
-            ok = np.ones(batch, bool)
-            if k:
-                recent = order[indexed:k]
-                if recent.size:
-                    d = _separation(cand[:, None, :], centres[recent][None, :, :], box)
-                    need = radii[i] + radii[recent] + gap
-                    ok &= np.all((d * d).sum(-1) >= need * need, axis=1)
-                if tree is not None:
-                    for c in np.flatnonzero(ok):
-                        near = order[np.asarray(tree.query_ball_point(cand[c], reach), int)]
-                        if near.size:
-                            d = _separation(cand[c], centres[near], box)
-                            need = radii[i] + radii[near] + gap
-                            if np.any((d * d).sum(-1) < need * need):
-                                ok[c] = False
-                        if ok[c]:
-                            break
+            cand = rng.uniform(0.0, box, (_BATCH, 3))
+            ok = _free(cand, radii[i], order[indexed:k], centres, radii, box, gap)
+            if tree is not None and ok.any():
+                ok[ok] = _free_indexed(cand[ok], radii[i], tree, order[:indexed], centres,
+                                       radii, box, gap)
             hit = np.flatnonzero(ok)
             if hit.size:
                 centres[i] = cand[hit[0]]
                 tried += hit[0] + 1
                 break
-            tried += batch
+            tried += _BATCH
             if tried >= max_trials:
                 raise InputError(
                     f"random sequential addition jammed at a fraction of "
@@ -214,6 +199,33 @@ def rsa_pack(radii, box: float, *, seed, gap: float = 0.0,
                     "(collective_pack) for this fraction")
         trials += tried
     return SpherePacking(centres, radii.copy(), float(box), "rsa", int(trials))
+
+
+#: RSA: candidate positions drawn at a time, spheres placed between rebuilds of the tree,
+#: and neighbours asked of the tree per candidate before looking at all within reach.
+_BATCH, _REBUILD, _NEIGHBOURS = 64, 64, 16
+
+
+def _free(cand, r, others, centres, radii, box, gap) -> np.ndarray:
+    """Candidates clear of the spheres *others* (checked against each of them)."""
+    if others.size == 0:
+        return np.ones(len(cand), bool)
+    d = _separation(cand[:, None, :], centres[others][None, :, :], box)
+    need = r + radii[others] + gap
+    return np.all((d * d).sum(-1) >= need * need, axis=1)
+
+
+def _free_indexed(cand, r, tree, indexed, centres, radii, box, gap) -> np.ndarray:
+    """Candidates clear of the spheres in *tree* (built on ``centres[indexed]``)."""
+    reach = r + radii[indexed].max() + gap
+    dist, nb = tree.query(cand, k=_NEIGHBOURS, distance_upper_bound=reach)
+    found = nb < indexed.size
+    rj = radii[indexed[np.where(found, nb, 0)]]
+    ok = ~np.any(found & (dist < r + rj + gap), axis=1)
+    for c in np.flatnonzero(ok & found[:, -1]):
+        near = indexed[np.asarray(tree.query_ball_point(cand[c], reach), int)]
+        ok[c] = _free(cand[c:c + 1], r, near, centres, radii, box, gap)[0]
+    return ok
 
 
 def collective_pack(radii, box: float, *, seed, gap: float = 0.0, inflate: float = 0.005,
