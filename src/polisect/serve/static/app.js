@@ -91,7 +91,9 @@
     wireMapStep();
     $("run").addEventListener("click", submitRun);
     $("cancel").addEventListener("click", cancelRun);
-    window.addEventListener("resize", debounce(() => { if (S.up) drawHistogram(); }, 150));
+    window.addEventListener("resize", debounce(() => {
+      if (S.up && S.kind === "grayscale") { placeHandles(); drawHistogram(); }
+    }, 150));
     refreshRuns();
   }
 
@@ -165,7 +167,8 @@
       let data = null;
       try { data = JSON.parse(xhr.responseText); } catch (e) { /* not JSON */ }
       if (xhr.status !== 200 || !data) {
-        show($("image-msg"), (data && data.error) || `${file.name}: the server answered ${xhr.status}`);
+        const still = S.up ? ` (the page still works with ${S.up.name})` : "";
+        show($("image-msg"), ((data && data.error) || `${file.name}: the server answered ${xhr.status}`) + still);
         return;
       }
       accept(data, note).catch((e) => show($("image-msg"), e.message));
