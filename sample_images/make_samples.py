@@ -100,6 +100,15 @@ CONFIG_HEADERS = {
 # micro-porous, darker), 2 dense alumina sphere shells (brighter).
 """,
 }
+#: Extra sections per line: invented service data of the demo (Hasselman's indices).
+SERVICE = {"amc": "",
+           "castable": """
+# Demo service data (invented for the fictional scenario): strength and fracture energy of
+# the castable, for Hasselman's comparative thermal-shock indices.
+[service]
+strength_MPa = 25.0
+fracture_energy_J_m2 = 40.0
+"""}
 #: [image] crop_bottom_px per line (TOML value).
 CROP = {"amc": '"auto"   # some sections carry the microscope\'s information band',
         "castable": "0"}
@@ -137,7 +146,7 @@ properties = ["conductivity", "elasticity", "expansion"]
 method = "auto"
 tolerance = 1e-6
 plane = "generalized-plane-strain"
-"""
+{SERVICE[line]}"""
 
 
 def render_section(line: str, batch: int, section: int) -> tuple[np.ndarray, np.ndarray]:
