@@ -70,6 +70,7 @@ def test_load_sections_grouping(tmp_path):
     assert secs[0].within_variance == {"conductivity_W_mK": 0.25}
     by_lot = load_sections([tmp_path], group_by=r"(?P<batch>K\d)_")
     assert sorted({s.batch for s in by_lot}) == ["K1", "K2"]
+    assert {s.batch for s in load_sections([tmp_path], group_by="folder")} == {"data"}
     c = compare(secs)
     q = next(q for q in c.quantities if q.key == "conductivity_W_mK")
     assert set(q.spreads) == {"run1", "run2"}

@@ -246,10 +246,13 @@ def test_analyze_with_windows_through_files(tmp_path, capsys):
     assert w["quantities"]["conductivity_W_mK"]["variance_area"] > 0
     assert "window-size study" in (tmp_path / "o" / "section_report.html").read_text()
 
-    cfg = config_from_dict({"image": {"kind": "labels"}, "solve": {"properties": []},
+    cfg = config_from_dict({"image": {"kind": "labels"},
+                            "solve": {"properties": ["conductivity"], "fields": False},
                             "phase": [{"label": 0, "name": "matrix", "conductivity": 1.0},
                                       {"label": 1, "name": "grain", "conductivity": 10.0}]})
     a = add_window_study(analyze(tif, cfg), cfg, target_error=0.05)
     assert a.result.windows["edges"] == "periodic" and "windows" in a.result.timings_s
+    whole = a.result.windows["quantities"]["conductivity_W_mK"]["value"]
+    assert whole == a.result.effective["conductivity"]["mean_W_mK"]   # reused, not re-solved
     paths = write_outputs(a, tmp_path / "o2", config=cfg)
     assert json.loads(open(paths.json).read())["windows"]["verdict"] == a.result.windows["verdict"]

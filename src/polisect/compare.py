@@ -162,7 +162,7 @@ def load_sections(dirs, group_by: str | None = None) -> list[Section]:
                                      f"({exc}); run polisect batch --resume again") from None
                 continue
             if grouping is not None:
-                batch = grouping.group(d["source"]["path"] or rel, folder)
+                batch = grouping.group(d["source"]["path"] or path)
             elif group_by is None and group is not None:
                 batch = group
             else:
