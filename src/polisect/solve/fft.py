@@ -99,7 +99,6 @@ class FourierSolver:
         active = grid.active_nodes(cell.solid)
         self.mask = None if active.all() else np.broadcast_to(
             active, (cell.ncomp,) + cell.shape).astype(np.float64).ravel()
-        self._spectrum = np.empty((cell.ncomp,) + self.kinv.shape[2:], dtype=np.complex128)
 
     def apply(self, x: np.ndarray, out: np.ndarray) -> None:
         """``out = A x`` on flat arrays of length nc·N."""
@@ -108,16 +107,13 @@ class FourierSolver:
                      out.reshape(shape))
 
     def precondition(self, r: np.ndarray, out: np.ndarray) -> None:
-        """``out = K0⁻¹ r`` through the Fourier transform."""
+        """``out = K0⁻¹ r`` through the Fourier transform (all components in one call)."""
         nc, shape = self.cell.ncomp, self.cell.shape
-        r = r.reshape((nc,) + shape)
-        out = out.reshape((nc,) + shape)
-        for a in range(nc):
-            self._spectrum[a] = scipy.fft.rfftn(r[a], workers=WORKERS)
-        kernels.fourier_multiply(self._spectrum.reshape(nc, -1), self._kinv_flat)
-        for a in range(nc):
-            out[a] = scipy.fft.irfftn(self._spectrum[a], s=shape, workers=WORKERS,
-                                      overwrite_x=True)
+        axes = tuple(range(1, len(shape) + 1))
+        spectrum = scipy.fft.rfftn(r.reshape((nc,) + shape), axes=axes, workers=WORKERS)
+        kernels.fourier_multiply(spectrum.reshape(nc, -1), self._kinv_flat)
+        out.reshape((nc,) + shape)[...] = scipy.fft.irfftn(spectrum, s=shape, axes=axes,
+                                                            workers=WORKERS, overwrite_x=True)
 
     def solve(self, load: Load, fields: bool = False) -> Solution:
         """Solve one load case."""

@@ -221,12 +221,11 @@ class MSSolver:
         eps = np.broadcast_to(E[:, None], (nv, n)).copy()
         sig = np.empty_like(eps)
         eps_hat = np.zeros((nv,) + self.half_shape, dtype=np.complex128)
-        sig_hat = np.empty_like(eps_hat)
+        axes = tuple(range(1, len(shape) + 1))
         history, converged, iterations = [], False, 0
         while True:
             _local_law(eps, self.labels, self.Lc, tau, sig)
-            for c in range(nv):
-                sig_hat[c] = scipy.fft.rfftn(sig[c].reshape(shape), workers=WORKERS)
+            sig_hat = scipy.fft.rfftn(sig.reshape((nv,) + shape), axes=axes, workers=WORKERS)
             mean = sig_hat.reshape(nv, -1)[:, 0].real
             norm = np.sqrt(np.sum(self._factor * mean ** 2))
             eps_hat.reshape(nv, -1)[:, 0] = E * n
@@ -236,8 +235,7 @@ class MSSolver:
             if history[-1] <= self.tol or iterations >= self.maxiter:
                 converged = history[-1] <= self.tol
                 break
-            for c in range(nv):
-                eps[c] = scipy.fft.irfftn(eps_hat[c], s=shape, workers=WORKERS).ravel()
+            eps = scipy.fft.irfftn(eps_hat, s=shape, axes=axes, workers=WORKERS).reshape(nv, n)
             iterations += 1
         g = np.empty((cell.ncomp, cell.dim) + shape)
         for c, (a, i) in enumerate(zip(self.comp_a, self.comp_i)):

@@ -1,0 +1,248 @@
+"""`polisect bench`: speed and memory of the solvers on fixed synthetic cases.
+
+Every case is a function ``case(quick) -> list[dict]`` in `CASES`; other modules may
+append their own. A row holds, for one case and method:
+
+* ``iterations`` — total over the load cases;
+* ``seconds`` — wall time of the property, set-up included;
+* ``seconds_per_iteration``;
+* ``fft_floor`` — the time of the Fourier transforms one iteration needs (``nc`` forward
+  ``rfftn`` and ``nc`` inverse for ``fft``, one pair per stored strain component for
+  ``ms``), measured in the same run with the same calls, best of several;
+* ``ratio`` — seconds per iteration / fft floor;
+* ``peak_mb`` — peak of the memory traced by ``tracemalloc`` during the solve (numpy
+  arrays; the FFT library's and numba's internal work buffers are not traced);
+* ``converged``.
+
+`ms` runs on a pore-free variant (pores replaced by matrix) with at most
+`MS_BUDGET` iterations per load case, enough to measure its cost per iteration; its
+iteration count to full convergence grows with the contrast. `fe` runs where the
+assembled system fits `FE_MEMORY_LIMIT`.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import time
+import tracemalloc
+import warnings
+from typing import Callable
+
+import numpy as np
+import scipy.fft
+from scipy import ndimage
+
+from .atomic import atomic_write_text
+from .materials import Material
+from .solve import conductivity, elasticity, expansion
+from .solve.fe import memory_estimate
+from .solve.fft import WORKERS
+from .synth import Inclusions, compose
+
+MATRIX = Material(conductivity=1.0, youngs_modulus=70.0, poisson_ratio=0.33, expansion=23e-6,
+                  name="matrix")
+PARTICLE = Material(conductivity=1000.0, youngs_modulus=410.0, poisson_ratio=0.14,
+                    expansion=4e-6, name="particle")
+PORE = Material(conductivity=0.0, youngs_modulus=0.0, name="pore")
+MATERIALS = {0: MATRIX, 1: PARTICLE, 2: PORE}
+PORE_FREE = {0: MATRIX, 1: PARTICLE, 2: MATRIX}
+MS_BUDGET = 500
+FE_MEMORY_LIMIT = 8e9
+FLOOR_REPEATS = 5
+
+
+def fft_floor(shape: tuple[int, ...], components: int) -> float:
+    """Best-of-several time of one forward and one inverse real FFT of *components*
+    stacked fields on *shape* (the calls the solvers make once per iteration)."""
+    x = np.random.default_rng(0).random((components,) + shape)
+    axes = tuple(range(1, len(shape) + 1))
+    best = np.inf
+    for _ in range(FLOOR_REPEATS):
+        start = time.perf_counter()
+        spectrum = scipy.fft.rfftn(x, axes=axes, workers=WORKERS)
+        scipy.fft.irfftn(spectrum, s=shape, axes=axes, workers=WORKERS, overwrite_x=True)
+        best = min(best, time.perf_counter() - start)
+    return best
+
+
+def measure(case: str, problem: str, shape: tuple[int, ...], method: str, components: int,
+            run: Callable[[], object]) -> dict:
+    """Run *run* (returns a result with solver facts) under tracemalloc; one table row."""
+    tracemalloc.start()
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)      # ms stops at its budget
+        result = run()
+    peak = tracemalloc.get_traced_memory()[1]
+    tracemalloc.stop()
+    iterations = max(result.iterations, 1)
+    per_iteration = result.seconds / iterations
+    floor = fft_floor(shape, components) if method in ("fft", "ms") else None
+    return {"case": case, "problem": problem, "size": "x".join(map(str, shape)),
+            "method": method, "iterations": result.iterations,
+            "seconds": round(result.seconds, 3), "seconds_per_iteration": per_iteration,
+            "fft_floor": floor, "ratio": None if floor is None else per_iteration / floor,
+            "peak_mb": round(peak / 2 ** 20, 1), "converged": result.converged}
+
+
+def skipped(case: str, problem: str, shape: tuple[int, ...], method: str, why: str) -> dict:
+    return {"case": case, "problem": problem, "size": "x".join(map(str, shape)),
+            "method": method, "skipped": why}
+
+
+def image_2d(n: int) -> np.ndarray:
+    """Matrix, 30 % particles (radius n/85) and 10 % pores (radius n/170), periodic RSA."""
+    return compose((n, n), [Inclusions(1, 0.3, max(n / 85, 1.5)),
+                            Inclusions(2, 0.1, max(n / 170, 1.0))], seed=1).labels
+
+
+def image_3d(n: int) -> np.ndarray:
+    """Matrix, 30 % spheres (radius n/16) and 10 % spherical pores (radius n/26), not
+    below 2.5 and 1.5 voxels (smaller pixelated spheres jam the packing)."""
+    return compose((n, n, n), [Inclusions(1, 0.3, max(n / 16, 2.5)),
+                               Inclusions(2, 0.1, max(n / 26, 1.5))], seed=1).labels
+
+
+def _fe_fits(shape, nc) -> bool:
+    return memory_estimate(shape, nc) <= FE_MEMORY_LIMIT
+
+
+def _methods(case, problem, shape, nc, nv, run_with):
+    """fft, fe (if it fits) and ms (pore-free) rows of one property."""
+    rows = [measure(case, problem, shape, "fft", nc, lambda: run_with("fft", MATERIALS))]
+    if _fe_fits(shape, nc):
+        rows.append(measure(case, problem, shape, "fe", nc, lambda: run_with("fe", MATERIALS)))
+    else:
+        rows.append(skipped(case, problem, shape, "fe",
+                            f"assembled system ~{memory_estimate(shape, nc) / 1e9:.0f} GB"))
+    rows.append(measure(case, problem + ", pore-free", shape, "ms", nv,
+                        lambda: run_with("ms", PORE_FREE)))
+    return rows
+
+
+def case_2d_conductivity(quick: bool) -> list[dict]:
+    """(a) 2D conductivity, three phases with 10 % pores, contrast 1e3."""
+    n = 128 if quick else 1024
+    labels = image_2d(n)
+    return _methods("a", "2D conductivity, 10 % pores, contrast 1e3", labels.shape, 1, 2,
+                    lambda m, mats: conductivity(labels, mats, method=m,
+                                                 maxiter=MS_BUDGET if m == "ms" else None))
+
+
+def case_2d_elasticity(quick: bool) -> list[dict]:
+    """(b) plane-strain stiffness of the image of (a); (c) its thermal expansion (the
+    thermal solve alone, with the stiffness of the same method)."""
+    n = 128 if quick else 1024
+    labels = image_2d(n)
+    stiff: dict = {}
+
+    def stiffness(m, mats):
+        stiff[m] = elasticity(labels, mats, plane="plane-strain", method=m,
+                              maxiter=MS_BUDGET if m == "ms" else None)
+        return stiff[m]
+
+    def thermal(m, mats):
+        return expansion(labels, mats, plane="plane-strain", method=m, stiffness=stiff[m],
+                         maxiter=MS_BUDGET if m == "ms" else None)
+
+    rows = _methods("b", "2D plane-strain stiffness, same image", labels.shape, 2, 3, stiffness)
+    rows += _methods("c", "2D plane-strain expansion, same image", labels.shape, 2, 3, thermal)
+    return rows
+
+
+def case_3d_conductivity(quick: bool) -> list[dict]:
+    """(d) 3D conductivity of spheres and spherical pores."""
+    n = 32 if quick else 128
+    labels = image_3d(n)
+    return _methods("d", "3D conductivity, spheres, 10 % pores", labels.shape, 1, 3,
+                    lambda m, mats: conductivity(labels, mats, method=m,
+                                                 maxiter=MS_BUDGET if m == "ms" else None))
+
+
+def case_3d_elasticity(quick: bool) -> list[dict]:
+    """(e) 3D stiffness of the image of (d)."""
+    n = 32 if quick else 128
+    labels = image_3d(n)
+    return _methods("e", "3D stiffness, spheres, 10 % pores", labels.shape, 3, 6,
+                    lambda m, mats: elasticity(labels, mats, method=m,
+                                               maxiter=MS_BUDGET if m == "ms" else None))
+
+
+def smoothed_noise_image(n: int, seed: int = 2) -> np.ndarray:
+    """Periodic three-phase image at any size: Gaussian-smoothed noise (σ = 3 px) cut at
+    its 60 % and 90 % quantiles (matrix, particles, pores); the same statistics at every n."""
+    field = ndimage.gaussian_filter(np.random.default_rng(seed).random((n, n)), 3.0, mode="wrap")
+    return np.searchsorted(np.quantile(field, [0.6, 0.9]), field).astype(np.int32)
+
+
+def case_2d_scaling(quick: bool) -> list[dict]:
+    """(f) growth of the fft cost of a 2D conductivity with the image size (same
+    structure statistics); the last row carries the exponent p of seconds ∝ N^p fitted
+    over the sizes."""
+    sizes = (64, 128, 256) if quick else (256, 512, 1024, 2048)
+    rows = []
+    for n in sizes:
+        labels = smoothed_noise_image(n)
+        rows.append(measure("f", "2D conductivity scaling", labels.shape, "fft", 1,
+                            lambda: conductivity(labels, MATERIALS, method="fft")))
+    pixels = np.array([n * n for n in sizes], dtype=float)
+    seconds = np.array([r["seconds"] for r in rows])
+    rows[-1]["exponent"] = float(np.polyfit(np.log(pixels), np.log(seconds), 1)[0])
+    return rows
+
+
+CASES: list[Callable[[bool], list[dict]]] = [case_2d_conductivity, case_2d_elasticity,
+                                             case_3d_conductivity, case_3d_elasticity,
+                                             case_2d_scaling]
+
+
+def run_bench(quick: bool = False, json_path: str | None = None) -> list[dict]:
+    """Run every case of `CASES`; write the rows as JSON to *json_path* when given.
+
+    Parameters
+    ----------
+    quick : bool
+        Small sizes (the whole run in well under a minute).
+    json_path : str, optional
+
+    Returns
+    -------
+    list of dict
+        One row per case and method (see the module notes).
+    """
+    rows = []
+    for case in CASES:
+        rows.extend(case(quick))
+    if json_path is not None:
+        doc = {"schema": "polisect.bench/1", "quick": quick, "cpus": os.cpu_count(),
+               "fft_workers": WORKERS, "rows": rows}
+        atomic_write_text(json_path, json.dumps(doc, indent=1) + "\n")
+    return rows
+
+
+def _fmt(value, spec: str) -> str:
+    return "-" if value is None else format(value, spec)
+
+
+def format_table(rows: list[dict]) -> str:
+    """Plain-text table of bench rows."""
+    head = ("case", "method", "size", "iter", "seconds", "s/iter", "fft floor", "ratio",
+            "peak MB", "conv", "problem")
+    lines = [head]
+    for r in rows:
+        if "skipped" in r:
+            lines.append((r["case"], r["method"], r["size"], "-", "-", "-", "-", "-", "-", "-",
+                          f"{r['problem']} (skipped: {r['skipped']})"))
+            continue
+        note = r["problem"] + (f" (N^{r['exponent']:.2f})" if "exponent" in r else "")
+        lines.append((r["case"], r["method"], r["size"], str(r["iterations"]),
+                      f"{r['seconds']:.2f}", f"{r['seconds_per_iteration'] * 1e3:.1f} ms",
+                      _fmt(r["fft_floor"] and r["fft_floor"] * 1e3, ".1f") +
+                      (" ms" if r["fft_floor"] else ""),
+                      _fmt(r["ratio"], ".2f"), f"{r['peak_mb']:.0f}",
+                      "yes" if r["converged"] else "no", note))
+    widths = [max(len(line[i]) for line in lines) for i in range(len(head) - 1)]
+    out = ["  ".join(c.ljust(w) for c, w in zip(line[:-1], widths)) + "  " + line[-1]
+           for line in lines]
+    out.insert(1, "-" * len(out[0]))
+    return "\n".join(out)
