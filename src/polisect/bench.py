@@ -152,7 +152,7 @@ def case_2d_elasticity(quick: bool) -> list[dict]:
 
 def case_3d_conductivity(quick: bool) -> list[dict]:
     """(d) 3D conductivity of spheres and spherical pores."""
-    n = 32 if quick else 128
+    n = 24 if quick else 128
     labels = image_3d(n)
     return _methods("d", "3D conductivity, spheres, 10 % pores", labels.shape, 1, 3,
                     lambda m, mats: conductivity(labels, mats, method=m,
@@ -161,7 +161,7 @@ def case_3d_conductivity(quick: bool) -> list[dict]:
 
 def case_3d_elasticity(quick: bool) -> list[dict]:
     """(e) 3D stiffness of the image of (d)."""
-    n = 32 if quick else 128
+    n = 24 if quick else 128
     labels = image_3d(n)
     return _methods("e", "3D stiffness, spheres, 10 % pores", labels.shape, 3, 6,
                     lambda m, mats: elasticity(labels, mats, method=m,
