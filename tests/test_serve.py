@@ -522,7 +522,7 @@ def test_page_settings_round_trip_through_toml(tmp_path):
                           {"label": 2, "material": "mullite", "particles": None}],
                 "solve": {"properties": ["conductivity"], "plane": "plane-stress"}}
     path = tmp_path / "config.toml"
-    path.write_text(run_config_toml(settings, "s1"), encoding="utf-8")
+    path.write_text(run_config_toml(settings, "s1.tif"), encoding="utf-8")
     cfg = load_config(path)
     assert cfg.image.crop_bottom_px == "auto" and cfg.image.pixel_size_um == 0.25
     assert cfg.segment.thresholds == (61.5, 140.25) and cfg.segment.min_feature_px == 9
@@ -530,6 +530,25 @@ def test_page_settings_round_trip_through_toml(tmp_path):
     assert cfg.phases[0].particles is True and cfg.phases[2].particles is None
     assert cfg.phases[1].material.expansion == 4e-6
     assert cfg.solve.properties == ("conductivity",) and cfg.solve.plane == "plane-stress"
+
+
+_plain = (st.booleans() | st.integers(-2**63, 2**63 - 1)
+          | st.floats(allow_nan=False, allow_infinity=False) | st.text())
+_tables = st.dictionaries(st.text(min_size=1), _plain | st.lists(_plain, max_size=4), max_size=5)
+
+
+@given(st.dictionaries(st.text(min_size=1), _plain | _tables | st.lists(_tables, min_size=1,
+                                                                         max_size=3),
+                       max_size=5))
+def test_toml_writer_round_trips(data):
+    """Anything of the config's shape written by `toml_text` reads back equal with the
+    standard library's TOML reader (TOML v1.0.0, Preston-Werner et al. 2021)."""
+    from polisect.config import tomllib
+    from polisect.serve.runconfig import toml_text
+
+    if any(0xD800 <= ord(c) <= 0xDFFF for c in repr(data)):
+        return
+    assert tomllib.loads(toml_text(data)) == data
 
 
 def test_loopback_detection_and_warning(tmp_path, capsys):
@@ -611,3 +630,25 @@ def test_short_tasks_that_crash_or_overrun_are_stopped():
     with pytest.raises(InputError, match="took longer than 0 s"):
         tasks.call(time.sleep, 30, what="sleeping")
     assert tasks.call(sorted, [3, 1, 2]) == [1, 2, 3]
+
+
+def test_label_image_is_recognised_and_used_as_is(served, tmp_path):
+    """A label image: its values are offered as phases, and a run with kind = "labels" gives
+    the exact pixel fractions (pixel counting, common practice — no source)."""
+    client, _ = served
+    labels = np.zeros((64, 96), np.uint8)
+    labels[:, 24:48] = 3
+    labels[40:, :] = 7
+    path = tmp_path / "truth.tif"
+    write_tiff(path, labels)
+    status, facts = client.upload(str(path))
+    assert status == 200 and facts["label_values"] == [0, 3, 7]
+    config = {"image": {"kind": "labels", "crop_bottom_px": 0},
+              "phase": [{"label": v, "name": f"grain-{v}", "material": "alumina"}
+                        for v in (0, 3, 7)],
+              "solve": NO_PROPS}
+    st = client.run(facts["id"], config)
+    assert st["state"] == "done", st
+    _, d = client.json("GET", f"/api/runs/{st['id']}/files/json")
+    expect = {v: np.count_nonzero(labels == v) / labels.size for v in (0, 3, 7)}
+    assert {p["label"]: p["fraction"] for p in d["phases"]} == pytest.approx(expect, abs=1e-12)

@@ -290,7 +290,7 @@ class Handler(BaseHTTPRequestHandler):
     def _submit(self):
         body = self._json_body()
         upload = self.app.uploads.get(body.get("upload"))
-        text = run_config_toml(body.get("config"), upload.stem)
+        text = run_config_toml(body.get("config"), os.path.basename(upload.path))
         run_id = self.app.runs.submit(upload.path, upload.stem, text)
         self._json({"id": run_id}, status=201)
 

@@ -75,11 +75,17 @@ def inspect_upload(path: str, crop) -> dict:
         ``histogram`` {``lo``, ``hi``, ``counts``} (256 bins, or one per grey level for an
         integer image with fewer levels), ``suggested_classes`` (or ``None``
         with ``suggest_note``), ``label_values`` (the distinct values when the image
-        could be a label image, else ``None``), ``preview_shape``, ``preview_step``.
+        could be a label image, else ``None``), ``crop`` (the crop used: ``"auto"`` is
+        not applied to a label image), ``preview_shape``, ``preview_step``.
     """
     from .. import segment
 
-    micro, grey = _grey(path, crop)
+    micro, grey = _grey(path, 0 if crop == "auto" else crop)
+    labels = _label_values(grey, micro.is_rgb)
+    if crop == "auto" and labels is None:
+        micro, grey = _grey(path, "auto")
+    elif crop == "auto":
+        crop = 0  # a label image has no information band; a uniform bottom is a phase
     lo, hi = float(grey.min()), float(grey.max())
     edges = (lo, hi if hi > lo else lo + 1)
     bins = HIST_BINS
@@ -108,7 +114,7 @@ def inspect_upload(path: str, crop) -> dict:
             "range": [lo, hi],
             "histogram": {"lo": edges[0], "hi": edges[1], "counts": counts.tolist()},
             "suggested_classes": suggested, "suggest_note": note,
-            "label_values": _label_values(grey, micro.is_rgb),
+            "label_values": labels, "crop": crop,
             "preview_shape": list(preview.shape), "preview_step": step}
 
 

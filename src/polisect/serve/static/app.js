@@ -185,10 +185,7 @@
     [S.ph, S.pw] = facts.preview_shape;
     showFacts(facts, note);
     const labelsOk = Array.isArray(facts.label_values);
-    if (labelsOk && facts.cropped_bottom_px && $("crop").value === "auto") {
-      $("crop").value = "0";  // a label image has no information band: keep every row
-      return reinspect();
-    }
+    if (facts.crop === 0) $("crop").value = "0";  // the server keeps every row of a label image
     $("kind-labels").disabled = !labelsOk;
     const kind = labelsOk ? "labels" : "grayscale";
     document.querySelector(`input[name=kind][value=${kind}]`).checked = true;
@@ -664,21 +661,32 @@
     return { image, segment, phase, solve };
   }
 
-  /** A phase without material while properties are asked for: say so before the server does. */
-  function missingMaterial(config) {
-    if (!config.solve.properties.length) return null;
+  /** What the page can say before the server does: a phase without material while properties
+   * are asked for, or two phases with the same name (the results list phases by name). */
+  function phaseProblem(config) {
     const bare = config.phase.find((p) => !p.material && !OWN.some(([key]) => key in p));
-    if (!bare) return null;
-    return `class ${bare.label} has no material: pick one from the library or enter own values `
-      + "(or untick the effective properties to measure the fractions only)";
+    if (bare && config.solve.properties.length) {
+      return `class ${bare.label} has no material: pick one from the library or enter own values `
+        + "(or untick the effective properties to measure the fractions only)";
+    }
+    const seen = new Map();
+    for (const p of config.phase) {
+      const name = p.name || p.material || `phase-${p.label}`;
+      if (seen.has(name)) {
+        return `classes ${seen.get(name)} and ${p.label} are both called “${name}”: give them `
+          + "different names (results are listed by phase name)";
+      }
+      seen.set(name, p.label);
+    }
+    return null;
   }
 
   async function submitRun() {
     hide($("run-msg"));
     if (!S.up) { show($("run-msg"), "drop an image first (step 1)"); return; }
     const config = runConfig();
-    const missing = missingMaterial(config);
-    if (missing) { show($("run-msg"), missing); return; }
+    const problem = phaseProblem(config);
+    if (problem) { show($("run-msg"), problem); return; }
     const btn = $("run");
     btn.disabled = true;
     try {
