@@ -160,3 +160,38 @@ def test_console_script_entry_point(tmp_path):
     exe = os.path.join(os.path.dirname(sys.executable), "polisect")
     res = subprocess.run([exe, "--version"], capture_output=True, text=True)
     assert res.returncode == 0 and "polisect" in res.stdout
+
+
+def test_estimate_3d_options(section, tmp_path, capsys):
+    """--estimate-3d --voxels --realizations: the JSON carries effective_3d with the spread of
+    the realizations, and the summary prints it (the issue's contract)."""
+    path, cfg, _ = section
+    code, out, err = _run(capsys, "analyze", path, "--config", cfg, "--out", tmp_path,
+                          "--json", "-", "--estimate-3d", "--voxels", "24",
+                          "--realizations", "2")
+    assert code == 0, err
+    e3 = json.loads(out)["effective_3d"]
+    assert e3["realizations"] == 2 and e3["volume"]["voxels"] == [24, 24, 24]
+    assert len(e3["conductivity"]["mean_W_mK_realizations"]) == 2
+    assert "3D conductivity" in err
+    with pytest.raises(SystemExit) as exc:
+        main(["analyze", str(path), "--config", str(cfg), "--voxels", "8"])
+    assert exc.value.code == 2 and "smallest allowed, 16" in capsys.readouterr().err
+
+
+def test_stack_folder(tmp_path, capsys):
+    """--stack reads a folder of label slices as one volume of the right shape and voxel size;
+    --stack on a file says it needs a folder."""
+    labels = synth.rsa_spheres((12, 24, 24), 0.2, 3.0, seed=2).labels.astype(np.uint8)
+    folder = tmp_path / "stack"
+    folder.mkdir()
+    for k, plane in enumerate(labels):
+        tifffile.imwrite(folder / f"z{k:02d}.tif", plane, resolution=(1e4, 1e4),
+                         resolutionunit="CENTIMETER")
+    code, out, err = _run(capsys, "analyze", folder, "--stack", "--kind", "labels", "--out",
+                          tmp_path / "out", "--json", "-", "--quiet")
+    assert code == 0, err
+    d = json.loads(out)
+    assert d["source"]["shape"] == [12, 24, 24] and d["source"]["pixel_size_um"] == 1.0
+    code, _, err = _run(capsys, "analyze", folder / "z00.tif", "--stack", "--kind", "labels")
+    assert code == 2 and "not a folder" in err

@@ -37,7 +37,8 @@ def _add_analyze(sub):
     p = sub.add_parser("analyze", help="analyse one section image",
                        description="Analyse one polished-section image: phase map, fractions "
                        "with confidence, particles, effective properties, bounds, report.")
-    p.add_argument("image", help="image file (TIFF, PNG, JPEG, BMP)")
+    p.add_argument("image", help="image file (TIFF, PNG, JPEG, BMP), or a folder of slices with "
+                   "--stack")
     p.add_argument("--config", help="run configuration (TOML)")
     p.add_argument("--out", default="polisect-out", help="output folder (default: polisect-out)")
     p.add_argument("--json", metavar="FILE", help="also write the result JSON here ('-' = stdout)")
@@ -47,7 +48,50 @@ def _add_analyze(sub):
     p.add_argument("--kind", choices=("grayscale", "labels", "palette"), help="[image] kind")
     p.add_argument("--quiet", action="store_true", help="no progress messages")
     _add_window_options(p)
+    _add_3d_options(p)
     p.set_defaults(run=_run_analyze)
+
+
+def _add_3d_options(p) -> None:
+    p.add_argument("--stack", action="store_true",
+                   help="IMAGE is a folder of slice images, read as one 3D volume")
+    p.add_argument("--estimate-3d", action="store_true",
+                   help="also estimate the 3D properties from the section's statistics "
+                        "(reconstructed sphere packings; [solve] estimate_3d)")
+    p.add_argument("--voxels", type=_whole(16), metavar="N",
+                   help="voxels per edge of each 3D reconstruction (default 160)")
+    p.add_argument("--realizations", type=_whole(1), metavar="N",
+                   help="number of 3D reconstructions (default 3)")
+
+
+def _whole(least: int):
+    """argparse type: a whole number of at least *least*."""
+    def parse(text: str) -> int:
+        try:
+            value = int(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+        if value < least:
+            raise argparse.ArgumentTypeError(f"{value} is below the smallest allowed, {least}")
+        return value
+    return parse
+
+
+def _with_3d_options(cfg, args):
+    """The config with --stack, --estimate-3d, --voxels and --realizations applied."""
+    import dataclasses
+
+    if args.stack:
+        if not os.path.isdir(args.image):
+            raise InputError(f"{args.image}: --stack reads a folder of slice images, and this "
+                             "is not a folder (give a multi-page TIFF without --stack)")
+        cfg = dataclasses.replace(cfg, image=dataclasses.replace(cfg.image, volume=True))
+    given = {"estimate_3d": True if args.estimate_3d else None, "voxels": args.voxels,
+             "realizations": args.realizations}
+    given = {k: v for k, v in given.items() if v is not None}
+    if given:
+        cfg = dataclasses.replace(cfg, solve=dataclasses.replace(cfg.solve, **given))
+    return cfg
 
 
 def _add_window_options(p) -> None:
@@ -81,6 +125,7 @@ def _run_analyze(args) -> int:
     cfg = load_config(args.config) if args.config else None
     if any(v is not None for v in (args.classes, args.assign, args.kind)) or cfg is None:
         cfg = quick_config(classes=args.classes, assign=args.assign, kind=args.kind, base=cfg)
+    cfg = _with_3d_options(cfg, args)
     try:
         analysis = analyze(args.image, cfg, pixel_size_um=args.pixel_size, progress=progress)
     except InputError as exc:
@@ -118,6 +163,7 @@ def _summary(result, paths) -> None:
         lines.append(f"  expansion         {eff['expansion']['mean_per_K'] * 1e6:.4g} ×10⁻⁶/K")
     if eff:
         lines.append(f"  ({eff.get('model', '')})")
+    lines += _summary_3d(d.get("effective_3d") or {})
     for w in d["warnings"]:
         lines.append(f"  warning: {w}")
     if d.get("windows"):
@@ -125,6 +171,24 @@ def _summary(result, paths) -> None:
     lines.append(f"  report: {paths.report}")
     lines.append(f"  json:   {paths.json}")
     print("\n".join(lines), file=sys.stderr)
+
+
+def _summary_3d(e3: dict) -> list[str]:
+    """Lines for the 3D estimate: mean and 95 % interval over the realizations."""
+    rows = [("conductivity", "mean_W_mK", "conductivity", 1.0, "W/(m·K)"),
+            ("elasticity", "youngs_modulus_GPa", "Young's modulus", 1.0, "GPa"),
+            ("expansion", "mean_per_K", "expansion", 1e6, "×10⁻⁶/K")]
+    lines = []
+    for prop, key, words, scale, unit in rows:
+        block = e3.get(prop)
+        if not block:
+            continue
+        ci = block.get(key + "_ci95")
+        spread = f" (95 % {ci[0] * scale:.4g}–{ci[1] * scale:.4g})" if ci else ""
+        lines.append(f"  3D {words:<15}{block[key] * scale:.4g} {unit}{spread}")
+    if lines:
+        lines.append(f"  ({e3.get('model', '')})")
+    return lines
 
 
 def _emit_json(target, text) -> None:

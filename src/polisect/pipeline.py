@@ -20,7 +20,7 @@ import numpy as np
 from . import __version__
 from .config import Config
 from .errors import InputError
-from .image import Micrograph, read_image, to_grayscale
+from .image import Micrograph, check_slice_spacing, read_image, read_stack, to_grayscale
 from .materials import Material
 from .morphology import enclosed_fractions, field_fractions, particle_phases, phase_particles
 from .phasemap import Phase, PhaseMap
@@ -108,12 +108,18 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
         warnings.extend(bounds_warnings(effective.block, schemes["bounds"]))
     shock = _shock(effective.block if effective else None, cfg, notes)
 
+    tick = time.perf_counter()
+    effective_3d = _effective_3d(phasemap, cfg, effective, say, warnings, notes)
+    if effective_3d is not None:
+        timings["estimate_3d"] = time.perf_counter() - tick
+
     src = Source(path=micro.path, sha256=micro.sha256, shape=tuple(phasemap.shape),
                  pixel_size_um=micro.pixel_size_um, pixel_size_from=micro.pixel_size_from,
                  cropped_bottom_px=micro.cropped_bottom_px)
     result = Result(source=src, phases=fractions, version=__version__,
                     particles={pp.name: pp.to_dict() for pp in measured} or None,
                     effective=effective.block if effective else None, shock=shock,
+                    effective_3d=effective_3d,
                     schemes=schemes.get("schemes"), bounds=schemes.get("bounds"),
                     schemes_3d=schemes.get("schemes_3d"), bounds_3d=schemes.get("bounds_3d"),
                     correlation={name: {"correlation_length": c.correlation_length,
@@ -127,6 +133,27 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
                     thresholds=tuple(thresholds), particle_rows=rows, particles=measured,
                     correlations=correlations,
                     field_maps=effective.maps if effective else {})
+
+
+def _effective_3d(phasemap: PhaseMap, cfg: Config, effective, say: Progress, warnings: list,
+                  notes: list) -> dict | None:
+    """The 3D estimate from the section's statistics (``[solve] estimate_3d``), or None."""
+    if not cfg.solve.estimate_3d:
+        return None
+    if phasemap.ndim == 3:
+        notes.append("estimate_3d: the input is a volume, solved in 3D as it is (effective)")
+        return None
+    if not cfg.phases or not cfg.solve.properties:
+        notes.append("estimate_3d: no materials or no properties asked for; not built")
+        return None
+    from .reconstruct import estimate_3d
+
+    est = estimate_3d(phasemap, cfg.solve.properties, voxels=cfg.solve.voxels,
+                      realizations=cfg.solve.realizations, tol=cfg.solve.tolerance,
+                      method=cfg.solve.method,
+                      effective_2d=effective.block if effective else None, progress=say)
+    warnings.extend(f"3D estimate: {w}" for w in est.warnings)
+    return est.to_dict()
 
 
 def _effective(phasemap: PhaseMap, cfg: Config, say: Progress, warnings: list, notes: list):
@@ -296,8 +323,12 @@ def _micrograph(source, cfg: Config, pixel_size_um: float | None) -> Micrograph:
                           pixel_size_from=given_from if size is not None else "unknown",
                           cropped_bottom_px=0, dtype=str(source.dtype),
                           bit_depth=source.dtype.itemsize * 8, is_rgb=is_rgb, n_pages=1)
-    return read_image(source, crop_bottom_px=cfg.image.crop_bottom_px, pixel_size_um=size,
-                      pixel_size_from=given_from, volume=cfg.image.volume)
+    if os.path.isdir(source):
+        return read_stack(source, crop_bottom_px=cfg.image.crop_bottom_px, pixel_size_um=size,
+                          pixel_size_from=given_from, slice_spacing_um=cfg.image.slice_spacing_um)
+    micro = read_image(source, crop_bottom_px=cfg.image.crop_bottom_px, pixel_size_um=size,
+                       pixel_size_from=given_from, volume=cfg.image.volume)
+    return check_slice_spacing(micro, cfg.image.slice_spacing_um) if micro.is_volume else micro
 
 
 def _labels(micro: Micrograph, cfg: Config):

@@ -42,7 +42,7 @@ from .errors import InputError
 from .morphology import student_t
 from .packing import SpherePacking, pack_spheres, rasterize
 from .particles import label_particles, measure_particles
-from .phasemap import PhaseMap
+from .phasemap import Phase, PhaseMap
 from .stereology import saltykov
 
 #: Diameter classes of the unfolding: 20 geometric classes, each limit 10^-0.06 times the
@@ -246,6 +246,8 @@ def section_statistics(labels: np.ndarray, pixel_size_um: float | None = None, *
     others = [v for v in fractions if v != matrix_label]
     particles = {p: _phase_particles(labels == p) for p in others}
     holes = {p: _holes(plab) for p, plab in particles.items()}
+    for q in others:
+        _add_open_cores(labels == q, particles, holes, q)
     warnings = []
     families = []
     for p in others:
@@ -317,6 +319,24 @@ def _holes(plab: np.ndarray) -> np.ndarray:
         own = plab[sl] == i + 1
         out[sl] |= ndi.binary_fill_holes(own) & ~own
     return out
+
+
+def _add_open_cores(mask: np.ndarray, particles: dict, holes: dict, phase: int) -> None:
+    """Count as cores the regions of *phase* at the image border that one particle of
+    another phase surrounds everywhere else (the open cores of hollow particles cut by the
+    border)."""
+    comp, _ = ndi.label(mask, structure=np.ones((3, 3), bool))
+    edge = np.unique(np.concatenate([comp[0], comp[-1], comp[:, 0], comp[:, -1]]))
+    objects = ndi.find_objects(comp)
+    for c in edge[edge > 0]:
+        sl = tuple(slice(max(s.start - 1, 0), s.stop + 1) for s in objects[c - 1])
+        own = comp[sl] == c
+        ring = ndi.binary_dilation(own, np.ones((3, 3), bool)) & ~own
+        for host, plab in particles.items():
+            ids = np.unique(plab[sl][ring])
+            if host != phase and ids.size == 1 and ids[0] > 0:
+                holes[host][sl] |= own
+                break
 
 
 def _hollow(table, shell: float, core: float, core_pixels: np.ndarray):
@@ -694,7 +714,9 @@ class Estimate3D:
                "axes": "x, y, z of the reconstructed volumes (statistically isotropic)",
                "realizations": n, "seed": self.seed,
                "confidence": "95 % interval of the mean over the realizations, Student t "
-                             "with n − 1 degrees of freedom",
+                             "with n − 1 degrees of freedom; it covers the variation between "
+                             "reconstructions, not the sampling error of the section's own "
+                             "fractions and sizes (see the fractions' intervals)",
                "conductivity": None, "elasticity": None, "expansion": None,
                "volume": self.plan.to_dict(), "section": self.statistics.to_dict(),
                "packings": [{"seed": r.seed, "spheres": r.spheres, "method": r.packing,
@@ -902,3 +924,110 @@ def compare_2d(est: Estimate3D, effective_2d: dict) -> tuple[Comparison, ...]:
                     f"{meaning}.")
         out.append(Comparison(key, float(v2), s3.mean, diff, sentence))
     return tuple(out)
+
+
+class _PeakRSS:
+    """Peak resident memory (MB) of this process while the block runs, sampled every 20 ms
+    from /proc/self/statm (Linux); elsewhere the process's lifetime peak
+    (`resource.getrusage`). ``start`` is the resident memory at entry."""
+
+    def __enter__(self):
+        import threading
+
+        self.start = self.peak = self._now()
+        self._stop = threading.Event()
+        self._thread = threading.Thread(target=self._sample, daemon=True)
+        self._thread.start()
+        return self
+
+    def __exit__(self, *exc):
+        self._stop.set()
+        self._thread.join()
+        self.peak = max(self.peak, self._now())
+
+    def _sample(self):
+        while not self._stop.wait(0.02):
+            self.peak = max(self.peak, self._now())
+
+    @staticmethod
+    def _now() -> float:
+        import os
+        import resource
+
+        try:
+            with open("/proc/self/statm") as f:
+                return int(f.read().split()[1]) * os.sysconf("SC_PAGE_SIZE") / 2 ** 20
+        except OSError:
+            return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+
+
+def bench_section(n: int) -> PhaseMap:
+    """The bench's section: a mullite castable with silicon carbide particles, hollow alumina
+    spheres with pore cores and free pores (total particle fraction 0.35), n × n pixels of
+    1 µm, by random sequential addition (`polisect.synth.compose`, seed 1)."""
+    from .materials import get_material
+    from .synth import Inclusions, compose
+
+    scale = n / 1024
+    labels = compose((n, n), [Inclusions(2, 0.17, 9.0 * max(scale, 0.5), 2.0 * max(scale, 0.5)),
+                              Inclusions(3, 0.13, 11.0 * max(scale, 0.5), 2.0 * max(scale, 0.5),
+                                         hollow_ratio=0.5, core_label=0),
+                              Inclusions(0, 0.05, 4.0 * max(scale, 0.5))],
+                     seed=1, matrix_label=1).labels
+    names = {0: "air", 1: "mullite", 2: "silicon-carbide", 3: "alumina"}
+    return PhaseMap(labels, tuple(Phase(k, v, get_material(v)) for k, v in names.items()), 1.0)
+
+
+def bench_reconstruct(quick: bool = False) -> list[dict]:
+    """Speed and memory of one realization of the 3D estimate with all three properties.
+
+    One realization of `estimate_3d` at the default budget of 160³ voxels (quick: 48³) from
+    `bench_section` (1024² pixels; quick: 256²), tolerance 1e-6, method "auto", after a
+    small warm-up run (so that compiling the solver kernels is not counted). Rows in the
+    form of `polisect bench` (case "g"): the reconstruction (section statistics, packing,
+    rasterising), each property's solve, and the total with the process's peak resident
+    memory (``peak_rss_mb``, sampled; the target is ≤ 180 s and ≤ 4096 MB at 160³).
+
+    Parameters
+    ----------
+    quick : bool
+        Small sizes (a smoke run of a few seconds).
+
+    Returns
+    -------
+    list of dict
+        Keys ``case``, ``problem``, ``size``, ``method``, ``iterations``, ``seconds``,
+        ``seconds_per_iteration``, ``fft_floor`` (None), ``ratio`` (None), ``peak_mb`` (the
+        growth of the resident memory over the realization, sampled: tracemalloc would slow
+        the particle measurements twentyfold), ``converged``; the total row adds
+        ``peak_rss_mb`` (the process's peak resident memory), ``limit_seconds`` and
+        ``limit_mb``.
+    """
+    n_px, voxels = (256, 48) if quick else (1024, 160)
+    phasemap = bench_section(n_px)
+    estimate_3d(bench_section(256), voxels=16, realizations=1, tol=1e-2)     # compile kernels
+    size = f"{voxels}x{voxels}x{voxels}"
+    tick = time.perf_counter()
+    with _PeakRSS() as rss:
+        est = estimate_3d(phasemap, voxels=voxels, realizations=1)
+    total = time.perf_counter() - tick
+    grown = rss.peak - rss.start
+    (run,) = est.realizations
+    solves = [("conductivity", run.conductivity), ("stiffness", run.elasticity),
+              ("expansion (stiffness reused)", run.expansion)]
+
+    def row(problem, method, iterations, seconds, converged=True):
+        return {"case": "g", "problem": f"3D estimate: {problem}", "size": size,
+                "method": method, "iterations": int(iterations), "seconds": round(seconds, 3),
+                "seconds_per_iteration": seconds / max(int(iterations), 1), "fft_floor": None,
+                "ratio": None, "peak_mb": round(grown, 1), "converged": converged}
+
+    build = run.seconds - sum(r.seconds for _, r in solves)
+    rows = [row(f"reconstruction of {run.spheres} spheres (statistics, packing, rasterising)",
+                run.packing, 1, build + (total - run.seconds))]
+    rows += [row(name, r.method, r.iterations, r.seconds, r.converged) for name, r in solves]
+    rows.append({**row("one realization, all three properties", solves[0][1].method,
+                       sum(r.iterations for _, r in solves), total,
+                       all(r.converged for _, r in solves)),
+                 "peak_rss_mb": round(rss.peak, 1), "limit_seconds": 180, "limit_mb": 4096})
+    return rows

@@ -51,8 +51,8 @@ class PhaseFraction:
 class Result:
     """One analysed section (or volume).
 
-    The blocks filled by the later stages (``effective``, ``particles``, ``schemes``,
-    ``bounds``, ``shock``, ``windows``) hold the plain JSON forms of the library's result objects.
+    The blocks filled by the later stages (``effective``, ``effective_3d``, ``particles``,
+    ``schemes``, ``bounds``, ``shock``, ``windows``) hold the plain JSON forms of the library's result objects.
     """
 
     source: Source
@@ -60,6 +60,7 @@ class Result:
     version: str
     config_toml: str = ""
     effective: dict | None = None
+    effective_3d: dict | None = None
     particles: dict | None = None
     schemes: dict | None = None
     bounds: dict | None = None
@@ -89,6 +90,7 @@ class Result:
                         "inside_particles": p.inside_particles}
                        for p in self.phases],
             "effective": self.effective,
+            "effective_3d": self.effective_3d,
             "particles": self.particles,
             "schemes": self.schemes,
             "bounds": self.bounds,
