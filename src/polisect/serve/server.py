@@ -38,6 +38,7 @@ import json
 import os
 import re
 import shutil
+import signal
 import socket
 import sys
 import tempfile
@@ -403,6 +404,11 @@ class Server(ThreadingHTTPServer):
                                                        shown.lower())}
 
 
+def _interrupt(signum, frame):
+    signal.signal(signum, signal.SIG_IGN)  # once is enough: let the clean-up finish
+    raise KeyboardInterrupt
+
+
 def _is_ip(host: str) -> bool:
     try:
         ipaddress.ip_address(host)
@@ -461,6 +467,8 @@ def serve(*, host: str = "127.0.0.1", port: int = 8765, out_dir: str = "polisect
         threading.Thread(target=webbrowser.open, args=(url,), daemon=True).start()
     if ready:
         ready(server)
+    if threading.current_thread() is threading.main_thread():
+        signal.signal(signal.SIGTERM, _interrupt)  # stop as on Ctrl+C: children, temp files
     try:
         server.serve_forever()
     except KeyboardInterrupt:
