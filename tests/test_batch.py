@@ -240,7 +240,7 @@ def test_progress_bar_counts_failures_and_time_left():
 
 def test_one_batch_per_output_folder(folder, tmp_path):
     """A live batch's lock in the output folder refuses a second batch; a stale lock (its
-    process gone) is taken over."""
+    process gone) is taken over, and the temporary files of a killed run are removed."""
     root, cfg = folder
     out = tmp_path / "out"
     out.mkdir()
@@ -250,8 +250,13 @@ def test_one_batch_per_output_folder(folder, tmp_path):
     gone = subprocess.Popen([sys.executable, "-c", "pass"])
     gone.wait()
     (out / ".polisect-batch.lock").write_text(str(gone.pid))
-    r = run_batch(root, out, config=load_config(cfg), pattern="s0.tif", quiet=True)
+    (out / ".tmp-left-by-a-kill.json").write_text("{")
+    r = run_batch(root, out, config=load_config(cfg), pattern="s0.tif", group_by="(?P<batch>zz)",
+                  quiet=True)
     assert r.done == 2 and not (out / ".polisect-batch.lock").exists()
+    assert not (out / ".tmp-left-by-a-kill.json").exists()
+    assert any("temporary" in n for n in r.notes)
+    assert any("do not match --group-by" in n for n in r.notes)
 
 
 def test_cli_batch_and_bad_input(folder, tmp_path, capsys):

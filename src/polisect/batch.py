@@ -531,6 +531,9 @@ class BatchResult:
         Sum of the per-image times measured inside the workers (this run).
     manifest, summary_csv, failures_csv, index_html : str
         Paths written.
+    notes : tuple of str
+        What the user should know about this run (temporary files a killed run left, images
+        gone since the last run, names the --group-by regex does not match).
     """
 
     out: str
@@ -607,32 +610,21 @@ def run_batch(folder: str | os.PathLike, out: str | os.PathLike, *, config=None,
                          "(e.g. \"*.tif,*.png\") and the folder")
     os.makedirs(out, exist_ok=True)
     with _Lock(out):
-        _remove_stale_temporaries(out)
+        notes = []
+        removed = _remove_stale_temporaries(out)
+        if removed:
+            notes.append(f"removed {removed} temporary file(s) a killed run had left")
         previous = read_manifest(out) if resume else None
         old = (previous or {}).get("entries", {})
-        stems = _stems(rels)
-        tasks, entries, skipped = [], {}, 0
-        for rel in rels:
-            path = os.path.join(folder, *rel.split("/"))
-            st = os.stat(path)
-            prev = old.get(rel)
-            same_stat = (prev is not None and prev.get("size") == st.st_size
-                         and prev.get("mtime_ns") == st.st_mtime_ns)
-            sha = prev["sha256"] if same_stat else file_sha256(path)
-            group = grouping.group(path, folder)
-            if prev and prev.get("sha256") == sha and prev.get("config_sha256") == config_sha \
-                    and (prev.get("status") == "done" and _outputs_ok(out, prev["outputs"])
-                         or prev.get("status") == "failed" and prev.get("retry") is False):
-                entries[rel] = {**prev, "group": group}
-                skipped += 1
-                continue
-            sub = os.path.dirname(rel)
-            out_dir = os.path.join(out, SECTIONS_DIR, *sub.split("/")) if sub \
-                else os.path.join(out, SECTIONS_DIR)
-            tasks.append(Task(rel, path, group, sha, out_dir, stems[rel]))
-            entries[rel] = {"path": path, "group": group, "sha256": sha, "size": st.st_size,
-                            "mtime_ns": st.st_mtime_ns, "config_sha256": config_sha,
-                            "status": "pending", "reason": "", "outputs": {}}
+        tasks, entries, skipped = _plan(folder, out, rels, grouping, config_sha, old)
+        gone = sorted(set(old) - set(rels))
+        if gone:
+            notes.append(f"{len(gone)} image(s) of the previous run are no longer in the folder "
+                         "and left out of the tables")
+        unmatched = sum(e["group"] == UNMATCHED for e in entries.values())
+        if unmatched:
+            notes.append(f"{unmatched} image name(s) do not match --group-by {group_by!r}: "
+                         f"batch {UNMATCHED}")
         manifest = {"schema": MANIFEST_SCHEMA, "polisect_version": _version(),
                     "folder": folder, "pattern": pattern,
                     "group_by": group_by or "folder", "config_sha256": config_sha,
@@ -665,7 +657,36 @@ def run_batch(folder: str | os.PathLike, out: str | os.PathLike, *, config=None,
     counts = _counts(entries)
     return BatchResult(out, len(rels), counts["done"], counts["failed"], skipped,
                        time.perf_counter() - t_start, analysis_s,
-                       os.path.join(out, MANIFEST), *paths)
+                       os.path.join(out, MANIFEST), *paths, notes=tuple(notes))
+
+
+def _plan(folder: str, out: str, rels: list[str], grouping: Grouping, config_sha: str,
+          old: dict) -> tuple[list[Task], dict, int]:
+    """The tasks to run, the manifest entries and the number of images kept from before."""
+    stems = _stems(rels)
+    tasks, entries, skipped = [], {}, 0
+    for rel in rels:
+        path = os.path.join(folder, *rel.split("/"))
+        st = os.stat(path)
+        prev = old.get(rel)
+        same_stat = (prev is not None and prev.get("size") == st.st_size
+                     and prev.get("mtime_ns") == st.st_mtime_ns)
+        sha = prev["sha256"] if same_stat else file_sha256(path)
+        group = grouping.group(path, folder)
+        if prev and prev.get("sha256") == sha and prev.get("config_sha256") == config_sha \
+                and (prev.get("status") == "done" and _outputs_ok(out, prev["outputs"])
+                     or prev.get("status") == "failed" and prev.get("retry") is False):
+            entries[rel] = {**prev, "group": group}
+            skipped += 1
+            continue
+        sub = os.path.dirname(rel)
+        out_dir = os.path.join(out, SECTIONS_DIR, *sub.split("/")) if sub \
+            else os.path.join(out, SECTIONS_DIR)
+        tasks.append(Task(rel, path, group, sha, out_dir, stems[rel]))
+        entries[rel] = {"path": path, "group": group, "sha256": sha, "size": st.st_size,
+                        "mtime_ns": st.st_mtime_ns, "config_sha256": config_sha,
+                        "status": "pending", "reason": "", "outputs": {}}
+    return tasks, entries, skipped
 
 
 def _stems(rels: list[str]) -> dict[str, str]:

@@ -361,6 +361,8 @@ def _run_batch(args) -> int:
                   scheduler=args.scheduler, resume=args.resume, group_by=args.group_by,
                   pixel_size_um=args.pixel_size, windows=_window_options(args),
                   quiet=args.quiet)
+    for note in r.notes:
+        print(f"polisect: note: {note}", file=sys.stderr)
     if not args.quiet:
         print(f"{r.done} of {r.total} images done ({r.skipped} from before), {r.failed} "
               f"failed, {r.seconds:.1f} s\n  index:    {r.index_html}\n  summary:  "
