@@ -741,7 +741,7 @@
       S.pollTimer = setTimeout(() => poll(id, false), 400);
       return;
     }
-    if (!first || st.state !== "done" || $("result").hidden) refreshRuns();
+    refreshRuns();
     if (st.state === "done") {
       const box = $("step-result").getBoundingClientRect();
       const watching = box.top < window.innerHeight && box.bottom > 0;
