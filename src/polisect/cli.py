@@ -372,8 +372,8 @@ def _run_batch(args) -> int:
 
 def _add_compare(sub):
     p = sub.add_parser("compare", help="compare sections and batches",
-                       description="Statistics of the sections of each batch (mean, 95 %% "
-                       "interval, %%RA), Grubbs outliers, Welch's t-test / ANOVA between "
+                       description="Statistics of the sections of each batch (mean, 95 % "
+                       "interval, %RA), Grubbs outliers, Welch's t-test / ANOVA between "
                        "batches, heterogeneity against the window studies, as HTML and JSON.")
     p.add_argument("dirs", nargs="+", metavar="DIR", help="folders written by polisect batch "
                    "(or holding result JSON files)")
