@@ -38,6 +38,8 @@ def test_defaults():
     ({"phase": [{"label": 0, "material": "alumina", "poisson_ratio": 0.5}]}, "Poisson"),
     ({"phase": [{"label": 0, "material": "air"}, {"label": 0, "material": "alumina"}]},
      "share a label"),
+    ({"phase": [{"label": 0, "material": "alumina"}, {"label": 1, "material": "alumina"}]},
+     "share the name alumina"),
     ({"solve": {"method": "ffft"}}, "did you mean 'fft'"),
     ({"solve": {"properties": ["conductivity", "viscosity"]}}, "viscosity"),
     ({"image": {"kind": "palette"}, "phase": [{"label": 0, "material": "air"}]}, "color"),

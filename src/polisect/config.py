@@ -161,6 +161,11 @@ def config_from_dict(data: dict, *, source: str = "dict", raw: str = "") -> Conf
     labels = [p.label for p in phases]
     if len(set(labels)) != len(labels):
         raise InputError(f"two [[phase]] entries share a label ({labels}); give each its own")
+    names = [p.name for p in phases]
+    if len(set(names)) != len(names):
+        twice = sorted({n for n in names if names.count(n) > 1})
+        raise InputError(f"two [[phase]] entries share the name {', '.join(twice)}; give each "
+                         "phase its own name (e.g. name = \"alumina-fine\")")
     cfg = Config(phases=phases, source=source, raw=raw, **sections)
     _check(cfg)
     return cfg
