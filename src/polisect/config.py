@@ -161,11 +161,6 @@ def config_from_dict(data: dict, *, source: str = "dict", raw: str = "") -> Conf
     labels = [p.label for p in phases]
     if len(set(labels)) != len(labels):
         raise InputError(f"two [[phase]] entries share a label ({labels}); give each its own")
-    names = [p.name for p in phases]
-    if len(set(names)) != len(names):
-        twice = sorted({n for n in names if names.count(n) > 1})
-        raise InputError(f"two [[phase]] entries share the name {', '.join(twice)}; give each "
-                         "phase its own name (e.g. name = \"alumina-fine\")")
     cfg = Config(phases=phases, source=source, raw=raw, **sections)
     _check(cfg)
     return cfg
@@ -251,6 +246,11 @@ def _phase(entry, index):
 
 def _check(cfg: Config) -> None:
     im, seg, sol = cfg.image, cfg.segment, cfg.solve
+    names = [p.name for p in cfg.phases]
+    if len(set(names)) != len(names):
+        twice = sorted({n for n in names if names.count(n) > 1})
+        raise InputError(f"two [[phase]] entries share the name {', '.join(twice)}; give each "
+                         "phase its own name (e.g. name = \"alumina-fine\")")
     _choice(im.kind, KINDS, "[image] kind")
     if im.pixel_size_um is not None and not (im.pixel_size_um > 0):
         raise InputError(f"[image] pixel_size_um = {im.pixel_size_um} must be a positive number "
