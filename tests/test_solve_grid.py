@@ -40,10 +40,11 @@ def test_kernel_equals_gauss_point_assembly(shape, nc):
     cell = random_cell(shape, nc, seed=sum(shape) + nc)
     u = np.random.default_rng(1).normal(size=(nc,) + shape)
     out = np.empty_like(u)
-    FourierSolver(cell, 1e-6, 10).apply(u.ravel(), out.ravel())
+    energy = FourierSolver(cell, 1e-6, 10).apply(u.ravel(), out.ravel())
     A = assemble(cell.labels, element_matrices(cell.L)[0])
     Au = np.moveaxis((A @ np.moveaxis(u, 0, -1).ravel()).reshape(shape + (nc,)), -1, 0)
     assert np.allclose(out, Au, rtol=0, atol=1e-12 * np.abs(Au).max())
+    assert np.isclose(energy, np.sum(u * Au), rtol=1e-12)
 
 
 @pytest.mark.parametrize("shape,nc", CASES)

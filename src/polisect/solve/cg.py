@@ -17,7 +17,7 @@ import numpy as np
 
 from . import kernels
 
-Apply = Callable[[np.ndarray, np.ndarray], None]
+Apply = Callable[[np.ndarray, np.ndarray], float]
 
 
 @dataclass(frozen=True)
@@ -37,21 +37,19 @@ class CGInfo:
     converged: bool
 
 
-def pcg(apply_A: Apply, apply_M: Apply, b: np.ndarray, tol: float, maxiter: int,
-        mask: np.ndarray | None = None) -> tuple[np.ndarray, CGInfo]:
+def pcg(apply_A: Apply, apply_M: Apply, b: np.ndarray, tol: float,
+        maxiter: int) -> tuple[np.ndarray, CGInfo]:
     """Solve ``A x = b`` (A symmetric positive semi-definite, b in its range) from x = 0.
 
     Parameters
     ----------
-    apply_A, apply_M : callable ``(x, out) -> None``
-        Operator and preconditioner on flat float64 arrays, writing into *out*.
+    apply_A, apply_M : callable ``(x, out) -> float``
+        Operator and preconditioner on flat float64 arrays: write ``A x`` (``M⁻¹ x``) into
+        *out* and return ``x·out``, which the callers compute on the fly.
     b : (n,) ndarray
     tol : float
         Stop when ‖r‖₂ ≤ tol ‖b‖₂.
     maxiter : int
-    mask : (n,) ndarray, optional
-        0/1 weights applied to every preconditioned residual: entries that are 0 (nodes
-        that touch only zero-property pixels) stay 0 in the solution.
 
     Returns
     -------
@@ -65,15 +63,13 @@ def pcg(apply_A: Apply, apply_M: Apply, b: np.ndarray, tol: float, maxiter: int,
     r = b.copy()
     z = np.empty_like(b)
     ap = np.empty_like(b)
-    apply_M(r, z)
-    rz = kernels.masked_dot(z, r, mask) if mask is not None else kernels.dot(r, z)
+    rz = apply_M(r, z)
     p = z.copy()
     history = [1.0]
     converged = False
     iterations = 0
     while iterations < maxiter:
-        apply_A(p, ap)
-        pap = kernels.dot(p, ap)
+        pap = apply_A(p, ap)
         if pap <= 0.0:
             break
         alpha = rz / pap
@@ -83,8 +79,7 @@ def pcg(apply_A: Apply, apply_M: Apply, b: np.ndarray, tol: float, maxiter: int,
         if history[-1] <= tol:
             converged = True
             break
-        apply_M(r, z)
-        rz_new = kernels.masked_dot(z, r, mask) if mask is not None else kernels.dot(r, z)
+        rz_new = apply_M(r, z)
         kernels.new_direction(p, z, rz_new / rz)
         rz = rz_new
     return x, CGInfo(iterations, np.asarray(history), converged)

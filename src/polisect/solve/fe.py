@@ -170,11 +170,13 @@ class AMGSolver:
             smooth=("jacobi", {"weighting": "local"}))
         self._M = self.hierarchy.aspreconditioner(cycle="V")
 
-    def apply(self, x: np.ndarray, out: np.ndarray) -> None:
+    def apply(self, x: np.ndarray, out: np.ndarray) -> float:
         out[:] = self.A @ x
+        return float(x @ out)
 
-    def precondition(self, r: np.ndarray, out: np.ndarray) -> None:
+    def precondition(self, r: np.ndarray, out: np.ndarray) -> float:
         out[:] = self._M.matvec(r)
+        return float(r @ out)
 
     def load_vector(self, load: Load) -> np.ndarray:
         """Assembled right-hand side ``−Σ_e B̄ᵀ σ₀`` (full dof numbering)."""

@@ -96,30 +96,30 @@ class FourierSolver:
         self.kinv = inverse_symbol(grid.reference_symbol(L0, cell.shape))
         self._kinv_flat = self.kinv.reshape(cell.ncomp, cell.ncomp, -1)
         self._kernel = kernels.apply_2d if cell.dim == 2 else kernels.apply_3d
-        active = grid.active_nodes(cell.solid)
-        self.mask = None if active.all() else np.broadcast_to(
-            active, (cell.ncomp,) + cell.shape).astype(np.float64).ravel()
+        self.mask = grid.active_nodes(cell.solid).astype(np.float64).ravel()
 
-    def apply(self, x: np.ndarray, out: np.ndarray) -> None:
-        """``out = A x`` on flat arrays of length nc·N."""
+    def apply(self, x: np.ndarray, out: np.ndarray) -> float:
+        """``out = A x`` on flat arrays of length nc·N; returns ``x·Ax``."""
         shape = (self.cell.ncomp,) + self.cell.shape
-        self._kernel(x.reshape(shape), self.labels, self.table, self.cid, self.rows, self.cols,
-                     out.reshape(shape))
+        return self._kernel(x.reshape(shape), self.labels, self.table, self.cid, self.rows,
+                            self.cols, out.reshape(shape))
 
-    def precondition(self, r: np.ndarray, out: np.ndarray) -> None:
-        """``out = K0⁻¹ r`` through the Fourier transform (all components in one call)."""
+    def precondition(self, r: np.ndarray, out: np.ndarray) -> float:
+        """``out = K0⁻¹ r`` through the Fourier transform (all components in one call),
+        zero at floating nodes; returns ``r·out``."""
         nc, shape = self.cell.ncomp, self.cell.shape
         axes = tuple(range(1, len(shape) + 1))
         spectrum = scipy.fft.rfftn(r.reshape((nc,) + shape), axes=axes, workers=WORKERS)
         kernels.fourier_multiply(spectrum.reshape(nc, -1), self._kinv_flat)
-        out.reshape((nc,) + shape)[...] = scipy.fft.irfftn(spectrum, s=shape, axes=axes,
-                                                            workers=WORKERS, overwrite_x=True)
+        z = scipy.fft.irfftn(spectrum, s=shape, axes=axes, workers=WORKERS, overwrite_x=True)
+        return kernels.store_dot(z.reshape(nc, -1), out.reshape(nc, -1), r.reshape(nc, -1),
+                                 self.mask)
 
     def solve(self, load: Load, fields: bool = False) -> Solution:
         """Solve one load case."""
         cell = self.cell
         b = grid.load_vector(self.labels, load.sigma0(cell)).ravel()
-        x, info = pcg(self.apply, self.precondition, b, self.tol, self.maxiter, self.mask)
+        x, info = pcg(self.apply, self.precondition, b, self.tol, self.maxiter)
         g = grid.centre_gradient(x.reshape((cell.ncomp,) + cell.shape), load.E)
         return Solution(grid.phase_means(self.labels, g, cell.n_phases), info.iterations,
                         info.residuals, info.converged, g if fields else None)

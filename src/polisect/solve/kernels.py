@@ -44,6 +44,8 @@ def _sum_diff_transpose(rs, rd, out, n):
 
 @nb.njit(inline="always", **_OPTS)
 def _terms(q, r, cl, rows, cols, cid, n):
+    """``r = M q`` on a pixel line; returns the line's energy ``qᵀ M q`` (row 0 of each
+    component, the all-sums quantity, has no term, so r is zero there)."""
     for t in range(r.shape[0]):
         r[t, :] = 0.0
     for t in range(rows.shape[0]):
@@ -52,6 +54,13 @@ def _terms(q, r, cl, rows, cols, cid, n):
         cc = cl[cid[t]]
         for k in range(n):
             rr[k] += cc[k] * qq[k]
+    energy = 0.0
+    for t in range(r.shape[0]):
+        rr = r[t]
+        qq = q[t]
+        for k in range(n):
+            energy += rr[k] * qq[k]
+    return energy
 
 
 @nb.njit(inline="always", **_OPTS)
@@ -66,10 +75,11 @@ def _colour(colour, n0):
 
 @nb.njit(parallel=True, **_OPTS)
 def apply_2d(u, labels, table, cid, rows, cols, out):
-    """``out = A u`` on a 2D grid; *u*, *out* have shape (nc, n0, n1)."""
+    """``out = A u`` on a 2D grid; *u*, *out* have shape (nc, n0, n1). Returns ``uᵀAu``."""
     nc, n0, n1 = u.shape
     ncoef = table.shape[0]
     out[:] = 0.0
+    energy = 0.0
     for colour in range(3):
         start, count = _colour(colour, n0)
         for ii in nb.prange(count):
@@ -91,7 +101,7 @@ def apply_2d(u, labels, table, cid, rows, cols, out):
                     line[1, k] = u1[k] - u0[k]
                 _sum_diff(line[0], q[4 * a], q[4 * a + 1], n1)
                 _sum_diff(line[1], q[4 * a + 2], q[4 * a + 3], n1)
-            _terms(q, r, cl, rows, cols, cid, n1)
+            energy += _terms(q, r, cl, rows, cols, cid, n1)
             for a in range(nc):
                 r[4 * a, :] = 0.0
                 _sum_diff_transpose(r[4 * a], r[4 * a + 1], line[0], n1)
@@ -101,14 +111,16 @@ def apply_2d(u, labels, table, cid, rows, cols, out):
                 for k in range(n1):
                     o0[k] += line[0, k] - line[1, k]
                     o1[k] += line[0, k] + line[1, k]
+    return energy
 
 
 @nb.njit(parallel=True, **_OPTS)
 def apply_3d(u, labels, table, cid, rows, cols, out):
-    """``out = A u`` on a 3D grid; *u*, *out* have shape (nc, n0, n1, n2)."""
+    """``out = A u`` on a 3D grid; *u*, *out* have shape (nc, n0, n1, n2). Returns ``uᵀAu``."""
     nc, n0, n1, n2 = u.shape
     ncoef = table.shape[0]
     out[:] = 0.0
+    energy = 0.0
     for colour in range(3):
         start, count = _colour(colour, n0)
         for ii in nb.prange(count):
@@ -140,7 +152,7 @@ def apply_3d(u, labels, table, cid, rows, cols, out):
                         xy[3, k] = d1 - d0
                     for b in range(4):
                         _sum_diff(xy[b], q[8 * a + 2 * b], q[8 * a + 2 * b + 1], n2)
-                _terms(q, r, cl, rows, cols, cid, n2)
+                energy += _terms(q, r, cl, rows, cols, cid, n2)
                 for a in range(nc):
                     r[8 * a, :] = 0.0
                     for b in range(4):
@@ -158,6 +170,7 @@ def apply_3d(u, labels, table, cid, rows, cols, out):
                         o10[k] += s0 + d0
                         o01[k] += s1 - d1
                         o11[k] += s1 + d1
+    return energy
 
 
 @nb.njit(parallel=True, **_OPTS)
@@ -208,13 +221,17 @@ def step(x, r, p, ap, alpha):
 
 
 @nb.njit(parallel=True, **_OPTS)
-def masked_dot(z, r, mask):
-    """``z ← z·mask`` (drops floating nodes); returns ``Σ r·z``."""
+def store_dot(source, out, r, mask):
+    """``out ← source·mask`` (per node, for every component; the mask drops floating
+    nodes) and returns ``Σ r·out``. Arrays are (nc, N), *mask* (N,)."""
+    nc, n = out.shape
     s = 0.0
-    for i in nb.prange(z.shape[0]):
-        zi = z[i] * mask[i]
-        z[i] = zi
-        s += r[i] * zi
+    for i in nb.prange(n):
+        m = mask[i]
+        for a in range(nc):
+            v = source[a, i] * m
+            out[a, i] = v
+            s += r[a, i] * v
     return s
 
 
