@@ -305,3 +305,91 @@ def test_estimate_bad_input(section_stats):
     marked = PhaseMap(lab, tuple(Phase(p.label, p.name, p.material, True) for p in pm.phases))
     with pytest.raises(InputError, match="matrix"):
         estimate_3d(marked)
+
+
+def test_plan_with_a_given_voxel_size(section_stats):
+    """A given voxel size is used as it is; the rules it breaks are named, and a box too small
+    for the largest sphere is refused."""
+    _, s = section_stats
+    p = plan_volume(s, voxels=64, voxel_size=0.5)
+    assert p.voxel_size == 0.5 and p.box == 32.0
+    assert p.compromise is None or "with the voxel size given" in p.compromise
+    coarse = plan_volume(s, voxels=40, voxel_size=2.0)
+    assert "D10 spans only" in coarse.compromise
+    with pytest.raises(InputError, match="cannot hold the largest sphere"):
+        plan_volume(s, voxels=16, voxel_size=0.5)
+
+
+def _validation(shape, scale, properties, voxels, realizations, seed=7, tol=1e-5):
+    """A known 3D structure (synth: SiC particles, hollow alumina spheres with pore cores and
+    free pores, total 0.35, in mullite), one section through its middle, the 3D estimate from
+    that section alone at the section's pixel size, the original volume's own 3D properties,
+    and the 2D section solved as a prismatic structure."""
+    from polisect.effective import solve_effective
+    from polisect.solve import conductivity, elasticity, expansion
+
+    mats = {MATRIX: get_material("mullite"), SOLID: get_material("silicon-carbide"),
+            SHELL: get_material("alumina"), PORE: get_material("air")}
+    original = compose(shape, [Inclusions(SOLID, 0.17, 4.5 * scale, 0.9 * scale),
+                               Inclusions(SHELL, 0.13, 5.5 * scale, 1.0 * scale,
+                                          hollow_ratio=0.5, core_label=PORE),
+                               Inclusions(PORE, 0.05, 2.5 * scale, 0.5 * scale)],
+                       seed=seed, matrix_label=MATRIX).labels
+    pm = PhaseMap(original[shape[0] // 2], tuple(Phase(v, m.name, m) for v, m in mats.items()),
+                  1.0)
+    two_d = solve_effective(pm, properties, tol=1e-6, maps=False).block
+    est = estimate_3d(pm, properties, voxels=voxels, realizations=realizations, tol=tol,
+                      voxel_size=1.0, effective_2d=two_d)
+    volume = np.ascontiguousarray(original.T)
+    truth, e3 = {}, est.to_dict()
+    if "conductivity" in properties:
+        truth["mean_W_mK"] = conductivity(volume, mats, tol=tol).mean()
+    if "elasticity" in properties or "expansion" in properties:
+        stiff = elasticity(volume, mats, tol=tol)
+        iso = stiff.isotropic()
+        if "elasticity" in properties:
+            truth.update(youngs_modulus_GPa=iso.youngs_modulus,
+                         shear_modulus_GPa=iso.shear_modulus, bulk_modulus_GPa=iso.bulk_modulus)
+        if "expansion" in properties:
+            truth["mean_per_K"] = expansion(volume, mats, tol=tol, stiffness=stiff).mean()
+    rows = []
+    for prop, key in (("conductivity", "mean_W_mK"), ("elasticity", "youngs_modulus_GPa"),
+                      ("elasticity", "shear_modulus_GPa"), ("elasticity", "bulk_modulus_GPa"),
+                      ("expansion", "mean_per_K")):
+        if key in truth:
+            block = e3[prop]
+            rows.append((key, truth[key], block[key], block[key + "_ci95"],
+                         (two_d[prop] or {}).get(key)))
+    print(f"\n3D estimate from one {shape[1]}×{shape[2]} section of a {shape} volume "
+          f"({realizations} reconstructions of {voxels}³):")
+    for key, t, v, ci, v2 in rows:
+        print(f"  {key:<20} original {t:.5g}  3D estimate {v:.5g} ({100 * (v - t) / t:+.2f} %, "
+              f"95 % {ci[0]:.5g}–{ci[1]:.5g})  2D section {v2 if v2 is None else f'{v2:.5g}'}"
+              + ("" if v2 is None else f" ({100 * (v2 - t) / t:+.2f} %)"))
+    return {key: (t, v) for key, t, v, _, _ in rows}
+
+
+def test_3d_estimate_from_a_section_small():
+    """Fast variant of the validation below, conductivity only, on a 160² section with
+    coarser particles: within 6 % (the fraction of a phase in one section this small deviates
+    from the volume's by several per cent; the field-to-field scatter of ASTM E562 is of that
+    order)."""
+    out = _validation((24, 160, 160), 0.6, ["conductivity"], voxels=64, realizations=2,
+                      tol=1e-4)
+    t, v = out["mean_W_mK"]
+    assert v == pytest.approx(t, rel=0.06)
+
+
+@pytest.mark.slow
+def test_3d_estimate_from_a_section_matches_the_volume():
+    """A known 3D structure, one 400² section of it, the 3D estimate from that section alone
+    (3 reconstructions, at the section's pixel size so that both carry the same voxel
+    discretization): conductivity and expansion within 3 %, stiffness (E, G, K) within 5 %
+    of the original volume's (the issue's acceptance limits; common practice, no source).
+    The 2D section values are printed beside, for contrast."""
+    out = _validation((40, 400, 400), 1.0, ["conductivity", "elasticity", "expansion"],
+                      voxels=112, realizations=3)
+    for key, rel in (("mean_W_mK", 0.03), ("mean_per_K", 0.03), ("youngs_modulus_GPa", 0.05),
+                     ("shear_modulus_GPa", 0.05), ("bulk_modulus_GPa", 0.05)):
+        t, v = out[key]
+        assert v == pytest.approx(t, rel=rel), key

@@ -228,6 +228,31 @@ def _free_indexed(cand, r, tree, indexed, centres, radii, box, gap) -> np.ndarra
     return ok
 
 
+def _close_pairs(x: np.ndarray, radii: np.ndarray, margin: float, box: float):
+    """Index pairs (i < j, each once) whose centres may be closer than
+    radii_i + radii_j + margin.
+
+    The spheres are binned by radius (a factor of 2 per bin) and every pair of bins is
+    searched with the largest radii of the two bins, so that small spheres are not
+    searched with the reach of the largest ones.
+    """
+    level = np.floor(np.log2(radii / radii.min())).astype(int)
+    bins = [np.flatnonzero(level == k) for k in np.unique(level)]
+    trees = [cKDTree(x[b], boxsize=box) for b in bins]
+    out_i, out_j = [], []
+    for a, (ba, ta) in enumerate(zip(bins, trees)):
+        same = ta.query_pairs(2 * radii[ba].max() + margin, output_type="ndarray")
+        out_i.append(ba[same[:, 0]])
+        out_j.append(ba[same[:, 1]])
+        for bb, tb in zip(bins[a + 1:], trees[a + 1:]):
+            m = ta.sparse_distance_matrix(tb, radii[ba].max() + radii[bb].max() + margin,
+                                          output_type="ndarray")
+            out_i.append(ba[m["i"]])
+            out_j.append(bb[m["j"]])
+    i, j = np.concatenate(out_i), np.concatenate(out_j)
+    return np.minimum(i, j), np.maximum(i, j)
+
+
 def collective_pack(radii, box: float, *, seed, gap: float = 0.0, inflate: float = 0.005,
                     max_iter: int = 20_000) -> SpherePacking:
     """Overlap-free packing by collective rearrangement: minimise a harmonic overlap energy.
@@ -303,9 +328,7 @@ def collective_pack(radii, box: float, *, seed, gap: float = 0.0, inflate: float
     state = {"ref": None, "i": None, "j": None, "sigma": None}
 
     def neighbours(x):
-        tree = cKDTree(np.mod(x, box), boxsize=box)
-        pairs = tree.query_pairs(2 * contact.max() + gap + skin, output_type="ndarray")
-        i, j = pairs[:, 0], pairs[:, 1]
+        i, j = _close_pairs(np.mod(x, box), contact, gap + skin, box)
         sigma = contact[i] + contact[j] + gap
         d = _separation(x[i], x[j], box)
         keep = (d * d).sum(1) < (sigma + skin) ** 2

@@ -248,7 +248,7 @@ def section_statistics(labels: np.ndarray, pixel_size_um: float | None = None, *
     holes = {p: _holes(plab) for p, plab in particles.items()}
     for q in others:
         _add_open_cores(labels == q, particles, holes, q)
-    warnings = []
+    warnings: list[str] = []
     families = []
     for p in others:
         foreign = np.zeros(labels.shape, bool)
@@ -257,50 +257,56 @@ def section_statistics(labels: np.ndarray, pixel_size_um: float | None = None, *
                 foreign |= holes[q]
         plab = particles[p]
         plab[foreign] = 0
-        plab = relabel_sequential(plab)[0]
-        name = names.get(p, f"label {p}")
-        if plab.max() == 0:
-            continue
-        table = measure_particles(plab, pixel_size_um)
-        used = table.weight > 0
-        if not used.any():
-            free = np.count_nonzero(plab) / labels.size
-            if free < MIN_UNMEASURED:
-                continue
-            raise InputError(f"phase {name}: every region of it touches the image border, so "
-                             "no particle size can be measured; the phase is interconnected "
-                             "or its particles are as large as the image — spheres cannot "
-                             "stand for it (use a larger image, or a real volume)")
-        dist = saltykov(table.ecd, table.weight, table.window_area, n_classes=N_CLASSES,
-                        ratio=CLASS_RATIO, units=table.units)
-        keep = dist.number_density > 0
-        shell = np.count_nonzero(plab) / labels.size
-        core = np.count_nonzero(holes[p] & ~foreign) / labels.size
-        share, ratio, core_label = _hollow(table, shell, core, labels[holes[p] & ~foreign])
-        wa = table.weight[used] * table.area_filled[used]
-        aspect = float(wa @ table.aspect_ratio[used] / wa.sum())
-        solidity = float(wa @ table.solidity[used] / wa.sum())
-        if solidity < MIN_SOLIDITY:
-            warnings.append(f"phase {name}: irregular, non-convex sections (mean solidity "
-                            f"{solidity:.2f}); it may be interconnected — spheres misrepresent "
-                            "it and a real volume (a voxel stack) is needed")
-        if aspect > MAX_ASPECT:
-            warnings.append(f"phase {name}: elongated sections (mean aspect ratio "
-                            f"{aspect:.2f}); spheres misrepresent elongated particles")
-        if _spans(plab):
-            warnings.append(f"phase {name}: a single region crosses the whole section; the "
-                            "phase looks interconnected and spheres misrepresent it — a real "
-                            "volume (a voxel stack) is needed")
-        families.append(FamilyStatistics(
-            label=int(p), fraction=shell + core,
-            diameters=dist.diameters[keep], weights=dist.number_density[keep],
-            sections=int(used.sum()), hollow_share=share, hollow_ratio=ratio,
-            core_label=core_label, aspect_ratio=aspect, solidity=solidity))
+        fam = _family(labels, int(p), relabel_sequential(plab)[0], holes[p] & ~foreign,
+                      pixel_size_um, names.get(p, f"label {p}"), warnings)
+        if fam is not None:
+            families.append(fam)
     families.sort(key=lambda f: -f.fraction)
     if not families:
         raise InputError("no particles found outside the matrix; nothing to reconstruct")
     return SectionStatistics(int(matrix_label), tuple(families), fractions,
                              "um" if pixel_size_um else "px", tuple(warnings))
+
+
+def _family(labels, p, plab, holes, pixel_size_um, name, warnings) -> FamilyStatistics | None:
+    """One phase's sphere family from its particles *plab* and their cores *holes* (see
+    `section_statistics`); None when it has no particles of its own (only cores, or a few
+    open cores at the border). Appends the reasons spheres misrepresent it to *warnings*."""
+    if plab.max() == 0:
+        return None
+    table = measure_particles(plab, pixel_size_um)
+    used = table.weight > 0
+    shell = np.count_nonzero(plab) / labels.size
+    if not used.any():
+        if shell < MIN_UNMEASURED:
+            return None
+        raise InputError(f"phase {name}: every region of it touches the image border, so "
+                         "no particle size can be measured; the phase is interconnected "
+                         "or its particles are as large as the image — spheres cannot "
+                         "stand for it (use a larger image, or a real volume)")
+    dist = saltykov(table.ecd, table.weight, table.window_area, n_classes=N_CLASSES,
+                    ratio=CLASS_RATIO, units=table.units)
+    keep = dist.number_density > 0
+    core = np.count_nonzero(holes) / labels.size
+    share, ratio, core_label = _hollow(table, shell, core, labels[holes])
+    wa = table.weight[used] * table.area_filled[used]
+    aspect = float(wa @ table.aspect_ratio[used] / wa.sum())
+    solidity = float(wa @ table.solidity[used] / wa.sum())
+    if solidity < MIN_SOLIDITY:
+        warnings.append(f"phase {name}: irregular, non-convex sections (mean solidity "
+                        f"{solidity:.2f}); it may be interconnected — spheres misrepresent "
+                        "it and a real volume (a voxel stack) is needed")
+    if aspect > MAX_ASPECT:
+        warnings.append(f"phase {name}: elongated sections (mean aspect ratio "
+                        f"{aspect:.2f}); spheres misrepresent elongated particles")
+    if _spans(plab):
+        warnings.append(f"phase {name}: a single region crosses the whole section; the "
+                        "phase looks interconnected and spheres misrepresent it — a real "
+                        "volume (a voxel stack) is needed")
+    return FamilyStatistics(label=p, fraction=shell + core, diameters=dist.diameters[keep],
+                            weights=dist.number_density[keep], sections=int(used.sum()),
+                            hollow_share=share, hollow_ratio=ratio, core_label=core_label,
+                            aspect_ratio=aspect, solidity=solidity)
 
 
 def _phase_particles(mask: np.ndarray) -> np.ndarray:
@@ -400,7 +406,8 @@ class VolumePlan:
                 "compromise": self.compromise}
 
 
-def plan_volume(stats: SectionStatistics, voxels: int = 160) -> VolumePlan:
+def plan_volume(stats: SectionStatistics, voxels: int = 160,
+                voxel_size: float | None = None) -> VolumePlan:
     """Choose the voxel size and box of the reconstructed cube within a voxel budget.
 
     The rules: the volume-weighted D10 sphere spans at least `MIN_D10_VOXELS` voxels and
@@ -418,10 +425,20 @@ def plan_volume(stats: SectionStatistics, voxels: int = 160) -> VolumePlan:
     stats : SectionStatistics
     voxels : int
         Voxels per edge of the cube (budget voxels³).
+    voxel_size : float, optional
+        Use this voxel edge (``stats.units``) instead of the rule's, e.g. the section's
+        pixel size, so that the reconstruction has the discretization of the section;
+        `VolumePlan.compromise` names any rule it breaks.
 
     Returns
     -------
     VolumePlan
+
+    Raises
+    ------
+    InputError
+        For a budget below 16 voxels per edge, or a given voxel size whose box cannot hold
+        the largest sphere.
 
     Examples
     --------
@@ -439,6 +456,8 @@ def plan_volume(stats: SectionStatistics, voxels: int = 160) -> VolumePlan:
     box_min = max(MIN_BOX_D90 * d90, 2.2 * d_max)
     need = MIN_D10_VOXELS * box_min / d10
     u = stats.units
+    if voxel_size is not None:
+        return _given_voxel_size(int(voxels), float(voxel_size), d10, d90, d_max, box_min, u)
     if need <= voxels:
         h = d10 / MIN_D10_VOXELS / math.sqrt(voxels / need)
         return VolumePlan(int(voxels), h, d10, d90, d_max, u)
@@ -450,6 +469,22 @@ def plan_volume(stats: SectionStatistics, voxels: int = 160) -> VolumePlan:
             f"spheres are coarsely resolved; --voxels {int(math.ceil(need))} would meet both "
             "rules")
     return VolumePlan(int(voxels), h, d10, d90, d_max, u, text)
+
+
+def _given_voxel_size(n, h, d10, d90, d_max, box_min, u) -> VolumePlan:
+    if not h > 0:
+        raise InputError(f"voxel size {h} {u} must be positive")
+    if n * h <= 2.2 * d_max:
+        raise InputError(f"a box of {n} voxels of {h:.3g} {u} ({n * h:.3g} {u}) cannot hold the "
+                         f"largest sphere ({d_max:.3g} {u}) clear of its periodic images; give "
+                         f"at least {int(math.ceil(2.2 * d_max / h)) + 1} voxels")
+    broken = []
+    if d10 / h < MIN_D10_VOXELS:
+        broken.append(f"D10 spans only {d10 / h:.1f} voxels (rule: {MIN_D10_VOXELS:g})")
+    if n * h < box_min:
+        broken.append(f"the box is only {n * h / d90:.1f} D90 (rule: {MIN_BOX_D90:g})")
+    text = ("with the voxel size given, " + " and ".join(broken)) if broken else None
+    return VolumePlan(n, h, d10, d90, d_max, u, text)
 
 
 @dataclass(frozen=True, eq=False)
@@ -777,7 +812,7 @@ def _matrix_of(phasemap: PhaseMap) -> int:
 def estimate_3d(phasemap: PhaseMap, properties=PROPERTIES, *, voxels: int = 160,
                 realizations: int = 3, seed: int = 0, tol: float = 1e-6,
                 method: str = "auto", effective_2d: dict | None = None,
-                progress=None) -> Estimate3D:
+                voxel_size: float | None = None, progress=None) -> Estimate3D:
     """Estimate a section's 3D effective properties from reconstructed sphere packings.
 
     `section_statistics` → `plan_volume` → *realizations* × (`reconstruct` → 3D solves
@@ -800,6 +835,9 @@ def estimate_3d(phasemap: PhaseMap, properties=PROPERTIES, *, voxels: int = 160,
         Passed to the solvers.
     effective_2d : dict, optional
         The ``effective`` block of the 2D section, to compare with.
+    voxel_size : float, optional
+        Voxel edge of the reconstructions (µm, or pixels when the pixel size is unknown)
+        instead of the resolution rule's (`plan_volume`); e.g. the section's pixel size.
     progress : callable, optional
         Called with a stage description.
 
@@ -835,7 +873,7 @@ def estimate_3d(phasemap: PhaseMap, properties=PROPERTIES, *, voxels: int = 160,
     stats = section_statistics(phasemap.labels, phasemap.voxel_size_um,
                                matrix_label=_matrix_of(phasemap),
                                names={p.label: p.name for p in phasemap.phases})
-    plan = plan_volume(stats, voxels)
+    plan = plan_volume(stats, voxels, voxel_size)
     warnings = list(stats.warnings) + ([plan.compromise] if plan.compromise else [])
     if realizations < 2:
         warnings.append("a single realization gives no interval; use 3 or more")
