@@ -363,7 +363,7 @@ class ProgressBar:
             rate = finished / elapsed
             left = (todo - finished) / rate if rate > 0 else math.inf
             parts.append(f"{rate:.2g} img/s")
-            parts.append(f"{_clock(left)} left" if finished < todo else f"{_clock(elapsed)}")
+            parts.append(f"{_clock(left)} left" if finished < todo else f"took {_clock(elapsed)}")
         return " · ".join(parts)
 
     def draw(self, final: bool = False) -> None:
