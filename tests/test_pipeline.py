@@ -121,3 +121,18 @@ def test_estimate_3d_block(hollow_section):
     assert e3["versus_2d"][0]["section_2d"] == pytest.approx(
         d["effective"]["conductivity"]["mean_W_mK"])
     assert "estimate_3d" in d["timings_s"]
+
+
+def test_estimate_3d_that_cannot_be_built_leaves_a_warning():
+    """A section whose particle phase crosses the whole image (layers) has no sphere sizes:
+    the 2D results stand and a warning says why there is no 3D estimate."""
+    from polisect.synth import laminate
+
+    layers = laminate((64, 64), 0.3, periods=4)
+    cfg = config_from_dict({**CONFIG, "phase": CONFIG["phase"][:2],
+                            "solve": {"properties": ["conductivity"], "estimate_3d": True,
+                                      "voxels": 16, "realizations": 1}})
+    d = analyze(layers, cfg).result.to_dict()
+    assert d["effective_3d"] is None and d["effective"]["conductivity"] is not None
+    assert any(w.startswith("3D estimate not built") and "interconnected" in w
+               for w in d["warnings"])

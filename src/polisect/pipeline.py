@@ -148,10 +148,14 @@ def _effective_3d(phasemap: PhaseMap, cfg: Config, effective, say: Progress, war
         return None
     from .reconstruct import estimate_3d
 
-    est = estimate_3d(phasemap, cfg.solve.properties, voxels=cfg.solve.voxels,
-                      realizations=cfg.solve.realizations, tol=cfg.solve.tolerance,
-                      method=cfg.solve.method,
-                      effective_2d=effective.block if effective else None, progress=say)
+    try:
+        est = estimate_3d(phasemap, cfg.solve.properties, voxels=cfg.solve.voxels,
+                          realizations=cfg.solve.realizations, tol=cfg.solve.tolerance,
+                          method=cfg.solve.method,
+                          effective_2d=effective.block if effective else None, progress=say)
+    except InputError as exc:
+        warnings.append(f"3D estimate not built: {exc}")
+        return None
     warnings.extend(f"3D estimate: {w}" for w in est.warnings)
     return est.to_dict()
 

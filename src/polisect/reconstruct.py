@@ -672,9 +672,7 @@ class Comparison:
     sentence: str
 
     def to_dict(self) -> dict:
-        return {"quantity": self.quantity, "section_2d": self.section_2d,
-                "estimate_3d": self.estimate_3d, "difference_pct": self.difference_pct,
-                "sentence": self.sentence}
+        return dataclasses.asdict(self)
 
 
 #: (property, key in the effective block, words) of the scalars compared with 2D.
@@ -726,6 +724,9 @@ class Estimate3D:
     def _mean_tensor(self, prop: str, attr: str) -> list:
         return np.mean([getattr(getattr(r, prop), attr) for r in self.realizations], axis=0)
 
+    def _anisotropy(self, prop: str) -> float:
+        return float(np.mean([getattr(r, prop).anisotropy() for r in self.realizations]))
+
     def _solver(self, prop: str) -> dict:
         facts = [getattr(r, prop).facts for r in self.realizations]
         return {"method": facts[0].method, "iterations": sum(f.iterations for f in facts),
@@ -763,8 +764,7 @@ class Estimate3D:
             out["conductivity"] = {
                 "tensor_W_mK": self._mean_tensor("conductivity", "tensor"),
                 **_spread_keys("mean_W_mK", self.conductivity),
-                "anisotropy": float(np.mean([r.conductivity.anisotropy()
-                                             for r in self.realizations])),
+                "anisotropy": self._anisotropy("conductivity"),
                 "solver": self._solver("conductivity")}
         if self.youngs_modulus is not None:
             out["elasticity"] = {
@@ -773,15 +773,13 @@ class Estimate3D:
                 **_spread_keys("poisson_ratio", self.poisson_ratio),
                 **_spread_keys("bulk_modulus_GPa", self.bulk_modulus),
                 **_spread_keys("shear_modulus_GPa", self.shear_modulus),
-                "anisotropy": float(np.mean([r.elasticity.anisotropy()
-                                             for r in self.realizations])),
+                "anisotropy": self._anisotropy("elasticity"),
                 "plane": None, "solver": self._solver("elasticity")}
         if self.expansion is not None:
             out["expansion"] = {
                 "tensor_per_K": self._mean_tensor("expansion", "tensor"),
                 **_spread_keys("mean_per_K", self.expansion), "axial_per_K": None,
-                "anisotropy": float(np.mean([r.expansion.anisotropy()
-                                             for r in self.realizations])),
+                "anisotropy": self._anisotropy("expansion"),
                 "solver": self._solver("expansion")}
         return out
 
