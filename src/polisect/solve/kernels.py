@@ -116,12 +116,7 @@ def apply_2d(u, labels, table, cid, rows, cols, out):
 
 @nb.njit(parallel=True, **_OPTS)
 def apply_3d(u, labels, table, cid, rows, cols, out):
-    """``out = A u`` on a 3D grid; *u*, *out* have shape (nc, n0, n1, n2). Returns ``uᵀAu``.
-
-    Along axis 1 the axis-0 sums/differences of node line j+1 are kept for the next pixel
-    line, and the contributions to node lines j+1 are carried in buffers, so each output
-    node line is updated once per pixel plane (half the memory traffic of four updates).
-    """
+    """``out = A u`` on a 3D grid; *u*, *out* have shape (nc, n0, n1, n2). Returns ``uᵀAu``."""
     nc, n0, n1, n2 = u.shape
     ncoef = table.shape[0]
     out[:] = 0.0
@@ -135,17 +130,6 @@ def apply_3d(u, labels, table, cid, rows, cols, out):
             q = np.empty((nc * 8, n2))
             r = np.empty((nc * 8, n2))
             cl = np.empty((ncoef, n2))
-            sd = np.empty((nc, 2, 2, n2))      # [a, node line j / j+1, sum / difference]
-            first_sd = np.empty((nc, 2, n2))
-            carry = np.empty((nc, 2, n2))      # contributions to node lines (i, j), (i1, j)
-            first = np.empty((nc, 2, n2))
-            for a in range(nc):
-                u0 = u[a, i, 0]
-                u1 = u[a, i1, 0]
-                for k in range(n2):
-                    first_sd[a, 0, k] = u0[k] + u1[k]
-                    first_sd[a, 1, k] = u1[k] - u0[k]
-                sd[a, 0] = first_sd[a]
             for j in range(n1):
                 j1 = j + 1 if j + 1 < n1 else 0
                 for k in range(n2):
@@ -153,61 +137,39 @@ def apply_3d(u, labels, table, cid, rows, cols, out):
                     for c in range(ncoef):
                         cl[c, k] = table[c, p]
                 for a in range(nc):
-                    sum_j = sd[a, 0, 0]
-                    dif_j = sd[a, 0, 1]
-                    sum_j1 = sd[a, 1, 0]
-                    dif_j1 = sd[a, 1, 1]
-                    if j1 == 0:
-                        sum_j1[:] = first_sd[a, 0]
-                        dif_j1[:] = first_sd[a, 1]
-                    else:
-                        u0 = u[a, i, j1]
-                        u1 = u[a, i1, j1]
-                        for k in range(n2):
-                            sum_j1[k] = u0[k] + u1[k]
-                            dif_j1[k] = u1[k] - u0[k]
+                    u00 = u[a, i, j]
+                    u01 = u[a, i, j1]
+                    u10 = u[a, i1, j]
+                    u11 = u[a, i1, j1]
                     for k in range(n2):
-                        xy[0, k] = sum_j[k] + sum_j1[k]
-                        xy[1, k] = sum_j1[k] - sum_j[k]
-                        xy[2, k] = dif_j[k] + dif_j1[k]
-                        xy[3, k] = dif_j1[k] - dif_j[k]
-                        sum_j[k] = sum_j1[k]
-                        dif_j[k] = dif_j1[k]
+                        s0 = u00[k] + u10[k]
+                        d0 = u10[k] - u00[k]
+                        s1 = u01[k] + u11[k]
+                        d1 = u11[k] - u01[k]
+                        xy[0, k] = s0 + s1
+                        xy[1, k] = s1 - s0
+                        xy[2, k] = d0 + d1
+                        xy[3, k] = d1 - d0
                     for b in range(4):
                         _sum_diff(xy[b], q[8 * a + 2 * b], q[8 * a + 2 * b + 1], n2)
                 energy += _terms(q, r, cl, rows, cols, cid, n2)
                 for a in range(nc):
+                    r[8 * a, :] = 0.0
                     for b in range(4):
                         _sum_diff_transpose(r[8 * a + 2 * b], r[8 * a + 2 * b + 1], xy[b], n2)
-                    c0 = carry[a, 0]
-                    c1 = carry[a, 1]
-                    if j == 0:
-                        o0 = first[a, 0]
-                        o1 = first[a, 1]
-                        for k in range(n2):
-                            s0 = xy[0, k] - xy[1, k]
-                            d0 = xy[2, k] - xy[3, k]
-                            o0[k] = s0 - d0
-                            o1[k] = s0 + d0
-                    else:
-                        o0 = out[a, i, j]
-                        o1 = out[a, i1, j]
-                        for k in range(n2):
-                            s0 = xy[0, k] - xy[1, k]
-                            d0 = xy[2, k] - xy[3, k]
-                            o0[k] += c0[k] + s0 - d0
-                            o1[k] += c1[k] + s0 + d0
+                    o00 = out[a, i, j]
+                    o01 = out[a, i, j1]
+                    o10 = out[a, i1, j]
+                    o11 = out[a, i1, j1]
                     for k in range(n2):
+                        s0 = xy[0, k] - xy[1, k]
                         s1 = xy[0, k] + xy[1, k]
+                        d0 = xy[2, k] - xy[3, k]
                         d1 = xy[2, k] + xy[3, k]
-                        c0[k] = s1 - d1
-                        c1[k] = s1 + d1
-            for a in range(nc):
-                o0 = out[a, i, 0]
-                o1 = out[a, i1, 0]
-                for k in range(n2):
-                    o0[k] += first[a, 0, k] + carry[a, 0, k]
-                    o1[k] += first[a, 1, k] + carry[a, 1, k]
+                        o00[k] += s0 - d0
+                        o10[k] += s0 + d0
+                        o01[k] += s1 - d1
+                        o11[k] += s1 + d1
     return energy
 
 
