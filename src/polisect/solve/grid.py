@@ -85,26 +85,28 @@ def mode_matrix(L: np.ndarray) -> np.ndarray:
 
 
 def operator_terms(L: np.ndarray):
-    """Sparse term list of the element form for the matrix-free kernels.
+    """Sparse term list of the element form for the matrix-free kernels, by output row.
 
     Returns
     -------
-    rows, cols : (T,) int64
-        Quantity indices ``a·2^d + P`` of each non-zero term.
+    start : (nc·2^d + 1,) int64
+        Terms of output quantity ``row`` are ``start[row]:start[row + 1]``.
+    cols : (T,) int64
+        Input quantity index ``a·2^d + P`` of each term.
     table : (n_coef, n_phases) float64
         Distinct coefficient vectors (one value per phase).
     cid : (T,) int64
         Row of *table* used by each term.
     """
     M = mode_matrix(L)
-    rows, cols = np.nonzero(np.any(M != 0.0, axis=0))
-    values = M[:, rows, cols].T                       # (T, n_phases)
+    rows, cols = np.nonzero(np.any(M != 0.0, axis=0))      # row-major: sorted by row
+    start = np.searchsorted(rows, np.arange(M.shape[1] + 1)).astype(np.int64)
+    values = M[:, rows, cols].T                            # (T, n_phases)
     if values.shape[0] == 0:
-        return (rows.astype(np.int64), cols.astype(np.int64),
-                np.zeros((0, L.shape[0])), np.zeros(0, np.int64))
+        return start, cols.astype(np.int64), np.zeros((0, L.shape[0])), np.zeros(0, np.int64)
     table, cid = np.unique(values, axis=0, return_inverse=True)
-    return (rows.astype(np.int64), cols.astype(np.int64),
-            np.ascontiguousarray(table), cid.reshape(-1).astype(np.int64))
+    return start, cols.astype(np.int64), np.ascontiguousarray(table), \
+        cid.reshape(-1).astype(np.int64)
 
 
 def _axis_factors(n: int, half: bool):

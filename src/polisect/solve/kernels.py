@@ -43,21 +43,44 @@ def _sum_diff_transpose(rs, rd, out, n):
 
 
 @nb.njit(inline="always", **_OPTS)
-def _terms(q, r, cl, rows, cols, cid, n):
-    """``r = M q`` on a pixel line; returns the line's energy ``qᵀ M q`` (row 0 of each
-    component, the all-sums quantity, has no term, so r is zero there)."""
-    for t in range(r.shape[0]):
-        r[t, :] = 0.0
-    for t in range(rows.shape[0]):
-        rr = r[rows[t]]
-        qq = q[cols[t]]
-        cc = cl[cid[t]]
-        for k in range(n):
-            rr[k] += cc[k] * qq[k]
+def _terms(q, r, cl, start, cols, cid, n):
+    """``r = M q`` on a pixel line, terms grouped by output row (``start``: row offsets
+    into ``cols``/``cid``) and taken two at a time (fewer loads and stores of r, measured
+    faster); returns the line's energy ``qᵀ M q``."""
     energy = 0.0
-    for t in range(r.shape[0]):
-        rr = r[t]
-        qq = q[t]
+    for row in range(r.shape[0]):
+        rr = r[row]
+        t = start[row]
+        end = start[row + 1]
+        if t == end:
+            rr[:] = 0.0
+            continue
+        c0 = cl[cid[t]]
+        q0 = q[cols[t]]
+        if t + 1 < end:
+            c1 = cl[cid[t + 1]]
+            q1 = q[cols[t + 1]]
+            for k in range(n):
+                rr[k] = c0[k] * q0[k] + c1[k] * q1[k]
+            t += 2
+        else:
+            for k in range(n):
+                rr[k] = c0[k] * q0[k]
+            t += 1
+        while t + 1 < end:
+            c0 = cl[cid[t]]
+            q0 = q[cols[t]]
+            c1 = cl[cid[t + 1]]
+            q1 = q[cols[t + 1]]
+            for k in range(n):
+                rr[k] += c0[k] * q0[k] + c1[k] * q1[k]
+            t += 2
+        if t < end:
+            c0 = cl[cid[t]]
+            q0 = q[cols[t]]
+            for k in range(n):
+                rr[k] += c0[k] * q0[k]
+        qq = q[row]
         for k in range(n):
             energy += rr[k] * qq[k]
     return energy
@@ -74,16 +97,16 @@ def _colour(colour, n0):
 
 
 @nb.njit(parallel=True, **_OPTS)
-def apply_2d(u, labels, table, cid, rows, cols, out):
+def apply_2d(u, labels, table, cid, start, cols, out):
     """``out = A u`` on a 2D grid; *u*, *out* have shape (nc, n0, n1). Returns ``uᵀAu``."""
     nc, n0, n1 = u.shape
     ncoef = table.shape[0]
     out[:] = 0.0
     energy = 0.0
     for colour in range(3):
-        start, count = _colour(colour, n0)
+        plane0, count = _colour(colour, n0)
         for ii in nb.prange(count):
-            i = start + 2 * ii
+            i = plane0 + 2 * ii
             i1 = i + 1 if i + 1 < n0 else 0
             line = np.empty((2, n1))
             q = np.empty((nc * 4, n1))
@@ -101,7 +124,7 @@ def apply_2d(u, labels, table, cid, rows, cols, out):
                     line[1, k] = u1[k] - u0[k]
                 _sum_diff(line[0], q[4 * a], q[4 * a + 1], n1)
                 _sum_diff(line[1], q[4 * a + 2], q[4 * a + 3], n1)
-            energy += _terms(q, r, cl, rows, cols, cid, n1)
+            energy += _terms(q, r, cl, start, cols, cid, n1)
             for a in range(nc):
                 r[4 * a, :] = 0.0
                 _sum_diff_transpose(r[4 * a], r[4 * a + 1], line[0], n1)
@@ -115,16 +138,16 @@ def apply_2d(u, labels, table, cid, rows, cols, out):
 
 
 @nb.njit(parallel=True, **_OPTS)
-def apply_3d(u, labels, table, cid, rows, cols, out):
+def apply_3d(u, labels, table, cid, start, cols, out):
     """``out = A u`` on a 3D grid; *u*, *out* have shape (nc, n0, n1, n2). Returns ``uᵀAu``."""
     nc, n0, n1, n2 = u.shape
     ncoef = table.shape[0]
     out[:] = 0.0
     energy = 0.0
     for colour in range(3):
-        start, count = _colour(colour, n0)
+        plane0, count = _colour(colour, n0)
         for ii in nb.prange(count):
-            i = start + 2 * ii
+            i = plane0 + 2 * ii
             i1 = i + 1 if i + 1 < n0 else 0
             xy = np.empty((4, n2))
             q = np.empty((nc * 8, n2))
@@ -152,7 +175,7 @@ def apply_3d(u, labels, table, cid, rows, cols, out):
                         xy[3, k] = d1 - d0
                     for b in range(4):
                         _sum_diff(xy[b], q[8 * a + 2 * b], q[8 * a + 2 * b + 1], n2)
-                energy += _terms(q, r, cl, rows, cols, cid, n2)
+                energy += _terms(q, r, cl, start, cols, cid, n2)
                 for a in range(nc):
                     r[8 * a, :] = 0.0
                     for b in range(4):
