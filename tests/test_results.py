@@ -4,7 +4,8 @@ import json
 
 import numpy as np
 
-from polisect.results import SCHEMA, PhaseFraction, Result, Source, csv_text, read_json, write_json
+from polisect.results import (SCHEMA, PhaseFraction, Result, Source, csv_text, quantity_keys,
+                              quantity_label, read_json, write_json)
 
 
 def _result():
@@ -41,3 +42,16 @@ def test_headline_row_and_csv():
     head = text.splitlines()[0].split(",")
     assert head[0] == "path" and head[-1] == "extra"
     assert len(text.splitlines()) == 3
+
+
+def test_quantity_keys_and_labels_of_the_headline_row():
+    """The compared columns are the fractions, particle D50 and effective properties; the
+    interval bounds, counts and text are not (the project's own naming, no source)."""
+    row = {**_result().headline(), "particles_SiC_count": 12, "particles_SiC_ecd_d50": 4.2,
+           "flag": True}
+    assert quantity_keys(row) == ["fraction_pore", "fraction_matrix", "conductivity_W_mK",
+                                  "particles_SiC_ecd_d50"]
+    assert quantity_label("fraction_pore") == ("pore fraction", "")
+    assert quantity_label("particles_SiC_ecd_d50") == ("SiC particle D50", "µm")
+    assert quantity_label("conductivity_W_mK") == ("conductivity", "W/(m·K)")
+    assert quantity_label("something_else") == ("something_else", "")

@@ -35,15 +35,30 @@ import hashlib
 import html
 import json
 import math
+import multiprocessing
 import os
 import re
 import sys
 import tempfile
 import time
+from concurrent.futures import ProcessPoolExecutor, as_completed
+from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass, field
 from typing import Iterable, Iterator
 
+import numpy as np
+import tifffile
+
+from . import __version__
+from .atomic import atomic_write_text
+from .config import Config, config_from_dict
 from .errors import InputError
+from .htmlkit import CAUTION_SECTION, page
+from .pipeline import analyze, write_outputs
+from .results import csv_text, headline, quantity_keys, quantity_label, read_json
+from .rve import add_window_study
+from .sectionstats import sig
+from .synth import rsa_discs
 
 MANIFEST = "manifest.json"
 MANIFEST_SCHEMA = "polisect.batch-manifest/1"
@@ -203,14 +218,10 @@ def analyze_one(task: Task, settings: Settings) -> dict:
         ``retry`` (False when the input itself is bad: trying again cannot help),
         ``outputs`` (file paths), ``seconds``.
     """
-    from .pipeline import analyze, write_outputs
-
     t0 = time.perf_counter()
     try:
         analysis = analyze(task.path, settings.config, pixel_size_um=settings.pixel_size_um)
         if settings.windows is not None:
-            from .rve import add_window_study
-
             analysis = add_window_study(analysis, settings.config,
                                         edges=settings.windows.edges,
                                         target_error=settings.windows.target_error)
@@ -255,8 +266,6 @@ def read_manifest(out: str | os.PathLike) -> dict | None:
 
 
 def _write_manifest(out: str, manifest: dict) -> None:
-    from .atomic import atomic_write_text
-
     atomic_write_text(os.path.join(out, MANIFEST), json.dumps(manifest, indent=1) + "\n")
 
 
@@ -411,9 +420,6 @@ def _local_results(tasks: list[Task], settings: Settings, jobs: int, work=analyz
     after that, or after ``jobs + 2`` images without a crash, the pool runs in parallel
     again. *work* is the function run per task (`analyze_one`).
     """
-    from concurrent.futures import as_completed
-    from concurrent.futures.process import BrokenProcessPool
-
     threads = max(1, (os.cpu_count() or 1) // jobs)
     todo = list(tasks)
     careful = 0
@@ -456,9 +462,6 @@ def _pool(jobs: int, threads: int):
     """A process pool. Where the platform has it, workers fork from a server process that
     imported the pipeline once (``forkserver``): later pools and restarted workers start
     warm. Elsewhere they are spawned afresh."""
-    import multiprocessing
-    from concurrent.futures import ProcessPoolExecutor
-
     if "forkserver" in multiprocessing.get_all_start_methods():
         ctx = multiprocessing.get_context("forkserver")
         ctx.set_forkserver_preload(["polisect.pipeline", "polisect.report", "polisect.rve"])
@@ -595,8 +598,6 @@ def run_batch(folder: str | os.PathLike, out: str | os.PathLike, *, config=None,
     afresh where the platform has no ``forkserver``); a script that calls `run_batch`
     must do so under ``if __name__ == "__main__":``, as multiprocessing requires.
     """
-    from .config import Config
-
     t_start = time.perf_counter()
     folder, out = os.path.abspath(os.fspath(folder)), os.path.abspath(os.fspath(out))
     if not isinstance(jobs, int) or jobs < 1:
@@ -625,7 +626,7 @@ def run_batch(folder: str | os.PathLike, out: str | os.PathLike, *, config=None,
         if unmatched:
             notes.append(f"{unmatched} image name(s) do not match --group-by {group_by!r}: "
                          f"batch {UNMATCHED}")
-        manifest = {"schema": MANIFEST_SCHEMA, "polisect_version": _version(),
+        manifest = {"schema": MANIFEST_SCHEMA, "polisect_version": __version__,
                     "folder": folder, "pattern": pattern,
                     "group_by": group_by or "folder", "config_sha256": config_sha,
                     "config_source": getattr(settings.config, "source", ""),
@@ -704,8 +705,6 @@ def _stems(rels: list[str]) -> dict[str, str]:
 
 def _outputs_ok(out: str, outputs: dict) -> bool:
     """Every output file is there and the result JSON reads back."""
-    from .results import read_json
-
     if not outputs.get("json") or not all(os.path.exists(os.path.join(out, p))
                                           for p in outputs.values()):
         return False
@@ -727,18 +726,10 @@ def _now() -> str:
     return _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds")
 
 
-def _version() -> str:
-    from . import __version__
-
-    return __version__
-
-
 # ------------------------------------------------------------------------------ tables
 
 def summary_rows(out: str, manifest: dict) -> tuple[list[dict], list[dict]]:
     """Rows of summary.csv (done images, headline numbers) and failures.csv, sorted by path."""
-    from .results import headline, read_json
-
     rows, failures = [], []
     for rel in sorted(manifest["entries"]):
         e = manifest["entries"][rel]
@@ -758,9 +749,6 @@ def summary_rows(out: str, manifest: dict) -> tuple[list[dict], list[dict]]:
 
 def write_tables(out: str, manifest: dict) -> tuple[str, str, str]:
     """Write summary.csv, failures.csv and index.html (atomic); return their paths."""
-    from .atomic import atomic_write_text
-    from .results import csv_text
-
     rows, failures = summary_rows(out, manifest)
     summary = os.path.join(out, "summary.csv")
     fails = os.path.join(out, "failures.csv")
@@ -773,13 +761,9 @@ def write_tables(out: str, manifest: dict) -> tuple[str, str, str]:
 
 def index_html(manifest: dict, rows: list[dict], failures: list[dict]) -> str:
     """The batch's index page: every section with its headline numbers and report link."""
-    from .compare import quantity_keys, quantity_label
-    from .sectionstats import sig
-    from .report import _CSS, CAUTION
-
     entries = manifest["entries"]
     keys = list(dict.fromkeys(k for r in rows for k in quantity_keys(r)))
-    head = "".join(f"<th>{html.escape(_column(k, quantity_label))}</th>" for k in keys)
+    head = "".join(f"<th>{html.escape(_column(k))}</th>" for k in keys)
     groups = list(dict.fromkeys(r["batch"] for r in rows))
     parts = []
     for g in groups:
@@ -801,21 +785,16 @@ def index_html(manifest: dict, rows: list[dict], failures: list[dict]) -> str:
         parts.append('<section class="warn"><h2>Failed images</h2><table class="grid"><thead>'
                      f"<tr><th>Image</th><th>Reason</th></tr></thead><tbody>{frows}</tbody>"
                      "</table></section>")
-    title = f"Batch — {html.escape(os.path.basename(manifest['folder']))}"
     meta = (f"{len(rows)} done · {len(failures)} failed · folder "
             f"{html.escape(manifest['folder'])} · pattern {html.escape(manifest['pattern'])}")
-    return (f'<!DOCTYPE html>\n<html lang="en"><head><meta charset="utf-8"><title>{title}'
-            f'</title><meta name="viewport" content="width=device-width, initial-scale=1">'
-            f"<style>{_CSS}</style></head><body><header><h1>{title}</h1>"
-            f'<p class="meta">{meta}</p></header><main>'
-            f'<section class="caution"><strong>Caution.</strong> {html.escape(CAUTION)}'
-            '</section><section><p><a href="summary.csv">summary.csv</a> · '
-            '<a href="failures.csv">failures.csv</a> · <a href="manifest.json">manifest.json'
-            "</a></p></section>" + "".join(parts) + "</main></body></html>\n")
+    return page(f"Batch — {os.path.basename(manifest['folder'])}", meta,
+                CAUTION_SECTION + '<section><p><a href="summary.csv">summary.csv</a> · '
+                '<a href="failures.csv">failures.csv</a> · <a href="manifest.json">'
+                "manifest.json</a></p></section>" + "".join(parts))
 
 
-def _column(key: str, label_of) -> str:
-    label, unit = label_of(key)
+def _column(key: str) -> str:
+    label, unit = quantity_label(key)
     return f"{label} ({unit})" if unit else label
 
 
@@ -837,13 +816,6 @@ def bench_batch(quick: bool = False) -> list[dict]:
         One row per case: ``case``, ``images``, ``side_px``, ``seconds``,
         ``images_per_s`` and, where it applies, ``speedup`` or ``overhead_pct``.
     """
-    import numpy as np
-    import tifffile
-
-    from .config import config_from_dict
-    from .pipeline import analyze, write_outputs
-    from .synth import rsa_discs
-
     n, side = (8, 128) if quick else (100, 512)
     cfg = config_from_dict({"image": {"kind": "labels"}, "solve": {"properties": ["conductivity"]},
                             "phase": [{"label": 0, "name": "matrix", "conductivity": 1.0},

@@ -32,44 +32,16 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from .atomic import atomic_write_text
+from .batch import Grouping, read_manifest
 from .errors import InputError
+from .htmlkit import CAUTION_SECTION, PALETTE, figure_png, grid, new_axes, page
+from .results import SCHEMA, _plain, headline, quantity_keys, quantity_label, read_json
 from .sectionstats import (ALPHA, Grubbs, difference, gitman_chi2, grubbs, holm, json_number,
                            one_way_anova, p_text, section_spread, sig, summarize, welch_anova,
                            welch_t)
 
 # ----------------------------------------------------------------- sections and batches
-
-QUANTITY_LABELS = {"conductivity_W_mK": ("conductivity", "W/(m·K)"),
-                   "youngs_modulus_GPa": ("Young's modulus", "GPa"),
-                   "poisson_ratio": ("Poisson's ratio", ""),
-                   "bulk_modulus_GPa": ("bulk modulus", "GPa"),
-                   "shear_modulus_GPa": ("shear modulus", "GPa"),
-                   "expansion_per_K": ("thermal expansion", "1/K")}
-
-
-def quantity_label(key: str) -> tuple[str, str]:
-    """Words and unit of a headline column, e.g. ``"fraction_SiC"`` → ``("SiC fraction", "")``."""
-    if key in QUANTITY_LABELS:
-        return QUANTITY_LABELS[key]
-    if key.startswith("fraction_"):
-        return f"{key[len('fraction_'):]} fraction", ""
-    if key.startswith("particles_") and key.endswith("_ecd_d50"):
-        return f"{key[len('particles_'):-len('_ecd_d50')]} particle D50", "µm"
-    return key, ""
-
-
-def quantity_keys(row: dict) -> list[str]:
-    """The headline columns that are compared: fractions, particle D50, effective properties."""
-    keys = []
-    for k, v in row.items():
-        if not isinstance(v, (int, float)) or isinstance(v, bool):
-            continue
-        if (k.startswith("fraction_") and not k.endswith(("_ci95_low", "_ci95_high"))) \
-                or (k.startswith("particles_") and k.endswith("_ecd_d50")) \
-                or k in QUANTITY_LABELS:
-            keys.append(k)
-    return keys
-
 
 @dataclass(frozen=True)
 class Section:
@@ -103,8 +75,6 @@ class Section:
 def section_from_result(d: dict, *, name: str, batch: str, json_path: str | None = None,
                         report: str | None = None) -> Section:
     """A `Section` from a result's JSON form (its headline numbers and window study)."""
-    from .results import headline
-
     row = headline(d)
     values = {k: float(row[k]) for k in quantity_keys(row)}
     within = {}
@@ -133,9 +103,6 @@ def load_sections(dirs, group_by: str | None = None) -> list[Section]:
     -------
     list of Section
     """
-    from .batch import Grouping, read_manifest
-    from .results import read_json
-
     grouping = None if group_by in (None, "dir") else Grouping.parse(group_by)
     sections = []
     for folder in dirs:
@@ -176,8 +143,6 @@ def load_sections(dirs, group_by: str | None = None) -> list[Section]:
 
 
 def _result_files(folder: str) -> list[str]:
-    from .results import SCHEMA
-
     found = []
     for root, dirnames, files in os.walk(folder):
         dirnames[:] = sorted(d for d in dirnames if not d.startswith("."))
@@ -280,8 +245,6 @@ class Comparison:
                 "quantities": [q.to_dict() for q in self.quantities]}
 
     def to_json(self) -> str:
-        from .results import _plain
-
         return json.dumps(_plain(self.to_dict()), indent=2, allow_nan=False)
 
     def sentences(self) -> list[str]:
@@ -377,41 +340,27 @@ def _compare_quantity(sections, batches, key, alpha) -> QuantityComparison:
 
 def html_comparison(comparison: Comparison, title: str = "Section comparison") -> str:
     """The comparison as a self-contained HTML page (figures embedded)."""
-    from .report import _CSS, CAUTION
-
-    parts = [f'<section class="caution"><strong>Caution.</strong> {html.escape(CAUTION)}'
-             "</section>", _html_overview(comparison)]
+    parts = [CAUTION_SECTION, _html_overview(comparison)]
     parts += [_html_quantity(q, comparison) for q in comparison.quantities]
     parts.append(_HOW_TO_READ)
-    t = html.escape(title)
-    return (f'<!DOCTYPE html>\n<html lang="en"><head><meta charset="utf-8"><title>{t}</title>'
-            f'<meta name="viewport" content="width=device-width, initial-scale=1">'
-            f"<style>{_CSS}</style></head><body><header><h1>{t}</h1>"
-            f'<p class="meta">{len(comparison.sections)} sections in '
-            f"{len(comparison.batches)} batch(es)</p></header><main>{''.join(parts)}</main>"
-            "</body></html>\n")
+    return page(title, f"{len(comparison.sections)} sections in "
+                       f"{len(comparison.batches)} batch(es)", "".join(parts))
 
 
 def write_html(comparison: Comparison, path, title: str = "Section comparison") -> None:
     """Write `html_comparison` atomically."""
-    from .atomic import atomic_write_text
-
     atomic_write_text(path, html_comparison(comparison, title))
 
 
 def _html_overview(c: Comparison) -> str:
-    from .report import _grid
-
     rows = [(b, str(sum(s.batch == b for s in c.sections))) for b in c.batches]
     items = "".join(f"<li>{html.escape(s)}</li>" for s in c.sentences())
     findings = f"<h3>Findings</h3><ul>{items}</ul>" if items else ""
-    return ("<section><h2>Batches</h2>" + _grid(("Batch", "Sections"), rows) + findings
+    return ("<section><h2>Batches</h2>" + grid(("Batch", "Sections"), rows) + findings
             + "</section>")
 
 
 def _html_quantity(q: QuantityComparison, c: Comparison) -> str:
-    from .report import _grid
-
     unit = f" ({q.unit})" if q.unit else ""
     head = ("Batch", "n", "Mean", "SD", "SE", "95 % CI ±", "%RA", "χ² (Gitman)",
             "Spread / window study")
@@ -429,7 +378,7 @@ def _html_quantity(q: QuantityComparison, c: Comparison) -> str:
                     for t in q.tests)
     items = "".join(f"<li>{html.escape(s)}</li>" for s in q.sentences)
     return (f"<section><h2>{html.escape(q.label[:1].upper() + q.label[1:])}{html.escape(unit)}"
-            f"</h2>{_grid(head, rows)}"
+            f"</h2>{grid(head, rows)}"
             + (f"<ul>{tests}</ul>" if tests else "")
             + (f"<ul>{items}</ul>" if items else "")
             + f'<figure><img alt="{html.escape(q.label)}" src="{_plot(q, c)}"></figure>'
@@ -437,11 +386,7 @@ def _html_quantity(q: QuantityComparison, c: Comparison) -> str:
 
 
 def _plot(q: QuantityComparison, c: Comparison) -> str:
-    import matplotlib.pyplot as plt
-
-    from .report import PALETTE, figure_png
-
-    fig, ax = plt.subplots(figsize=(max(3.6, 1.3 * len(q.summaries) + 1.6), 3.2))
+    fig, ax = new_axes((max(3.6, 1.3 * len(q.summaries) + 1.6), 3.2))
     flagged = {(o.batch, o.section) for o in q.outliers}
     for i, (b, s) in enumerate(q.summaries.items()):
         secs = [x for x in c.sections if x.batch == b and _finite(x.values.get(q.key))]
@@ -477,7 +422,6 @@ _HOW_TO_READ = (
     "the section-to-section standard deviation over the one expected from each section's own "
     "window study (Kanit et al. 2003); well above 1 with a small p-value, the batch is "
     "heterogeneous.</p></section>")
-
 
 
 def _finite(v) -> bool:

@@ -6,29 +6,19 @@ to show); `html_report` joins them in order.
 
 from __future__ import annotations
 
-import base64
 import html
-import io
 import json
 
-import matplotlib
+import numpy as np
+from matplotlib.colors import ListedColormap
 
-matplotlib.use("Agg")
-import matplotlib.pyplot as plt  # noqa: E402
-import numpy as np  # noqa: E402
-from matplotlib.colors import ListedColormap  # noqa: E402
-
-from .atomic import atomic_write_text  # noqa: E402
-
-CAUTION = (
-    "These numbers are estimates computed from one image of one section. They are meant for "
-    "screening, ranking and comparing materials and batches, not as design values. Verify "
-    "them by measurement on the material itself, and follow local codes, applicable standards "
-    "and licensed engineering practice for any design or qualification decision."
-)
-
-PALETTE = ("#20304f", "#e0a030", "#3f9e74", "#c8553d", "#7b68b5", "#4fb0c6", "#d98cb3",
-           "#8c8c6a")
+from . import figures
+from .atomic import atomic_write_text
+from .htmlkit import CAUTION_SECTION, CSS, PALETTE, figure_png, grid, kv_table, new_axes
+from .results import quantity_label
+from .rve import EDGE_NOTES, window_figure
+from .sectionstats import sig
+from .shock import CAUTION as SHOCK_CAUTION
 
 PRISMATIC_NOTE = (
     "A 2D section solved as a 2D problem describes a prismatic (columnar) structure: the "
@@ -53,7 +43,7 @@ def html_report(analysis, colors: dict[int, str] | None = None) -> str:
     return f"""<!DOCTYPE html>
 <html lang="en"><head><meta charset="utf-8"><title>{title}</title>
 <meta name="viewport" content="width=device-width, initial-scale=1">
-<style>{_CSS}</style></head>
+<style>{CSS}</style></head>
 <body><header><h1>{title}</h1>
 <p class="meta">polisect {html.escape(d['polisect_version'])} · {html.escape(d['created'])}</p>
 </header><main>{body}</main></body></html>
@@ -72,7 +62,7 @@ def _title(d) -> str:
 
 
 def _caution(analysis, d, colors) -> str:
-    return f'<section class="caution"><strong>Caution.</strong> {html.escape(CAUTION)}</section>'
+    return CAUTION_SECTION
 
 
 def _source(analysis, d, colors) -> str:
@@ -88,7 +78,7 @@ def _source(analysis, d, colors) -> str:
             rows.append(("Note", note))
     if analysis.thresholds:
         rows.append(("Thresholds", ", ".join(f"{t:.4g}" for t in analysis.thresholds)))
-    return "<section><h2>Section</h2>" + _table(rows) + "</section>"
+    return "<section><h2>Section</h2>" + kv_table(rows) + "</section>"
 
 
 def _images(analysis, d, colors) -> str:
@@ -118,7 +108,7 @@ def _fractions(analysis, d, colors) -> str:
                      "–" if ra is None else f"{ra:.1f} %"))
     n = d["phases"][0]["fields"] if d["phases"] else 0
     head = ("Phase", "Label", "Material", "Fraction", "95 % interval", "Relative accuracy")
-    return ("<section><h2>Phase fractions</h2>" + _grid(head, rows, raw=True)
+    return ("<section><h2>Phase fractions</h2>" + grid(head, rows, raw=True)
             + f"<p class=\"note\">Area fraction estimates volume fraction (Delesse, 1847). "
             f"Interval from the field-to-field variation over {n} fields with Student t and n − 1 "
             "degrees of freedom, as ASTM E562 does for point counts.</p></section>")
@@ -146,10 +136,6 @@ def _windows(analysis, d, colors) -> str:
     w = d.get("windows")
     if not w:
         return ""
-    from .compare import quantity_label
-    from .sectionstats import sig
-    from .rve import EDGE_NOTES, window_figure
-
     um = w["pixel_size_um"]
     ndim = len(w["shape"])
     area_unit = ("µm²" if ndim == 2 else "µm³") if um else ("px²" if ndim == 2 else "voxels")
@@ -175,7 +161,7 @@ def _windows(analysis, d, colors) -> str:
             "χ² criterion met from side")
     notes = "".join(f"<li>{html.escape(n)}</li>" for n in w["notes"])
     return ("<section><h2>Is the image big enough? (window-size study)</h2>"
-            f"<p><strong>{html.escape(w['verdict'])}</strong></p>" + _grid(head, rows)
+            f"<p><strong>{html.escape(w['verdict'])}</strong></p>" + grid(head, rows)
             + f'<figure><img alt="window study" src="{figure_png(window_figure(w))}"></figure>'
             + (f"<ul>{notes}</ul>" if notes else "")
             + f'<p class="note">The image was tiled into windows of side 1, 1/2, 1/4, … down to '
@@ -194,8 +180,6 @@ def _particles(analysis, d, colors) -> str:
     parts = d.get("particles")
     if not parts:
         return ""
-    from . import figures
-
     rows = []
     for name, q in parts.items():
         unit = "µm" if q["units"] == "um" else "px"
@@ -222,7 +206,7 @@ def _particles(analysis, d, colors) -> str:
     dists = "".join(f'<figure class="wide"><img alt="sizes of {html.escape(pp.name)}" '
                     f'src="{figure_png(figures.size_distributions(pp))}"></figure>'
                     for pp in analysis.particles)
-    return ("<section><h2>Particles and stereology</h2>" + _grid(head, rows)
+    return ("<section><h2>Particles and stereology</h2>" + grid(head, rows)
             + '<p class="note">ECD: equivalent circle diameter of the sections; D10/D50/D90 by '
             "number, particles cut by the image edge weighted by the Miles–Lantuéjoul rule. "
             "Sphere diameters and number per mm³ come from the Saltykov area method (sections "
@@ -280,7 +264,7 @@ def _schemes_table(schemes, bounds, computed, title, note):
     for name, est in schemes.items():
         rows.append((html.escape(name),) + tuple(cell(k, est.get(k), sc)
                                                  for k, _, sc in SCHEME_COLUMNS))
-    return (f"<h3>{html.escape(title)}</h3>" + _grid(head, rows, raw=True)
+    return (f"<h3>{html.escape(title)}</h3>" + grid(head, rows, raw=True)
             + f'<p class="note">{html.escape(note)}</p>')
 
 
@@ -310,8 +294,6 @@ def _effective(analysis, d, colors) -> str:
     eff = d.get("effective")
     if not eff:
         return ""
-    from . import figures
-
     rows, facts = [], []
     c, e, x = eff.get("conductivity"), eff.get("elasticity"), eff.get("expansion")
     if c:
@@ -362,9 +344,9 @@ def _effective(analysis, d, colors) -> str:
     note = (f'<p class="prism"><strong>Model:</strong> {html.escape(eff["model"])}. '
             f'{html.escape(eff["note"] or "")}</p>')
     return ("<section><h2>Effective properties (computed on the phase map)</h2>" + note
-            + _table(rows) + tensor_html
-            + "<h3>Solvers</h3>" + _grid(("property", "method", "iterations", "time",
-                                          "tolerance", "converged"), fact_rows)
+            + kv_table(rows) + tensor_html
+            + "<h3>Solvers</h3>" + grid(("property", "method", "iterations", "time",
+                                         "tolerance", "converged"), fact_rows)
             + f'<p class="note">Axes: {html.escape(eff["axes"])}. Periodic pixel-element '
             "solution; the image is treated as one periodic cell.</p>"
             + (f'<div class="figs">{cells}</div>' if cells else "") + "</section>")
@@ -380,13 +362,11 @@ def _shock(analysis, d, colors) -> str:
     sh = d.get("shock")
     if not sh:
         return ""
-    from .shock import CAUTION as SHOCK_CAUTION
-
     rows = [(f"{sym}: {sh['labels'].get(k, k)}", "–" if sh.get(k) is None
              else f"{sh[k]:.4g} {unit}")
             for k, sym, unit in (("R_K", "R", "K"), ("R_prime_W_m", "R′", "W/m"),
                                  ("R_4prime_m", "R′′′′", "m"))]
-    return ("<section><h2>Thermal-shock indices (Hasselman, 1969)</h2>" + _table(rows)
+    return ("<section><h2>Thermal-shock indices (Hasselman, 1969)</h2>" + kv_table(rows)
             + f'<p class="note">From the computed properties ({html.escape(sh["model"])}). '
             f"{html.escape(SHOCK_CAUTION)}</p></section>")
 
@@ -395,29 +375,8 @@ SECTIONS = [_caution, _warnings, _source, _images, _fractions, _effective, _sche
             _particles, _windows, _config, _raw_json]
 
 
-def _table(rows) -> str:
-    body = "".join(f"<tr><th>{html.escape(str(k))}</th><td>{html.escape(str(v))}</td></tr>"
-                   for k, v in rows)
-    return f'<table class="kv">{body}</table>'
-
-
-def _grid(head, rows, raw=False) -> str:
-    esc = (lambda s: s) if raw else (lambda s: html.escape(str(s)))
-    h = "".join(f"<th>{html.escape(c)}</th>" for c in head)
-    b = "".join("<tr>" + "".join(f"<td>{esc(c)}</td>" for c in r) + "</tr>" for r in rows)
-    return f'<table class="grid"><thead><tr>{h}</tr></thead><tbody>{b}</tbody></table>'
-
-
-def figure_png(fig) -> str:
-    """A matplotlib figure as a ``data:`` URI (and close it)."""
-    buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=110, bbox_inches="tight")
-    plt.close(fig)
-    return "data:image/png;base64," + base64.b64encode(buf.getvalue()).decode("ascii")
-
-
 def _png_image(img) -> str:
-    fig, ax = plt.subplots(figsize=(4.6, 4.6))
+    fig, ax = new_axes((4.6, 4.6))
     ax.imshow(img, cmap="gray", interpolation="nearest")
     ax.set_axis_off()
     return figure_png(fig)
@@ -428,7 +387,7 @@ def _overlay_png(img, labels, phases, colors) -> str:
     lut = np.zeros(max(order) + 1, dtype=int)
     lut[order] = np.arange(len(order))
     cmap = ListedColormap([colors[v] for v in order])
-    fig, ax = plt.subplots(figsize=(4.6, 4.6))
+    fig, ax = new_axes((4.6, 4.6))
     if img is not None and img.ndim == 2 and img.shape == labels.shape:
         ax.imshow(img, cmap="gray", interpolation="nearest")
         ax.imshow(lut[labels], cmap=cmap, vmin=-0.5, vmax=len(order) - 0.5, alpha=0.55,
@@ -438,38 +397,3 @@ def _overlay_png(img, labels, phases, colors) -> str:
                   interpolation="nearest")
     ax.set_axis_off()
     return figure_png(fig)
-
-
-_CSS = """
-body{font-family:system-ui,-apple-system,"Segoe UI",Roboto,sans-serif;margin:0;color:#1d232b;
-background:#f6f5f1;line-height:1.45}
-header{background:#1f3a3d;color:#f6f5f1;padding:18px 32px}
-header h1{margin:0;font-size:1.45rem;font-weight:600}
-.meta{margin:4px 0 0;opacity:.8;font-size:.9rem}
-main{max-width:1100px;margin:0 auto;padding:12px 32px 48px}
-section{background:#fff;border:1px solid #dedbd2;border-radius:6px;padding:14px 20px;
-margin:16px 0}
-h2{font-size:1.1rem;margin:0 0 10px;color:#1f3a3d}
-h3{font-size:1rem;margin:14px 0 6px}
-.caution{background:#fff7e0;border-color:#e6c35c}
-.warn{background:#fdecea;border-color:#e3a39a}
-table{border-collapse:collapse;font-size:.92rem;margin:6px 0}
-.kv th{text-align:left;padding:3px 14px 3px 0;color:#4a5560;font-weight:500;vertical-align:top}
-.kv td{padding:3px 0;word-break:break-all}
-.grid th,.grid td{border-bottom:1px solid #e6e3da;padding:4px 10px;text-align:right}
-.grid th:first-child,.grid td:first-child{text-align:left}
-.grid thead th{background:#eef1ee}
-.figs{display:flex;flex-wrap:wrap;gap:16px}
-figure{margin:0}
-figure img{max-width:480px;width:100%;border:1px solid #dedbd2}
-figure.wide{width:100%}
-figure.wide img{max-width:100%;width:auto}
-section{overflow-x:auto}
-.grid td{white-space:nowrap}
-figcaption{font-size:.85rem;color:#4a5560}
-.swatch{display:inline-block;width:.9em;height:.9em;border-radius:2px;margin-right:6px;
-vertical-align:-1px;border:1px solid #0003}
-.note{font-size:.86rem;color:#4a5560}
-.prism{background:#eef4f6;border-left:4px solid #3f7f8c;padding:8px 12px}
-pre{background:#f3f2ee;padding:10px;overflow-x:auto;font-size:.82rem}
-"""

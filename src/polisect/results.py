@@ -142,6 +142,39 @@ def headline(d: dict) -> dict[str, Any]:
     return row
 
 
+QUANTITY_LABELS = {"conductivity_W_mK": ("conductivity", "W/(m·K)"),
+                   "youngs_modulus_GPa": ("Young's modulus", "GPa"),
+                   "poisson_ratio": ("Poisson's ratio", ""),
+                   "bulk_modulus_GPa": ("bulk modulus", "GPa"),
+                   "shear_modulus_GPa": ("shear modulus", "GPa"),
+                   "expansion_per_K": ("thermal expansion", "1/K")}
+"""Words and unit of the effective-property columns of `headline`."""
+
+
+def quantity_label(key: str) -> tuple[str, str]:
+    """Words and unit of a headline column, e.g. ``"fraction_SiC"`` → ``("SiC fraction", "")``."""
+    if key in QUANTITY_LABELS:
+        return QUANTITY_LABELS[key]
+    if key.startswith("fraction_"):
+        return f"{key[len('fraction_'):]} fraction", ""
+    if key.startswith("particles_") and key.endswith("_ecd_d50"):
+        return f"{key[len('particles_'):-len('_ecd_d50')]} particle D50", "µm"
+    return key, ""
+
+
+def quantity_keys(row: dict) -> list[str]:
+    """The headline columns that are compared: fractions, particle D50, effective properties."""
+    keys = []
+    for k, v in row.items():
+        if not isinstance(v, (int, float)) or isinstance(v, bool):
+            continue
+        if (k.startswith("fraction_") and not k.endswith(("_ci95_low", "_ci95_high"))) \
+                or (k.startswith("particles_") and k.endswith("_ecd_d50")) \
+                or k in QUANTITY_LABELS:
+            keys.append(k)
+    return keys
+
+
 def csv_text(rows: list[dict[str, Any]]) -> str:
     """Rows (dicts) as CSV text; the columns are the union of the keys, in first-seen order."""
     columns: list[str] = []

@@ -25,7 +25,7 @@ the same effective value as the window grows; the difference between them at a g
 is itself a measure of how far that size is from representative (Hazanov & Huet 1994).
 
 The chi-square criterion of Gitman, Askes & Sluys (2007) is given for every window size as
-an additional adequacy column (`polisect.compare.gitman_chi2`).
+an additional adequacy column (`polisect.sectionstats.gitman_chi2`).
 
 References
 ----------
@@ -58,13 +58,18 @@ from __future__ import annotations
 
 import dataclasses
 import math
+import time
 from dataclasses import dataclass
 from typing import Callable
 
 import numpy as np
 from scipy import stats
 
+from . import solve
+from .config import Config
 from .errors import InputError
+from .results import headline, quantity_label
+from .sectionstats import gitman_chi2, sig
 
 EDGES = ("periodic", "mirror")
 PROPERTY_KEYS = {"conductivity": "conductivity_W_mK", "elasticity": "youngs_modulus_GPa",
@@ -109,8 +114,6 @@ class WindowLevel:
         return math.prod(self.side_px)
 
     def to_dict(self) -> dict:
-        from .sectionstats import gitman_chi2
-
         out = {}
         for key, v in self.values.items():
             entry = {"n": int(v.size), "mean": float(v.mean()),
@@ -358,8 +361,6 @@ def solver_evaluator(phasemap, properties, *, method: str = "auto", tol: float =
     stiffness (GPa; in 2D for the plane mode), expansion ``tr(α)/d`` (1/K). Solved with
     `polisect.solve`.
     """
-    from . import solve
-
     unknown = [p for p in properties if p not in PROPERTY_KEYS]
     if unknown:
         raise InputError(f"window study: unknown properties {unknown}; choose from "
@@ -552,8 +553,6 @@ def _fit(key, value, point_var, fit_levels, levels, area, ndim, z, target, confi
 
 
 def _gitman_side(key, levels) -> int | None:
-    from .sectionstats import gitman_chi2
-
     passing = None
     for lv in levels:
         v = lv.values.get(key)
@@ -566,8 +565,6 @@ def _gitman_side(key, levels) -> int | None:
 
 
 def _label(key: str) -> str:
-    from .compare import quantity_label
-
     return quantity_label(key)[0]
 
 
@@ -578,8 +575,6 @@ def _size_words(measure: float, ndim: int, pixel_um: float | None) -> str:
 
 
 def _length(px: float, pixel_um: float | None) -> str:
-    from .sectionstats import sig
-
     if not pixel_um:
         return f"{sig(px, 3)} px"
     um = px * pixel_um
@@ -587,14 +582,10 @@ def _length(px: float, pixel_um: float | None) -> str:
 
 
 def _pct(fraction: float) -> str:
-    from .sectionstats import sig
-
     return f"±{sig(fraction * 100.0)} %"
 
 
 def _need_words(q: QuantityFit, area: float, ndim: int, pixel_um: float | None) -> str:
-    from .sectionstats import sig
-
     ratio = (q.required_area_px / area) ** (1.0 / ndim)
     return (f"an image of {_size_words(q.required_area_px, ndim, pixel_um)} "
             f"({sig(ratio)}× the side of this one) or {q.images_needed} images of this size")
@@ -658,12 +649,6 @@ def add_window_study(analysis, config=None, *, edges: str = "periodic",
         A copy whose ``result.windows`` holds `WindowStudy.to_dict` and whose timings
         include ``windows``.
     """
-    import time
-
-    from .config import Config
-
-    from .results import headline
-
     cfg = config or Config()
     effective = analysis.result.effective or {}
     props = tuple(p for p in cfg.solve.properties if effective.get(p))
@@ -693,13 +678,12 @@ def window_figure(windows: dict):
     -------
     matplotlib.figure.Figure
     """
+    # matplotlib only here: the window study itself runs in batch workers and scripts that
+    # draw nothing.
     import matplotlib
 
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
-
-    from .compare import quantity_label
-    from .sectionstats import sig
 
     keys = list(windows["quantities"])
     z = float(stats.norm.ppf(0.5 + windows["confidence"] / 2.0))

@@ -52,7 +52,7 @@ from importlib import resources
 
 from .. import __version__
 from ..errors import InputError
-from ..report import PALETTE
+from ..htmlkit import PALETTE
 from . import work
 from .jobs import RunManager, TaskFailed, Tasks, process_context
 from .runconfig import page_options, run_config_toml
