@@ -110,15 +110,17 @@ def _fe_fits(shape, nc) -> bool:
 
 
 def _methods(case, problem, shape, nc, nv, run_with):
-    """fft, fe (if it fits) and ms (pore-free) rows of one property."""
-    rows = [measure(case, problem, shape, "fft", nc, lambda: run_with("fft", MATERIALS))]
+    """fft, fe (if it fits) and ms (pore-free, `MS_BUDGET` iterations) rows of one
+    property; ``run_with(method, materials, maxiter)`` returns the result."""
+    rows = [measure(case, problem, shape, "fft", nc, lambda: run_with("fft", MATERIALS, None))]
     if _fe_fits(shape, nc):
-        rows.append(measure(case, problem, shape, "fe", nc, lambda: run_with("fe", MATERIALS)))
+        rows.append(measure(case, problem, shape, "fe", nc,
+                            lambda: run_with("fe", MATERIALS, None)))
     else:
         rows.append(skipped(case, problem, shape, "fe",
                             f"assembled system ~{memory_estimate(shape, nc) / 1e9:.0f} GB"))
     rows.append(measure(case, problem + ", pore-free", shape, "ms", nv,
-                        lambda: run_with("ms", PORE_FREE)))
+                        lambda: run_with("ms", PORE_FREE, MS_BUDGET)))
     return rows
 
 
@@ -127,8 +129,7 @@ def case_2d_conductivity(quick: bool) -> list[dict]:
     n = 128 if quick else 1024
     labels = image_2d(n)
     return _methods("a", "2D conductivity, 10 % pores, contrast 1e3", labels.shape, 1, 2,
-                    lambda m, mats: conductivity(labels, mats, method=m,
-                                                 maxiter=MS_BUDGET if m == "ms" else None))
+                    lambda m, mats, it: conductivity(labels, mats, method=m, maxiter=it))
 
 
 def case_2d_elasticity(quick: bool) -> list[dict]:
@@ -138,14 +139,13 @@ def case_2d_elasticity(quick: bool) -> list[dict]:
     labels = image_2d(n)
     stiff: dict = {}
 
-    def stiffness(m, mats):
-        stiff[m] = elasticity(labels, mats, plane="plane-strain", method=m,
-                              maxiter=MS_BUDGET if m == "ms" else None)
+    def stiffness(m, mats, it):
+        stiff[m] = elasticity(labels, mats, plane="plane-strain", method=m, maxiter=it)
         return stiff[m]
 
-    def thermal(m, mats):
+    def thermal(m, mats, it):
         return expansion(labels, mats, plane="plane-strain", method=m, stiffness=stiff[m],
-                         maxiter=MS_BUDGET if m == "ms" else None)
+                         maxiter=it)
 
     rows = _methods("b", "2D plane-strain stiffness, same image", labels.shape, 2, 3, stiffness)
     rows += _methods("c", "2D plane-strain expansion, same image", labels.shape, 2, 3, thermal)
@@ -157,8 +157,7 @@ def case_3d_conductivity(quick: bool) -> list[dict]:
     n = 24 if quick else 128
     labels = image_3d(n)
     return _methods("d", "3D conductivity, spheres, 10 % pores", labels.shape, 1, 3,
-                    lambda m, mats: conductivity(labels, mats, method=m,
-                                                 maxiter=MS_BUDGET if m == "ms" else None))
+                    lambda m, mats, it: conductivity(labels, mats, method=m, maxiter=it))
 
 
 def case_3d_elasticity(quick: bool) -> list[dict]:
@@ -166,8 +165,7 @@ def case_3d_elasticity(quick: bool) -> list[dict]:
     n = 24 if quick else 128
     labels = image_3d(n)
     return _methods("e", "3D stiffness, spheres, 10 % pores", labels.shape, 3, 6,
-                    lambda m, mats: elasticity(labels, mats, method=m,
-                                               maxiter=MS_BUDGET if m == "ms" else None))
+                    lambda m, mats, it: elasticity(labels, mats, method=m, maxiter=it))
 
 
 def smoothed_noise_image(n: int, seed: int = 2) -> np.ndarray:

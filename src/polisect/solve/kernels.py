@@ -87,6 +87,15 @@ def _terms(q, r, cl, start, cols, cid, n):
 
 
 @nb.njit(inline="always", **_OPTS)
+def _coefficients(cl, table, phase_line):
+    """Coefficient lines of the pixel line whose phases are *phase_line*."""
+    for k in range(phase_line.shape[0]):
+        p = phase_line[k]
+        for c in range(table.shape[0]):
+            cl[c, k] = table[c, p]
+
+
+@nb.njit(inline="always", **_OPTS)
 def _colour(colour, n0):
     """First plane and number of planes of a colour (even, odd, and a last odd plane)."""
     if colour == 0:
@@ -112,10 +121,7 @@ def apply_2d(u, labels, table, cid, start, cols, out):
             q = np.empty((nc * 4, n1))
             r = np.empty((nc * 4, n1))
             cl = np.empty((ncoef, n1))
-            for k in range(n1):
-                p = labels[i, k]
-                for c in range(ncoef):
-                    cl[c, k] = table[c, p]
+            _coefficients(cl, table, labels[i])
             for a in range(nc):
                 u0 = u[a, i]
                 u1 = u[a, i1]
@@ -155,10 +161,7 @@ def apply_3d(u, labels, table, cid, start, cols, out):
             cl = np.empty((ncoef, n2))
             for j in range(n1):
                 j1 = j + 1 if j + 1 < n1 else 0
-                for k in range(n2):
-                    p = labels[i, j, k]
-                    for c in range(ncoef):
-                        cl[c, k] = table[c, p]
+                _coefficients(cl, table, labels[i, j])
                 for a in range(nc):
                     u00 = u[a, i, j]
                     u01 = u[a, i, j1]
