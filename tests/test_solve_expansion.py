@@ -6,7 +6,7 @@ import pytest
 from polisect import InputError, Material
 from polisect import tensors as T
 from polisect.solve import elasticity, expansion
-from solve_cases import PORE, blobs, boolean_spheres, iso_material, laminate
+from solve_cases import PORE, blobs, boolean_spheres, laminate
 
 AL = Material(youngs_modulus=70.0, poisson_ratio=0.33, expansion=23e-6)
 SIC = Material(youngs_modulus=410.0, poisson_ratio=0.14, expansion=4e-6)
@@ -60,7 +60,8 @@ def test_laminate_generalized_plane_strain_is_the_3d_laminate():
 
 def test_laminate_plane_strain():
     """Plane strain (ε_zz = 0): the laminate formula with the in-plane matrices and the
-    plane-strain thermal strains C_ps⁻¹(Cα)_in of the phases (classical laminate theory), 1e-8."""
+    plane-strain thermal strains C_ps⁻¹(Cα)_in of the phases (classical laminate theory),
+    1e-8."""
     labels, f = layers(10, 2)
     ortho, C2 = orthotropic_phase()
     C6 = [T.isotropic_stiffness(70, 0.33), T.isotropic_stiffness(410, 0.14), C2]

@@ -1,7 +1,6 @@
 """Periodic solid clusters and their winding rank (which rigid motions are periodic)."""
 
 import numpy as np
-import pytest
 from hypothesis import given, settings, strategies as st
 from scipy import ndimage
 

@@ -166,8 +166,8 @@ def elastic_result(image: PhaseImage, plane: str | None, method: str, tol: float
         loads.append(Load(np.zeros((2, 2)), tau=tensors.voigt_to_stress(phases.axial)))
     flags = field_flags(names, fields)
     run = solve_loads(cell, loads, method, tol, maxiter, flags)
-    columns = [tensors.stress_to_voigt(s.mean_flux(cell, ld)) for s, ld in zip(run.solutions, loads)]
-    C = np.column_stack(columns)
+    C = np.column_stack([tensors.stress_to_voigt(s.mean_flux(cell, ld))
+                         for s, ld in zip(run.solutions, loads)])
     if plane != GPS:
         out_fields = _fields(cell, phases, run, loads, names, flags, C, zz_tau=None)
         return ElasticityResult(C, plane, SolverFacts.of(run), fields=out_fields)
@@ -194,8 +194,8 @@ def _fields(cell: Cell, phases: ElasticPhases, run, loads, names, flags, load_st
     strain, stress, stress_zz = [], [], []
     for i in kept:
         g = run.solutions[i].gradient
-        eps = tensors.strain_to_voigt(np.moveaxis(0.5 * (g + np.swapaxes(g, 0, 1)), (0, 1), (-2, -1)))
-        eps = np.moveaxis(eps, -1, 0)
+        sym = np.moveaxis(0.5 * (g + np.swapaxes(g, 0, 1)), (0, 1), (-2, -1))
+        eps = np.moveaxis(tensors.strain_to_voigt(sym), -1, 0)
         tau = loads[i].tau
         sig = np.zeros_like(eps)
         zz = np.zeros(cell.shape) if phases.axial is not None else None

@@ -132,7 +132,8 @@ def expansion(labels, materials: Mapping, *, plane: str = GPS, method: str = "au
         raise InputError("the stiffness given belongs to another problem; pass the "
                          f"ElasticityResult of this image with plane={plane!r}")
     cell = elastic_cell(image, phases)
-    load = Load(np.zeros((image.dim, image.dim)), tau=-tensors.voigt_to_stress(phases.thermal_stress))
+    load = Load(np.zeros((image.dim, image.dim)),
+                tau=-tensors.voigt_to_stress(phases.thermal_stress))
     run = solve_loads(cell, [load], method, tol, maxiter, [False])
     solution = run.solutions[0]
     mean = tensors.stress_to_voigt(solution.mean_flux(cell, load))

@@ -103,7 +103,8 @@ def assemble(labels: np.ndarray, K: np.ndarray) -> sp.csr_matrix:
             cols[:, :, oi, b] = (neighbour * nc + b)[:, None]
     corners = _corners(dim)
     for ci, c in enumerate(corners):
-        phase = np.roll(labels, tuple(c), axis=axes).ravel()   # the pixel whose corner c is this node
+        # phase of the pixel whose corner c is this node
+        phase = np.roll(labels, tuple(c), axis=axes).ravel()
         for cj, c2 in enumerate(corners):
             block = K[:, ci * nc:(ci + 1) * nc, cj * nc:(cj + 1) * nc]
             data[:, :, offsets.index(tuple(c2 - c)), :] += block[phase]
