@@ -185,7 +185,7 @@ def _summary_3d(e3: dict) -> list[str]:
             continue
         ci = block.get(key + "_ci95")
         spread = f" (95 % {ci[0] * scale:.4g}–{ci[1] * scale:.4g})" if ci else ""
-        lines.append(f"  3D {words:<15}{block[key] * scale:.4g} {unit}{spread}")
+        lines.append(f"  3D {words:<14} {block[key] * scale:.4g} {unit}{spread}")
     if lines:
         lines.append(f"  ({e3.get('model', '')})")
     return lines

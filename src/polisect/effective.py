@@ -84,7 +84,7 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
                                  "anisotropy": c.anisotropy(), "solver": c.facts.to_dict()}
         _converged(c, "conductivity", warnings)
         if maps and c.fields is not None:
-            out_maps["heat_flux"] = c.fields.flux_magnitude("x").T
+            out_maps["heat_flux"] = _image_plane(c.fields.flux_magnitude("x"))
     stiff = None
     if "elasticity" in props or "expansion" in props:
         say("solving for the effective stiffness")
@@ -94,7 +94,7 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
     if "elasticity" in props:
         block["elasticity"] = _elastic_block(stiff, two_d)
         if maps and stiff.fields is not None:
-            out_maps["von_mises"] = stiff.fields.von_mises_uniaxial("x").T
+            out_maps["von_mises"] = _image_plane(stiff.fields.von_mises_uniaxial("x"))
     if "expansion" in props:
         say("solving for the effective thermal expansion")
         x = expansion(labels, mats, plane=plane, method=method, tol=tol, stiffness=stiff)
@@ -106,6 +106,13 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
             block["expansion"]["scheme_comparable"] = {
                 "mean_per_K": x.mean() if plane == "generalized-plane-strain" else None}
     return Effective(block=block, warnings=tuple(warnings), maps=out_maps)
+
+
+def _image_plane(values: np.ndarray) -> np.ndarray:
+    """A solver field (x, y[, z]) as an image (row = y, column = x); the middle z slice of
+    a volume."""
+    image = values.T
+    return image if image.ndim == 2 else image[image.shape[0] // 2]
 
 
 def _elastic_block(e, two_d: bool) -> dict:

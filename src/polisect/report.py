@@ -83,18 +83,26 @@ def _source(analysis, d, colors) -> str:
 
 def _images(analysis, d, colors) -> str:
     pm = analysis.phasemap
-    labels = pm.labels if pm.ndim == 2 else pm.labels[pm.shape[0] // 2]
-    figs = []
     img = analysis.image
-    if img is not None:
-        img2 = img if img.ndim == 2 or (img.ndim == 3 and img.shape[-1] in (3, 4)) else img[0]
-        figs.append(("Micrograph", _png_image(img2)))
-    figs.append(("Phase map overlay", _overlay_png(img, labels, pm.phases, colors)))
+    figs = []
+    if pm.ndim == 3:
+        vol = img if img is not None and img.shape == pm.shape else None
+        nz, ny, nx = pm.shape
+        for title, index in ((f"slice z = {nz // 2} (x–y plane)", (nz // 2, slice(None), slice(None))),
+                             (f"y = {ny // 2} (x–z plane)", (slice(None), ny // 2, slice(None))),
+                             (f"x = {nx // 2} (y–z plane)", (slice(None), slice(None), nx // 2))):
+            figs.append((f"Orthogonal section, {title}", _overlay_png(
+                None if vol is None else vol[index], pm.labels[index], pm.phases, colors)))
+    else:
+        if img is not None:
+            figs.append(("Micrograph", _png_image(img)))
+        figs.append(("Phase map overlay", _overlay_png(img, pm.labels, pm.phases, colors)))
     cells = "".join(f'<figure><img alt="{html.escape(t)}" src="{u}"><figcaption>{html.escape(t)}'
                     "</figcaption></figure>" for t, u in figs)
     legend = "".join(f'<span class="swatch" style="background:{colors[p.label]}"></span>'
                      f"{html.escape(p.name)} &nbsp; " for p in pm.phases)
-    return f'<section><h2>Phase map</h2><div class="figs">{cells}</div><p>{legend}</p></section>'
+    title = "Phase map (orthogonal sections of the volume)" if pm.ndim == 3 else "Phase map"
+    return f'<section><h2>{title}</h2><div class="figs">{cells}</div><p>{legend}</p></section>'
 
 
 def _fractions(analysis, d, colors) -> str:
@@ -371,7 +379,47 @@ def _shock(analysis, d, colors) -> str:
             f"{html.escape(SHOCK_CAUTION)}</p></section>")
 
 
-SECTIONS = [_caution, _warnings, _source, _images, _fractions, _effective, _schemes, _shock,
+def _estimate_3d(analysis, d, colors) -> str:
+    e3 = d.get("effective_3d")
+    if not e3:
+        return ""
+    labels = {"mean_W_mK": ("Thermal conductivity", "W/(m·K)", 1.0),
+              "youngs_modulus_GPa": ("Young's modulus", "GPa", 1.0),
+              "shear_modulus_GPa": ("Shear modulus", "GPa", 1.0),
+              "poisson_ratio": ("Poisson's ratio", "", 1.0),
+              "mean_per_K": ("Thermal expansion", "10⁻⁶/K", 1e6)}
+    blocks = {"mean_W_mK": "conductivity", "youngs_modulus_GPa": "elasticity",
+              "shear_modulus_GPa": "elasticity", "poisson_ratio": "elasticity",
+              "mean_per_K": "expansion"}
+    rows, sentences = [], []
+    for v in e3.get("versus_2d") or []:
+        key = v["quantity"]
+        name, unit, sc = labels.get(key, (key, "", 1.0))
+        ci = (e3.get(blocks.get(key, "")) or {}).get(f"{key}_ci95")
+        ci_txt = "–" if not ci or ci[0] is None else f"{ci[0] * sc:.4g} – {ci[1] * sc:.4g}"
+        rows.append((name + (f" ({unit})" if unit else ""), f"{v['section_2d'] * sc:.4g}",
+                     f"{v['estimate_3d'] * sc:.4g}", ci_txt, f"{v['difference_pct']:+.1f} %"))
+        if v.get("sentence"):
+            sentences.append(v["sentence"])
+    vol = e3.get("volume") or {}
+    facts = [("Reconstructions", str(e3.get("realizations"))),
+             ("Voxels", " × ".join(str(n) for n in vol.get("voxels", []))),
+             ("Box / D90", f"{vol['box_over_d90']:.3g}" if vol.get("box_over_d90") else "–"),
+             ("D10 in voxels", f"{vol['d10_voxels']:.3g}" if vol.get("d10_voxels") else "–")]
+    if vol.get("compromise"):
+        facts.append(("Compromise", vol["compromise"]))
+    items = "".join(f"<li>{html.escape(s)}</li>" for s in sentences)
+    return ("<section><h2>3D estimate from this section</h2>"
+            + grid(("Quantity", "2D section (prismatic)", "3D estimate", "95 % interval",
+                    "3D vs 2D"), rows)
+            + (f"<ul>{items}</ul>" if items else "") + kv_table(facts)
+            + f'<p class="note">{html.escape(e3.get("confidence") or "")} Periodic packings of '
+            "(hollow) spheres with the section's fractions and unfolded size distributions, "
+            "solved in 3D; valid for sphere-like particles — elongated or interconnected "
+            "phases need a real volume (docs/methods.md).</p></section>")
+
+
+SECTIONS = [_caution, _warnings, _source, _images, _fractions, _effective, _estimate_3d, _schemes, _shock,
             _particles, _windows, _config, _raw_json]
 
 
