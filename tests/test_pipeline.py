@@ -136,3 +136,20 @@ def test_estimate_3d_that_cannot_be_built_leaves_a_warning():
     assert d["effective_3d"] is None and d["effective"]["conductivity"] is not None
     assert any(w.startswith("3D estimate not built") and "interconnected" in w
                for w in d["warnings"])
+
+
+def test_volume_with_solve_writes_a_report(tmp_path):
+    """A voxel volume through the whole path: 3D solve, field maps of its middle slice,
+    orthogonal sections in the report. A 3D checkerboard-free random structure: only the
+    path is checked here (the solver is validated in tests/test_solve_*.py)."""
+    labels = compose((24, 24, 24), [Inclusions(1, 0.2, 4.0)], seed=4, matrix_label=0).labels
+    cfg = config_from_dict({"image": {"kind": "labels"},
+                            "phase": [{"label": 0, "material": "aluminium"},
+                                      {"label": 1, "material": "silicon-carbide"}],
+                            "solve": {"properties": ["conductivity"]}})
+    a = analyze(labels, cfg)
+    assert a.result.effective["dimension"] == 3
+    assert a.field_maps["heat_flux"].shape == (24, 24)
+    paths = write_outputs(a, tmp_path, stem="vol", config=cfg)
+    html = (tmp_path / paths.report).read_text()
+    assert "orthogonal sections" in html and "Effective properties" in html
