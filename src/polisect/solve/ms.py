@@ -34,12 +34,11 @@ from __future__ import annotations
 
 import numba as nb
 import numpy as np
-import scipy.fft
 
 from .. import tensors
 from ..errors import InputError
 from .cell import Cell, Load, Solution
-from .fft import WORKERS
+from .fft import forward, inverse
 from .grid import phase_means
 
 
@@ -221,11 +220,10 @@ class MSSolver:
         eps = np.broadcast_to(E[:, None], (nv, n)).copy()
         sig = np.empty_like(eps)
         eps_hat = np.zeros((nv,) + self.half_shape, dtype=np.complex128)
-        axes = tuple(range(1, len(shape) + 1))
         history, converged, iterations = [], False, 0
         while True:
             _local_law(eps, self.labels, self.Lc, tau, sig)
-            sig_hat = scipy.fft.rfftn(sig.reshape((nv,) + shape), axes=axes, workers=WORKERS)
+            sig_hat = forward(sig.reshape((nv,) + shape))
             mean = sig_hat.reshape(nv, -1)[:, 0].real
             norm = np.sqrt(np.sum(self._factor * mean ** 2))
             eps_hat.reshape(nv, -1)[:, 0] = E * n
@@ -235,7 +233,7 @@ class MSSolver:
             if history[-1] <= self.tol or iterations >= self.maxiter:
                 converged = history[-1] <= self.tol
                 break
-            eps = scipy.fft.irfftn(eps_hat, s=shape, axes=axes, workers=WORKERS).reshape(nv, n)
+            eps = inverse(eps_hat, shape, keep=True).reshape(nv, n)
             iterations += 1
         g = np.empty((cell.ncomp, cell.dim) + shape)
         for c, (a, i) in enumerate(zip(self.comp_a, self.comp_i)):
