@@ -402,12 +402,13 @@ def _clock(seconds: float) -> str:
 def _worker_init(threads: int) -> None:
     """Limit each worker's threads so that jobs × threads matches the cores."""
     for var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS",
-                "NUMBA_NUM_THREADS", "POLISECT_THREADS"):
+                "POLISECT_THREADS"):
         os.environ[var] = str(threads)
-    if "numba" in sys.modules:
-        import numba
+    # numba's own limit is set through its API only: changing NUMBA_NUM_THREADS in the
+    # environment after its thread pool started makes the next compilation fail.
+    import numba
 
-        numba.set_num_threads(min(threads, numba.config.NUMBA_NUM_THREADS))
+    numba.set_num_threads(min(threads, numba.config.NUMBA_NUM_THREADS))
 
 
 def _local_results(tasks: list[Task], settings: Settings, jobs: int, work=analyze_one
