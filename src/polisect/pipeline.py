@@ -91,10 +91,8 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
     timings["fractions"] = time.perf_counter() - tick
 
     tick = time.perf_counter()
-    measured, correlations = _particles(phasemap, cfg, say) if phasemap.ndim == 2 else ((), {})
-    if phasemap.ndim == 3:
-        notes.append("particle statistics of voxel stacks are not measured yet; fractions "
-                     "and effective properties are")
+    measured, correlations = (_particles(phasemap, cfg, say) if phasemap.ndim == 2
+                              else (_volume_particles(phasemap, cfg, say), {}))
     timings["particles"] = time.perf_counter() - tick
 
     tick = time.perf_counter()
@@ -128,7 +126,8 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
                     config_toml=cfg.raw, warnings=tuple(warnings), notes=tuple(notes),
                     timings_s=timings,
                     created=_dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"))
-    rows = [{"phase": pp.name, **row} for pp in measured for row in pp.table.rows()]
+    rows = [{"phase": pp.name, **row} for pp in measured
+            for row in (pp.table.rows() if phasemap.ndim == 2 else pp.rows())]
     return Analysis(result=result, phasemap=phasemap, image=micro.data,
                     thresholds=tuple(thresholds), particle_rows=rows, particles=measured,
                     correlations=correlations,
@@ -294,6 +293,19 @@ def _enclosed_by(phasemap: PhaseMap, host: int):
                                                          or e.fraction.mean > best[1]):
             best = (phasemap.phase(e.phase).name, e.fraction.mean)
     return best
+
+
+def _volume_particles(phasemap: PhaseMap, cfg: Config, say: Progress) -> tuple:
+    """True 3D particle statistics of every particle phase of a volume."""
+    from .particles3d import volume_particles
+
+    out = []
+    for p in particle_phases(phasemap):
+        say(f"measuring particles of {p.name} in 3D")
+        pc = cfg.phase(p.label)
+        out.append(volume_particles(phasemap, p.label,
+                                    split_touching=bool(pc and pc.split_touching)))
+    return tuple(out)
 
 
 def _particles(phasemap: PhaseMap, cfg: Config, say: Progress):
