@@ -138,6 +138,12 @@ def headline(d: dict) -> dict[str, Any]:
         row["shear_modulus_GPa"] = el.get("shear_modulus_GPa")
     if eff.get("expansion"):
         row["expansion_per_K"] = eff["expansion"].get("mean_per_K")
+    e3 = d.get("effective_3d") or {}
+    for block, key, column in (("conductivity", "mean_W_mK", "conductivity_3d_W_mK"),
+                               ("elasticity", "youngs_modulus_GPa", "youngs_modulus_3d_GPa"),
+                               ("expansion", "mean_per_K", "expansion_3d_per_K")):
+        if e3.get(block):
+            row[column] = e3[block].get(key)
     row["warnings"] = len(d.get("warnings") or [])
     return row
 
@@ -147,7 +153,10 @@ QUANTITY_LABELS = {"conductivity_W_mK": ("conductivity", "W/(m·K)"),
                    "poisson_ratio": ("Poisson's ratio", ""),
                    "bulk_modulus_GPa": ("bulk modulus", "GPa"),
                    "shear_modulus_GPa": ("shear modulus", "GPa"),
-                   "expansion_per_K": ("thermal expansion", "1/K")}
+                   "expansion_per_K": ("thermal expansion", "1/K"),
+                   "conductivity_3d_W_mK": ("3D-estimate conductivity", "W/(m·K)"),
+                   "youngs_modulus_3d_GPa": ("3D-estimate Young's modulus", "GPa"),
+                   "expansion_3d_per_K": ("3D-estimate thermal expansion", "1/K")}
 """Words and unit of the effective-property columns of `headline`."""
 
 
