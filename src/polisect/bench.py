@@ -188,9 +188,45 @@ def case_2d_scaling(quick: bool) -> list[dict]:
     return rows
 
 
+def case_3d_estimate(quick: bool) -> list[dict]:
+    """(g) One realization of the 3D estimate from a section, all three properties."""
+    from .reconstruct import bench_reconstruct
+
+    return bench_reconstruct(quick)
+
+
+def case_morphology(quick: bool) -> list[dict]:
+    """(h) Every particle and stereology statistic of a 2048² section (~5000 particles)."""
+    from .morphology import benchmark_morphology
+
+    r = benchmark_morphology(size=512 if quick else 2048)
+    stages = ", ".join(f"{k} {v:.2f} s" for k, v in r["seconds"].items())
+    return [{"case": "h", "problem": "particle statistics (target ≤ 10 s at 2048²)",
+             "size": "x".join(str(n) for n in r["shape"]), "seconds": r["total_s"],
+             "figure": f"{r['particles']} particles; {stages}"}]
+
+
+def case_batch(quick: bool) -> list[dict]:
+    """(i) Batch throughput at 1 and 2 jobs and the batch's overhead."""
+    from .batch import bench_batch
+
+    out = []
+    for r in bench_batch(quick):
+        extra = [f"{r['images_per_s']:.3g} images/s"]
+        for key, words in (("speedup", "speed-up"), ("overhead_pct", "overhead %"),
+                           ("overhead_in_workers_pct", "overhead in workers %")):
+            if r.get(key) is not None:
+                extra.append(f"{words} {r[key]:.3g}")
+        out.append({"case": "i", "problem": f"batch: {r['case']}",
+                    "size": f"{r['images']} × {r['side_px']}²", "seconds": r["seconds"],
+                    "figure": ", ".join(extra)})
+    return out
+
+
 CASES: list[Callable[[bool], list[dict]]] = [case_2d_conductivity, case_2d_elasticity,
                                              case_3d_conductivity, case_3d_elasticity,
-                                             case_2d_scaling]
+                                             case_2d_scaling, case_3d_estimate,
+                                             case_morphology, case_batch]
 
 
 def run_bench(quick: bool = False, json_path: str | None = None) -> list[dict]:
@@ -226,7 +262,10 @@ def format_table(rows: list[dict]) -> str:
     head = ("case", "method", "size", "iter", "seconds", "s/iter", "fft floor", "ratio",
             "peak MB", "conv", "problem")
     lines = [head]
+    others = [r for r in rows if "figure" in r]
     for r in rows:
+        if "figure" in r:
+            continue
         if "skipped" in r:
             lines.append((r["case"], r["method"], r["size"], "-", "-", "-", "-", "-", "-", "-",
                           f"{r['problem']} (skipped: {r['skipped']})"))
@@ -242,4 +281,8 @@ def format_table(rows: list[dict]) -> str:
     out = ["  ".join(c.ljust(w) for c, w in zip(line[:-1], widths)) + "  " + line[-1]
            for line in lines]
     out.insert(1, "-" * len(out[0]))
+    if others:
+        out += ["", "Analysis figures"]
+        out += [f"  {r['case']}  {r['problem']}  [{r['size']}]  {r['seconds']:.2f} s  "
+                f"{r['figure']}" for r in others]
     return "\n".join(out)
