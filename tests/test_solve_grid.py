@@ -110,3 +110,22 @@ def test_active_nodes():
     solid[1:3, 1:3] = False
     active = grid.active_nodes(solid)
     assert not active[2, 2] and active.sum() == 15
+
+
+@pytest.mark.parametrize("shape,nc", [((7, 5), 2), ((5, 4, 3), 3)])
+def test_kernel_independent_of_thread_blocks(shape, nc):
+    """The blocked kernels give the same A u for any number of plane blocks, including
+    one plane per block (seams everywhere): common practice (no source)."""
+    from polisect.solve import kernels
+    cell = random_cell(shape, nc, seed=11)
+    solver = FourierSolver(cell, 1e-6, 10)
+    u = np.random.default_rng(3).normal(size=(nc,) + shape)
+    kernel = kernels.apply_2d if len(shape) == 2 else kernels.apply_3d
+    results = []
+    for chunks in (1, 2, 3, shape[0]):
+        out = np.empty_like(u)
+        energy = kernel(u, solver.labels, solver.table, solver.cid, solver.start, solver.cols,
+                        out, chunks)
+        results.append((out, energy))
+    for out, energy in results[1:]:
+        assert np.allclose(out, results[0][0], atol=1e-12) and np.isclose(energy, results[0][1])

@@ -25,6 +25,7 @@ from __future__ import annotations
 
 import os
 
+import numba
 import numpy as np
 import scipy.fft
 
@@ -116,6 +117,7 @@ class FourierSolver:
         self.kinv = inverse_symbol(grid.reference_symbol(L0, cell.shape))
         self._kinv_flat = self.kinv.reshape(cell.ncomp, cell.ncomp, -1)
         self._kernel = kernels.apply_2d if cell.dim == 2 else kernels.apply_3d
+        self._chunks = max(1, min(cell.shape[0], numba.get_num_threads()))
         self.mask = np.broadcast_to(grid.active_nodes(cell.solid),
                                     (cell.ncomp,) + cell.shape).astype(np.uint8).ravel()
 
@@ -123,7 +125,7 @@ class FourierSolver:
         """``out = A x`` on flat arrays of length nc·N; returns ``x·Ax``."""
         shape = (self.cell.ncomp,) + self.cell.shape
         return self._kernel(x.reshape(shape), self.labels, self.table, self.cid, self.start,
-                            self.cols, out.reshape(shape))
+                            self.cols, out.reshape(shape), self._chunks)
 
     def precondition(self, r: np.ndarray, out: np.ndarray) -> float:
         """``out = K0⁻¹ r`` through the Fourier transform (all components in one call),
