@@ -39,6 +39,7 @@ from .. import tensors
 from ..errors import InputError
 from .cell import Cell, Load, Solution
 from .fft import forward, inverse
+from .kernels import Kernel
 from .grid import phase_means
 
 
@@ -88,7 +89,7 @@ def wave_vectors(shape: tuple[int, ...]) -> np.ndarray:
     return np.ascontiguousarray(xi)
 
 
-@nb.njit(parallel=True, cache=True, fastmath=True)
+@Kernel
 def _local_law(eps, labels, Lc, tauc, sig):
     """``σ_c = Σ_c' Lc[p, c, c'] ε_c' + τ_c[p]`` per pixel (flat arrays (nv, N))."""
     nv, n = eps.shape
@@ -156,7 +157,7 @@ def _green_one(eps_hat, sig_hat, xi, N, comp_a, comp_i, f):
     return abs(v0) ** 2 + abs(v1) ** 2 + abs(v2) ** 2
 
 
-@nb.njit(parallel=True, cache=True, fastmath=True)
+@Kernel
 def _green_update(eps_hat, sig_hat, xi, N, comp_a, comp_i, weight, null):
     """``ε̂ ← ε̂ − Γ̂0 σ̂`` at every non-zero frequency (``ε̂ = 0`` where the effective
     wave vector vanishes); returns ``Σ w |σ̂·ξ|²``."""
