@@ -7,8 +7,10 @@ append their own. A row holds, for one case and method:
 * ``seconds`` — wall time of the property, set-up included;
 * ``seconds_per_iteration``;
 * ``fft_floor`` — the time of the Fourier transforms one iteration needs (one forward
-  ``rfftn`` and one inverse of the ``nc`` stacked components for ``fft``, of the stored
-  strain components for ``ms``), measured in the same run with the same calls (median);
+  and one inverse real FFT of the ``nc`` stacked components for ``fft``, of the stored
+  strain components for ``ms``): the solvers' own transforms, timed inside the same solve
+  (`timed_transforms`), so that both figures see the same machine load (on a shared
+  machine a separate measurement differed by up to 2×);
 * ``ratio`` — seconds per iteration / fft floor;
 * ``peak_mb`` — peak of the memory traced by ``tracemalloc`` during the solve (numpy
   arrays; the FFT library's and numba's internal work buffers are not traced);
@@ -27,6 +29,7 @@ import os
 import time
 import tracemalloc
 import warnings
+from contextlib import contextmanager
 from typing import Callable
 
 import numpy as np
@@ -36,7 +39,7 @@ from .atomic import atomic_write_text
 from .materials import Material
 from .solve import conductivity, elasticity, expansion
 from .solve.fe import memory_estimate
-from .solve.fft import WORKERS, forward, inverse
+from .solve.fft import WORKERS
 from .synth import Inclusions, compose
 
 MATRIX = Material(conductivity=1.0, youngs_modulus=70.0, poisson_ratio=0.33, expansion=23e-6,
@@ -48,35 +51,52 @@ MATERIALS = {0: MATRIX, 1: PARTICLE, 2: PORE}
 PORE_FREE = {0: MATRIX, 1: PARTICLE, 2: MATRIX}
 MS_BUDGET = 100
 FE_MEMORY_LIMIT = 8e9
-FLOOR_REPEATS = 7
 
 
-def fft_floor(shape: tuple[int, ...], components: int) -> float:
-    """Median time of one forward and one inverse real FFT of *components* stacked
-    fields on *shape* (the calls the solvers make once per iteration), over
-    `FLOOR_REPEATS` runs: the median, like the per-iteration time it is compared with,
-    includes what other processes take from the cores."""
-    x = np.random.default_rng(0).random((components,) + shape)
-    times = []
-    for _ in range(FLOOR_REPEATS):
-        start = time.perf_counter()
-        inverse(forward(x), shape)
-        times.append(time.perf_counter() - start)
-    return float(np.median(times))
+@contextmanager
+def timed_transforms():
+    """Time every Fourier transform the solvers make inside the block.
+
+    Wraps `polisect.solve.fft.forward` / `inverse` (also as imported by `solve.ms`);
+    yields a dict with the ``seconds`` spent and the number of forward/inverse ``pairs``.
+    """
+    from .solve import fft as fft_module, ms as ms_module
+    spent = {"seconds": 0.0, "pairs": 0}
+
+    def timed(fn, pair):
+        def wrapper(*args, **kwargs):
+            start = time.perf_counter()
+            try:
+                return fn(*args, **kwargs)
+            finally:
+                spent["seconds"] += time.perf_counter() - start
+                spent["pairs"] += pair
+        return wrapper
+
+    originals = [(module, name, getattr(module, name))
+                 for module in (fft_module, ms_module) for name in ("forward", "inverse")]
+    for module, name, fn in originals:
+        setattr(module, name, timed(fn, name == "forward"))
+    try:
+        yield spent
+    finally:
+        for module, name, fn in originals:
+            setattr(module, name, fn)
 
 
-def measure(case: str, problem: str, shape: tuple[int, ...], method: str, components: int,
+def measure(case: str, problem: str, shape: tuple[int, ...], method: str,
             run: Callable[[], object]) -> dict:
-    """Run *run* (returns a result with solver facts) under tracemalloc; one table row."""
+    """Run *run* (returns a result with solver facts) under tracemalloc with its Fourier
+    transforms timed; one table row."""
     tracemalloc.start()
-    with warnings.catch_warnings():
+    with warnings.catch_warnings(), timed_transforms() as transforms:
         warnings.simplefilter("ignore", RuntimeWarning)      # ms stops at its budget
         result = run()
     peak = tracemalloc.get_traced_memory()[1]
     tracemalloc.stop()
     iterations = max(result.iterations, 1)
     per_iteration = result.seconds / iterations
-    floor = fft_floor(shape, components) if method in ("fft", "ms") else None
+    floor = transforms["seconds"] / transforms["pairs"] if transforms["pairs"] else None
     return {"case": case, "problem": problem, "size": "x".join(map(str, shape)),
             "method": method, "iterations": result.iterations,
             "seconds": round(result.seconds, 3), "seconds_per_iteration": per_iteration,
@@ -106,17 +126,16 @@ def _fe_fits(shape, nc) -> bool:
     return memory_estimate(shape, nc) <= FE_MEMORY_LIMIT
 
 
-def _methods(case, problem, shape, nc, nv, run_with):
+def _methods(case, problem, shape, nc, run_with):
     """fft, fe (if it fits) and ms (pore-free, `MS_BUDGET` iterations) rows of one
     property; ``run_with(method, materials, maxiter)`` returns the result."""
-    rows = [measure(case, problem, shape, "fft", nc, lambda: run_with("fft", MATERIALS, None))]
+    rows = [measure(case, problem, shape, "fft", lambda: run_with("fft", MATERIALS, None))]
     if _fe_fits(shape, nc):
-        rows.append(measure(case, problem, shape, "fe", nc,
-                            lambda: run_with("fe", MATERIALS, None)))
+        rows.append(measure(case, problem, shape, "fe", lambda: run_with("fe", MATERIALS, None)))
     else:
         rows.append(skipped(case, problem, shape, "fe",
                             f"assembled system ~{memory_estimate(shape, nc) / 1e9:.0f} GB"))
-    rows.append(measure(case, problem + ", pore-free", shape, "ms", nv,
+    rows.append(measure(case, problem + ", pore-free", shape, "ms",
                         lambda: run_with("ms", PORE_FREE, MS_BUDGET)))
     return rows
 
@@ -125,7 +144,7 @@ def case_2d_conductivity(quick: bool) -> list[dict]:
     """(a) 2D conductivity, three phases with 10 % pores, contrast 1e3."""
     n = 128 if quick else 1024
     labels = image_2d(n)
-    return _methods("a", "2D conductivity, 10 % pores, contrast 1e3", labels.shape, 1, 2,
+    return _methods("a", "2D conductivity, 10 % pores, contrast 1e3", labels.shape, 1,
                     lambda m, mats, it: conductivity(labels, mats, method=m, maxiter=it))
 
 
@@ -144,8 +163,8 @@ def case_2d_elasticity(quick: bool) -> list[dict]:
         return expansion(labels, mats, plane="plane-strain", method=m, stiffness=stiff[m],
                          maxiter=it)
 
-    rows = _methods("b", "2D plane-strain stiffness, same image", labels.shape, 2, 3, stiffness)
-    rows += _methods("c", "2D plane-strain expansion, same image", labels.shape, 2, 3, thermal)
+    rows = _methods("b", "2D plane-strain stiffness, same image", labels.shape, 2, stiffness)
+    rows += _methods("c", "2D plane-strain expansion, same image", labels.shape, 2, thermal)
     return rows
 
 
@@ -153,7 +172,7 @@ def case_3d_conductivity(quick: bool) -> list[dict]:
     """(d) 3D conductivity of spheres and spherical pores."""
     n = 24 if quick else 128
     labels = image_3d(n)
-    return _methods("d", "3D conductivity, spheres, 10 % pores", labels.shape, 1, 3,
+    return _methods("d", "3D conductivity, spheres, 10 % pores", labels.shape, 1,
                     lambda m, mats, it: conductivity(labels, mats, method=m, maxiter=it))
 
 
@@ -161,7 +180,7 @@ def case_3d_elasticity(quick: bool) -> list[dict]:
     """(e) 3D stiffness of the image of (d)."""
     n = 24 if quick else 128
     labels = image_3d(n)
-    return _methods("e", "3D stiffness, spheres, 10 % pores", labels.shape, 3, 6,
+    return _methods("e", "3D stiffness, spheres, 10 % pores", labels.shape, 3,
                     lambda m, mats, it: elasticity(labels, mats, method=m, maxiter=it))
 
 
@@ -180,7 +199,7 @@ def case_2d_scaling(quick: bool) -> list[dict]:
     rows = []
     for n in sizes:
         labels = smoothed_noise_image(n)
-        rows.append(measure("f", "2D conductivity scaling", labels.shape, "fft", 1,
+        rows.append(measure("f", "2D conductivity scaling", labels.shape, "fft",
                             lambda: conductivity(labels, MATERIALS, method="fft")))
     pixels = np.array([n * n for n in sizes], dtype=float)
     seconds = np.array([r["seconds"] for r in rows])
