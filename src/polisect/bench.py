@@ -39,7 +39,7 @@ from .atomic import atomic_write_text
 from .materials import Material
 from .solve import conductivity, elasticity, expansion
 from .solve.fe import memory_estimate
-from .solve.fft import WORKERS
+from .solve.fft import workers
 from .synth import Inclusions, compose
 
 MATRIX = Material(conductivity=1.0, youngs_modulus=70.0, poisson_ratio=0.33, expansion=23e-6,
@@ -267,7 +267,7 @@ def run_bench(quick: bool = False, json_path: str | None = None) -> list[dict]:
         rows.extend(case(quick))
     if json_path is not None:
         doc = {"schema": "polisect.bench/1", "quick": quick, "cpus": os.cpu_count(),
-               "fft_workers": WORKERS, "rows": rows}
+               "fft_workers": workers(), "rows": rows}
         atomic_write_text(json_path, json.dumps(doc, indent=1) + "\n")
     return rows
 
