@@ -14,6 +14,9 @@ append their own. A row holds, for one case and method:
 * ``ratio`` — seconds per iteration / fft floor;
 * ``peak_mb`` — peak of the memory traced by ``tracemalloc`` during the solve (numpy
   arrays; the FFT library's and numba's internal work buffers are not traced);
+* ``peak_rss_mb`` — the largest resident size of the whole process seen during the solve
+  (`sampled_rss`, every 10 ms; interpreter and libraries included, every buffer counted);
+  this is the figure to hold against a memory limit. None where ``/proc`` is missing;
 * ``converged``.
 
 `ms` runs on a pore-free variant (pores replaced by matrix) with at most
@@ -26,6 +29,7 @@ from __future__ import annotations
 
 import json
 import os
+import threading
 import time
 import tracemalloc
 import warnings
@@ -36,6 +40,7 @@ import numpy as np
 from scipy import ndimage
 
 from .atomic import atomic_write_text
+from .errors import InputError
 from .materials import Material
 from .solve import conductivity, elasticity, expansion
 from .solve.fe import memory_estimate
@@ -84,12 +89,50 @@ def timed_transforms():
             setattr(module, name, fn)
 
 
+@contextmanager
+def sampled_rss(interval: float = 0.01):
+    """Sample the process's resident set size every *interval* seconds inside the block.
+
+    Yields a dict whose ``peak_mb`` is the largest size seen (None without
+    ``/proc/self/statm``, i.e. off Linux).
+    """
+    seen = {"peak_mb": None}
+    page = os.sysconf("SC_PAGE_SIZE") if hasattr(os, "sysconf") else 4096
+    stop = threading.Event()
+
+    def read() -> float | None:
+        try:
+            with open("/proc/self/statm") as f:
+                return int(f.read().split()[1]) * page / 2 ** 20
+        except (OSError, ValueError, IndexError):
+            return None
+
+    def sample():
+        while True:
+            mb = read()
+            if mb is not None and (seen["peak_mb"] is None or mb > seen["peak_mb"]):
+                seen["peak_mb"] = mb
+            if stop.wait(interval):
+                return
+
+    thread = threading.Thread(target=sample, daemon=True)
+    thread.start()
+    try:
+        yield seen
+    finally:
+        stop.set()
+        thread.join()
+        mb = read()
+        if mb is not None and (seen["peak_mb"] is None or mb > seen["peak_mb"]):
+            seen["peak_mb"] = mb
+
+
 def measure(case: str, problem: str, shape: tuple[int, ...], method: str,
             run: Callable[[], object]) -> dict:
     """Run *run* (returns a result with solver facts) under tracemalloc with its Fourier
     transforms timed; one table row."""
     tracemalloc.start()
-    with warnings.catch_warnings(), timed_transforms() as transforms:
+    with warnings.catch_warnings(), timed_transforms() as transforms, sampled_rss() as rss:
         warnings.simplefilter("ignore", RuntimeWarning)      # ms stops at its budget
         result = run()
     peak = tracemalloc.get_traced_memory()[1]
@@ -101,7 +144,9 @@ def measure(case: str, problem: str, shape: tuple[int, ...], method: str,
             "method": method, "iterations": result.iterations,
             "seconds": round(result.seconds, 3), "seconds_per_iteration": per_iteration,
             "fft_floor": floor, "ratio": None if floor is None else per_iteration / floor,
-            "peak_mb": round(peak / 2 ** 20, 1), "converged": result.converged}
+            "peak_mb": round(peak / 2 ** 20, 1),
+            "peak_rss_mb": None if rss["peak_mb"] is None else round(rss["peak_mb"], 1),
+            "converged": result.converged}
 
 
 def skipped(case: str, problem: str, shape: tuple[int, ...], method: str, why: str) -> dict:
@@ -248,14 +293,34 @@ CASES: list[Callable[[bool], list[dict]]] = [case_2d_conductivity, case_2d_elast
                                              case_morphology, case_batch]
 
 
-def run_bench(quick: bool = False, json_path: str | None = None) -> list[dict]:
-    """Run every case of `CASES`; write the rows as JSON to *json_path* when given.
+CASE_LETTERS = "abcdefghi"
+"""The letter of each entry of `CASES` (a–c share the 2D elasticity function)."""
+
+
+def select_cases(letters: str | None) -> list[Callable[[bool], list[dict]]]:
+    """The case functions that produce the rows of *letters* (all for None)."""
+    if letters is None:
+        return list(CASES)
+    letters = letters.replace(",", "").replace(" ", "").lower()
+    unknown = sorted(set(letters) - set(CASE_LETTERS))
+    if unknown or not letters:
+        raise InputError(f"bench cases {''.join(unknown) or repr(letters)} are not known; "
+                         f"choose letters from {CASE_LETTERS}, e.g. --cases ab")
+    owner = {"a": 0, "b": 1, "c": 1, "d": 2, "e": 3, "f": 4, "g": 5, "h": 6, "i": 7}
+    return [CASES[i] for i in sorted({owner[c] for c in letters})]
+
+
+def run_bench(quick: bool = False, json_path: str | None = None,
+              cases: str | None = None) -> list[dict]:
+    """Run the cases of `CASES`; write the rows as JSON to *json_path* when given.
 
     Parameters
     ----------
     quick : bool
         Small sizes (the whole run in well under a minute).
     json_path : str, optional
+    cases : str, optional
+        Letters of the cases to run (`select_cases`); all when omitted.
 
     Returns
     -------
@@ -263,7 +328,7 @@ def run_bench(quick: bool = False, json_path: str | None = None) -> list[dict]:
         One row per case and method (see the module notes).
     """
     rows = []
-    for case in CASES:
+    for case in select_cases(cases):
         rows.extend(case(quick))
     if json_path is not None:
         doc = {"schema": "polisect.bench/1", "quick": quick, "cpus": os.cpu_count(),
@@ -279,14 +344,14 @@ def _fmt(value, spec: str) -> str:
 def format_table(rows: list[dict]) -> str:
     """Plain-text table of bench rows."""
     head = ("case", "method", "size", "iter", "seconds", "s/iter", "fft floor", "ratio",
-            "peak MB", "conv", "problem")
+            "peak MB", "RSS MB", "conv", "problem")
     lines = [head]
     others = [r for r in rows if "figure" in r]
     for r in rows:
         if "figure" in r:
             continue
         if "skipped" in r:
-            lines.append((r["case"], r["method"], r["size"], "-", "-", "-", "-", "-", "-", "-",
+            lines.append((r["case"], r["method"], r["size"], "-", "-", "-", "-", "-", "-", "-", "-",
                           f"{r['problem']} (skipped: {r['skipped']})"))
             continue
         note = r["problem"] + (f" (N^{r['exponent']:.2f})" if "exponent" in r else "")
@@ -295,6 +360,7 @@ def format_table(rows: list[dict]) -> str:
                       _fmt(r["fft_floor"] and r["fft_floor"] * 1e3, ".1f") +
                       (" ms" if r["fft_floor"] else ""),
                       _fmt(r["ratio"], ".2f"), f"{r['peak_mb']:.0f}",
+                      _fmt(r.get("peak_rss_mb"), ".0f"),
                       "yes" if r["converged"] else "no", note))
     widths = [max(len(line[i]) for line in lines) for i in range(len(head) - 1)]
     out = ["  ".join(c.ljust(w) for c, w in zip(line[:-1], widths)) + "  " + line[-1]

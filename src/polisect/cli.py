@@ -285,13 +285,15 @@ def _add_bench(sub):
                        "floor and peak memory per case.")
     p.add_argument("--json", metavar="FILE", help="write the figures as JSON")
     p.add_argument("--quick", action="store_true", help="small sizes (a smoke run)")
+    p.add_argument("--cases", metavar="LETTERS",
+                   help="run only these cases, e.g. 'ab' or 'e' (default: all, a–i)")
     p.set_defaults(run=_run_bench)
 
 
 def _run_bench(args) -> int:
     from .bench import format_table, run_bench
 
-    rows = run_bench(quick=args.quick, json_path=args.json)
+    rows = run_bench(quick=args.quick, json_path=args.json, cases=args.cases)
     print(format_table(rows))
     return EXIT_OK
 
