@@ -400,6 +400,35 @@ def test_run_writes_what_analyze_writes(served, image):
     assert client.request("GET", f"/api/runs/{st['id']}/files/json")[0] == 404
 
 
+def test_status_shows_live_solver_iterations(tmp_path):
+    """While a property is solved the run's status carries the solver, load case,
+    iteration and residual; the finished status drops them."""
+    server, thread = _start(tmp_path, parallel_runs=1, max_upload_mb=10)
+    client = Client(server)
+    try:
+        _, facts = client.upload(_section(str(tmp_path / "wide.tif"), shape=(640, 640)))
+        config = _three_phases(properties=["conductivity"], tolerance=1e-10)
+        run_id = client.json("POST", "/api/runs", {"upload": facts["id"], "config": config})[1]["id"]
+        seen = []
+        t0 = time.monotonic()
+        while time.monotonic() - t0 < 120:
+            _, st = client.json("GET", f"/api/runs/{run_id}")
+            if "solver" in st:
+                seen.append(st["solver"])
+            if st["state"] in ("done", "failed"):
+                break
+            time.sleep(0.05)
+        assert st["state"] == "done", st
+        assert "solver" not in st
+        live = [s for s in seen if "iteration" in s]
+        assert live, "no solver progress was seen during the run"
+        assert all(s["method"] == "fft" and s["load_cases"] == 2 and s["tolerance"] == 1e-10
+                   and s["iteration"] >= 1 and s["residual"] > 0 for s in live)
+    finally:
+        server.shutdown()
+        thread.join(30)
+
+
 def test_concurrent_runs_each_get_their_own_folder(served, image):
     """Three runs submitted at once from three threads (two workers): all finish, apart."""
     client, _ = served

@@ -193,12 +193,22 @@ class StatusFile:
         self._flusher.start()
 
     def progress(self, message: str) -> None:
-        """The pipeline's progress callback: the latest message becomes the stage."""
+        """The pipeline's progress callback: the latest message becomes the stage (and
+        the solver line of the previous stage is dropped)."""
         with self._lock:
+            self.data.pop("solver", None)
             log = self.data.setdefault("log", [])
             log.append([round(time.time() - self._t0, 2), str(message)])
             del log[:-_LOG_LINES]
             self.data["stage"] = str(message)
+            self._dirty = True
+
+    def solver(self, facts: dict) -> None:
+        """The solvers' observer (`polisect.solve.progress`): the current load case,
+        iteration and residual become ``status["solver"]``; a new load case clears it."""
+        keep = ("load_case", "load_cases", "method", "tolerance", "iteration", "residual")
+        with self._lock:
+            self.data["solver"] = {k: facts[k] for k in keep if k in facts}
             self._dirty = True
 
     def update(self, **values) -> None:
@@ -232,13 +242,15 @@ def run_analysis(folder: str) -> None:
     """
     from ..config import load_config
     from ..pipeline import analyze, write_outputs
+    from ..solve import progress as solver_progress
 
     status = StatusFile(folder)
     status.start()
     try:
         cfg = load_config(os.path.join(folder, CONFIG))
-        analysis = analyze(os.path.join(folder, status.data["image"]), cfg,
-                           progress=status.progress)
+        with solver_progress.observe(status.solver):
+            analysis = analyze(os.path.join(folder, status.data["image"]), cfg,
+                               progress=status.progress)
         status.progress("writing outputs")
         out = write_outputs(analysis, folder, config=cfg)
     except InputError as exc:
@@ -257,5 +269,6 @@ def run_analysis(folder: str) -> None:
         files = {"report": out.report, "json": out.json, "csv": out.csv,
                  "phasemap": out.phasemap, "overlay": out.overlay,
                  "particles": out.particles_csv}
+        status.data.pop("solver", None)
         status.finish(state="done", stage="done",
                       outputs={k: os.path.basename(v) for k, v in files.items() if v})

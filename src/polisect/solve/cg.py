@@ -15,7 +15,7 @@ from typing import Callable
 
 import numpy as np
 
-from . import kernels
+from . import kernels, progress
 
 Apply = Callable[[np.ndarray, np.ndarray], float]
 
@@ -76,6 +76,7 @@ def pcg(apply_A: Apply, apply_M: Apply, b: np.ndarray, tol: float,
         rr = kernels.step(x, r, p, ap, alpha)
         iterations += 1
         history.append(np.sqrt(rr) / norm_b)
+        progress.iteration(iterations, history[-1])
         if history[-1] <= tol:
             converged = True
             break

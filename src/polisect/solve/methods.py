@@ -9,6 +9,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
+from . import progress
 from .cell import Cell, Load, Solution
 from .fe import AMGSolver
 from .fft import FourierSolver
@@ -71,7 +72,11 @@ def solve_loads(cell: Cell, loads: list[Load], method: str, tol: float, maxiter:
     name = choose_method(method, cell)
     start = time.perf_counter()
     solver = SOLVERS[name](cell, tol, maxiter or DEFAULT_MAXITER[name])
-    solutions = tuple(solver.solve(load, want) for load, want in zip(loads, fields))
+    solutions = []
+    for index, (load, want) in enumerate(zip(loads, fields), start=1):
+        progress.load_case(index, len(loads), name, tol)
+        solutions.append(solver.solve(load, want))
+    solutions = tuple(solutions)
     seconds = time.perf_counter() - start
     for s in solutions:
         if not s.converged:

@@ -37,6 +37,7 @@ import numpy as np
 
 from .. import tensors
 from ..errors import InputError
+from . import progress
 from .cell import Cell, Load, Solution
 from .fft import forward, inverse
 from .kernels import Kernel
@@ -231,6 +232,7 @@ class MSSolver:
             err2 = _green_update(eps_hat.reshape(nv, -1), sig_hat.reshape(nv, -1), self.xi,
                                  self.N, self.comp_a, self.comp_i, self.weight, self.null)
             history.append(np.sqrt(err2) / norm if norm > 0 else 0.0)
+            progress.iteration(iterations, history[-1])
             if history[-1] <= self.tol or iterations >= self.maxiter:
                 converged = history[-1] <= self.tol
                 break

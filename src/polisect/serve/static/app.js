@@ -731,6 +731,7 @@
     $("state").textContent = st.state;
     $("state").className = `state ${st.state}`;
     $("stage").textContent = st.stage || "";
+    showSolver(final ? null : st.solver);
     $("cancel").hidden = final;
     document.querySelector("#progress .bar").hidden = final;
     const end = st.finished || st.server_time;
@@ -751,6 +752,19 @@
     else if (st.error) show($("result-msg"), st.error);
     else if (st.state === "cancelled") show($("result-msg"), "Cancelled. The run folder keeps what was written so far.", "info");
     else if (st.state === "interrupted") show($("result-msg"), "The server stopped during this run; run it again.", "info");
+  }
+
+  function showSolver(sv) {
+    const line = $("solver");
+    line.hidden = !sv;
+    if (!sv) return;
+    const parts = [`${sv.method} solver`];
+    if (sv.load_cases) parts.push(`load case ${sv.load_case} of ${sv.load_cases}`);
+    if (sv.iteration !== undefined) {
+      parts.push(`iteration ${sv.iteration}`);
+      parts.push(`residual ${sv.residual.toExponential(1)} (stops at ${sv.tolerance.toExponential(0)})`);
+    }
+    line.textContent = parts.join(" · ");
   }
 
   async function cancelRun() {
