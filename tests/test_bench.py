@@ -21,7 +21,7 @@ def test_measure_row_and_table():
     assert row["fft_floor"] > 0 and np.isclose(
         row["ratio"], row["seconds_per_iteration"] / row["fft_floor"])
     assert row["peak_mb"] >= 0
-    assert row["peak_rss_mb"] is None or row["peak_rss_mb"] > row["peak_mb"]
+    assert row["peak_rss_mb"] > row["peak_mb"]
     rows = [row, bench.skipped("x", "tiny conductivity", labels.shape, "fe", "too big")]
     table = bench.format_table(rows)
     assert len(table.splitlines()) == 4 and "skipped: too big" in table
@@ -44,19 +44,6 @@ def test_quick_bench_writes_json(tmp_path):
     doc = json.loads(path.read_text())
     assert doc["schema"] == "polisect.bench/1" and len(doc["rows"]) == len(rows)
     assert {r["case"] for r in rows} >= set("abcdef")
-
-
-def test_sampled_rss_sees_a_large_allocation():
-    """A 200 MB array written inside the block raises the sampled resident size by about
-    that much (common practice: RSS counts touched pages)."""
-    with bench.sampled_rss() as before:
-        pass
-    with bench.sampled_rss() as during:
-        block = np.ones(25 * 2 ** 20)      # 200 MB, every page touched
-        del block
-    if before["peak_mb"] is None:
-        pytest.skip("no /proc/self/statm on this system")
-    assert during["peak_mb"] - before["peak_mb"] > 150
 
 
 def test_select_cases_by_letter():

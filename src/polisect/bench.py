@@ -15,8 +15,8 @@ append their own. A row holds, for one case and method:
 * ``peak_mb`` — peak of the memory traced by ``tracemalloc`` during the solve (numpy
   arrays; the FFT library's and numba's internal work buffers are not traced);
 * ``peak_rss_mb`` — the largest resident size of the whole process seen during the solve
-  (`sampled_rss`, every 10 ms; interpreter and libraries included, every buffer counted);
-  this is the figure to hold against a memory limit. None where ``/proc`` is missing;
+  (`memory.PeakRSS`, every 10 ms; interpreter and libraries included, every buffer
+  counted): the figure to hold against a memory limit;
 * ``converged``.
 
 `ms` runs on a pore-free variant (pores replaced by matrix) with at most
@@ -29,7 +29,6 @@ from __future__ import annotations
 
 import json
 import os
-import threading
 import time
 import tracemalloc
 import warnings
@@ -42,6 +41,7 @@ from scipy import ndimage
 from .atomic import atomic_write_text
 from .errors import InputError
 from .materials import Material
+from .memory import PeakRSS
 from .solve import conductivity, elasticity, expansion
 from .solve.fe import memory_estimate
 from .solve.fft import workers
@@ -89,50 +89,12 @@ def timed_transforms():
             setattr(module, name, fn)
 
 
-@contextmanager
-def sampled_rss(interval: float = 0.01):
-    """Sample the process's resident set size every *interval* seconds inside the block.
-
-    Yields a dict whose ``peak_mb`` is the largest size seen (None without
-    ``/proc/self/statm``, i.e. off Linux).
-    """
-    seen = {"peak_mb": None}
-    page = os.sysconf("SC_PAGE_SIZE") if hasattr(os, "sysconf") else 4096
-    stop = threading.Event()
-
-    def read() -> float | None:
-        try:
-            with open("/proc/self/statm") as f:
-                return int(f.read().split()[1]) * page / 2 ** 20
-        except (OSError, ValueError, IndexError):
-            return None
-
-    def sample():
-        while True:
-            mb = read()
-            if mb is not None and (seen["peak_mb"] is None or mb > seen["peak_mb"]):
-                seen["peak_mb"] = mb
-            if stop.wait(interval):
-                return
-
-    thread = threading.Thread(target=sample, daemon=True)
-    thread.start()
-    try:
-        yield seen
-    finally:
-        stop.set()
-        thread.join()
-        mb = read()
-        if mb is not None and (seen["peak_mb"] is None or mb > seen["peak_mb"]):
-            seen["peak_mb"] = mb
-
-
 def measure(case: str, problem: str, shape: tuple[int, ...], method: str,
             run: Callable[[], object]) -> dict:
     """Run *run* (returns a result with solver facts) under tracemalloc with its Fourier
     transforms timed; one table row."""
     tracemalloc.start()
-    with warnings.catch_warnings(), timed_transforms() as transforms, sampled_rss() as rss:
+    with warnings.catch_warnings(), timed_transforms() as transforms, PeakRSS() as rss:
         warnings.simplefilter("ignore", RuntimeWarning)      # ms stops at its budget
         result = run()
     peak = tracemalloc.get_traced_memory()[1]
@@ -145,7 +107,7 @@ def measure(case: str, problem: str, shape: tuple[int, ...], method: str,
             "seconds": round(result.seconds, 3), "seconds_per_iteration": per_iteration,
             "fft_floor": floor, "ratio": None if floor is None else per_iteration / floor,
             "peak_mb": round(peak / 2 ** 20, 1),
-            "peak_rss_mb": None if rss["peak_mb"] is None else round(rss["peak_mb"], 1),
+            "peak_rss_mb": round(rss.peak, 1),
             "converged": result.converged}
 
 

@@ -39,6 +39,7 @@ from scipy import ndimage as ndi
 from skimage.segmentation import relabel_sequential
 
 from .errors import InputError
+from .memory import PeakRSS
 from .morphology import student_t
 from .packing import SpherePacking, pack_spheres, rasterize
 from .particles import label_particles, measure_particles
@@ -962,41 +963,6 @@ def compare_2d(est: Estimate3D, effective_2d: dict) -> tuple[Comparison, ...]:
     return tuple(out)
 
 
-class _PeakRSS:
-    """Peak resident memory (MB) of this process while the block runs, sampled every 20 ms
-    from /proc/self/statm (Linux); elsewhere the process's lifetime peak
-    (`resource.getrusage`). ``start`` is the resident memory at entry."""
-
-    def __enter__(self):
-        import threading
-
-        self.start = self.peak = self._now()
-        self._stop = threading.Event()
-        self._thread = threading.Thread(target=self._sample, daemon=True)
-        self._thread.start()
-        return self
-
-    def __exit__(self, *exc):
-        self._stop.set()
-        self._thread.join()
-        self.peak = max(self.peak, self._now())
-
-    def _sample(self):
-        while not self._stop.wait(0.02):
-            self.peak = max(self.peak, self._now())
-
-    @staticmethod
-    def _now() -> float:
-        import os
-        import resource
-
-        try:
-            with open("/proc/self/statm") as f:
-                return int(f.read().split()[1]) * os.sysconf("SC_PAGE_SIZE") / 2 ** 20
-        except OSError:
-            return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
-
-
 def bench_section(n: int) -> PhaseMap:
     """The bench's section: a mullite castable with silicon carbide particles, hollow alumina
     spheres with pore cores and free pores (total particle fraction 0.35), n × n pixels of
@@ -1047,7 +1013,7 @@ def bench_reconstruct(quick: bool = False, tol: float = 1e-6) -> list[dict]:
     estimate_3d(bench_section(256), voxels=16, realizations=1, tol=1e-2)     # compile kernels
     size = f"{voxels}x{voxels}x{voxels}"
     tick = time.perf_counter()
-    with _PeakRSS() as rss:
+    with PeakRSS() as rss:
         est = estimate_3d(phasemap, voxels=voxels, realizations=1, tol=tol)
     total = time.perf_counter() - tick
     grown = rss.peak - rss.start
