@@ -73,6 +73,22 @@ def test_analyze_writes_every_output(section, tmp_path, capsys):
     assert "Phase fractions" in html and "data:image/png;base64" in html
 
 
+def test_long_solves_print_their_iterations(section, tmp_path, capsys, monkeypatch):
+    """During a solve the progress shows the solver's iterations (here at every iteration:
+    the interval is set to zero); --quiet prints nothing."""
+    from polisect import cli
+
+    path, cfg, _ = section
+    monkeypatch.setattr(cli._Progress, "SOLVER_EVERY", 0.0)
+    code, _, err = _run(capsys, "analyze", path, "--config", cfg, "--out", tmp_path)
+    assert code == 0, err
+    lines = [ln for ln in err.splitlines() if "solver, load case" in ln]
+    assert lines and "fft solver, load case 1 of 2: iteration 1, residual" in lines[0]
+    assert "stops at 1e-06" in lines[0]
+    code, _, err = _run(capsys, "analyze", path, "--config", cfg, "--out", tmp_path, "--quiet")
+    assert code == 0 and err == ""
+
+
 def test_quick_options_without_config(section, tmp_path, capsys):
     path, _, _ = section
     code, out, err = _run(capsys, "analyze", path, "--classes", "3", "--assign",

@@ -60,6 +60,33 @@ def test_hollow_particles_found_and_used_by_the_schemes(hollow_section):
     assert d["schemes_3d"] and d["bounds_3d"]
 
 
+def test_bounds_of_hollow_particles_hold_the_measured_fractions():
+    """With hollow particles, and with pores inside and outside them, the bounds are the
+    Hashin–Shtrikman bounds of the measured fractions (Hashin & Shtrikman 1962, multiphase
+    form [Σ f/(k + (d−1)k₀)]⁻¹ − (d−1)k₀; fractions by Delesse's principle), in 2D and 3D,
+    and the solved conductivity lies within them. Small and large hollow particles make the
+    number mean of the particles' ratios differ from the area share of the cores."""
+    from polisect.materials import get_material
+
+    labels = compose((256, 256), [
+        Inclusions(1, 0.15, 14.0, hollow_ratio=0.7, core_label=2, min_gap=2.0),
+        Inclusions(1, 0.10, 4.0, hollow_ratio=0.3, core_label=2, min_gap=2.0),
+        Inclusions(2, 0.04, 3.0)], seed=2, matrix_label=0).labels
+    d = analyze(labels, config_from_dict(CONFIG)).result.to_dict()
+    assert any("treated as hollow" in n for n in d["notes"])
+    f = np.array([np.mean(labels == k) for k in range(3)])
+    k = np.array([get_material(m).conductivity for m in ("mullite", "alumina", "air")])
+    for key, dim in (("bounds", 2), ("bounds_3d", 3)):
+        lo, hi = (np.sum(f / (k + (dim - 1) * k0)) ** -1 - (dim - 1) * k0
+                  for k0 in (k.min(), k.max()))
+        b = d[key]["conductivity_W_mK"]
+        assert b["lower"] == pytest.approx(lo, rel=1e-6)
+        assert b["upper"] == pytest.approx(hi, rel=1e-6)
+    solved = d["effective"]["conductivity"]["mean_W_mK"]
+    assert d["bounds"]["conductivity_W_mK"]["lower"] <= solved <= \
+        d["bounds"]["conductivity_W_mK"]["upper"]
+
+
 def test_labels_without_a_phase_entry_are_refused():
     labels = np.zeros((32, 32), np.int32)
     labels[:4] = 7

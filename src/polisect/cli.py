@@ -21,16 +21,28 @@ EXIT_OK, EXIT_INTERNAL, EXIT_INPUT = 0, 1, 2
 
 
 class _Progress:
-    """Progress lines on stderr (silent with --quiet)."""
+    """Progress lines on stderr (silent with --quiet): the pipeline's stages, and during a
+    long solve a line on the solver's iterations every `SOLVER_EVERY` seconds."""
+
+    SOLVER_EVERY = 10.0
 
     def __init__(self, quiet: bool):
         self.quiet = quiet
         self.t0 = time.perf_counter()
+        self.last = self.t0
 
     def __call__(self, message: str) -> None:
         if not self.quiet:
-            print(f"[{time.perf_counter() - self.t0:6.1f} s] {message}", file=sys.stderr,
-                  flush=True)
+            self.last = time.perf_counter()
+            print(f"[{self.last - self.t0:6.1f} s] {message}", file=sys.stderr, flush=True)
+
+    def solver(self, facts: dict) -> None:
+        """Observer of `polisect.solve.progress`."""
+        if facts["event"] != "iteration" or time.perf_counter() - self.last < self.SOLVER_EVERY:
+            return
+        self(f"  {facts['method']} solver, load case {facts['load_case']} of "
+             f"{facts['load_cases']}: iteration {facts['iteration']}, residual "
+             f"{facts['residual']:.1e} (stops at {facts['tolerance']:.0e})")
 
 
 def _add_analyze(sub):
@@ -120,6 +132,7 @@ def _window_options(args):
 def _run_analyze(args) -> int:
     from .config import load_config, quick_config
     from .pipeline import analyze, write_outputs
+    from .solve import progress as solver_progress
 
     progress = _Progress(args.quiet)
     cfg = load_config(args.config) if args.config else None
@@ -127,7 +140,9 @@ def _run_analyze(args) -> int:
         cfg = quick_config(classes=args.classes, assign=args.assign, kind=args.kind, base=cfg)
     cfg = _with_3d_options(cfg, args)
     try:
-        analysis = analyze(args.image, cfg, pixel_size_um=args.pixel_size, progress=progress)
+        with solver_progress.observe(progress.solver):
+            analysis = analyze(args.image, cfg, pixel_size_um=args.pixel_size,
+                               progress=progress)
     except InputError as exc:
         if str(args.image) in str(exc):
             raise

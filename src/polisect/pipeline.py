@@ -251,8 +251,13 @@ def _schemes(phasemap: PhaseMap, fractions, measured, notes: list) -> dict:
     ``schemes``/``bounds`` match the model the solvers use (2D: circular cylinders in the
     transverse plane, the prismatic structure of a solved section; 3D: spheres); for a 2D
     section ``schemes_3d``/``bounds_3d`` add the spherical-particle composite. A particle
-    phase whose particles are mostly hollow is treated as hollow spheres (cylinders) with
-    its mean inner/outer ratio, the pores inside it counted in its envelope.
+    phase whose particles are mostly hollow is treated as hollow spheres (cylinders), the
+    pores inside it counted in its envelope. The core's share of the envelope is the
+    measured one (area fractions, equal to volume fractions by Delesse's principle), so the
+    diameter ratio of the model is ρ = (f_core / f_envelope)^(1/d): the bounds then hold the
+    measured phase fractions exactly (a number mean of the particles' own ratios, which
+    weights small particles as much as large ones, gave other fractions and bounds that the
+    solved value could cross).
     """
     from .schemes import evaluate
 
@@ -260,7 +265,7 @@ def _schemes(phasemap: PhaseMap, fractions, measured, notes: list) -> dict:
     if not any(m.conductivity is not None or m.youngs_modulus is not None for m in mats.values()):
         return {}
     frac = {f.name: f.fraction for f in fractions}
-    hollow = {}
+    core_share = {}
     for pp in measured:
         d = pp.to_dict()
         ratio = d.get("inner_outer_ratio_mean")
@@ -270,13 +275,16 @@ def _schemes(phasemap: PhaseMap, fractions, measured, notes: list) -> dict:
                 name, f_core = core
                 frac[pp.name] += f_core
                 frac[name] = max(0.0, frac[name] - f_core)
-                hollow[pp.name] = ratio
-                notes.append(f"schemes: {pp.name} treated as hollow particles (inner/outer "
-                             f"diameter {ratio:.3g}); the {name} inside them is their core")
+                core_share[pp.name] = f_core / frac[pp.name]
+                notes.append(f"schemes: {pp.name} treated as hollow particles; the {name} "
+                             f"inside them is their core, {core_share[pp.name]:.3g} of the "
+                             f"envelope (measured; particles' mean inner/outer diameter "
+                             f"{ratio:.3g})")
     phases = [(n, mats[n], f) for n, f in frac.items() if f > 0]
     out = {}
     dims = (2, 3) if phasemap.ndim == 2 else (3,)
     for dim in dims:
+        hollow = {n: share ** (1.0 / dim) for n, share in core_share.items()}
         res = evaluate(phases, dim=dim, hollow=hollow).to_dict()
         suffix = "_3d" if (dim == 3 and phasemap.ndim == 2) else ""
         out["schemes" + suffix] = res["schemes"]
