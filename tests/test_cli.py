@@ -83,7 +83,8 @@ def test_long_solves_print_their_iterations(section, tmp_path, capsys, monkeypat
     code, _, err = _run(capsys, "analyze", path, "--config", cfg, "--out", tmp_path)
     assert code == 0, err
     lines = [ln for ln in err.splitlines() if "solver, load case" in ln]
-    assert lines and "fft solver, load case 1 of 2: iteration 1, residual" in lines[0]
+    assert lines and "fft solver, load case 1 of 2 (gradient x): iteration 1, residual" in \
+        lines[0]
     assert "stops at 1e-06" in lines[0]
     code, _, err = _run(capsys, "analyze", path, "--config", cfg, "--out", tmp_path, "--quiet")
     assert code == 0 and err == ""

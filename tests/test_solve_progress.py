@@ -26,6 +26,7 @@ def test_observer_sees_every_load_case_and_iteration(method):
     steps = [e for e in seen if e["event"] == "iteration"]
     assert [e["load_case"] for e in starts] == [1, 2]
     assert all(e["load_cases"] == 2 and e["method"] == method for e in starts)
+    assert [e["name"] for e in starts] == ["gradient x", "gradient y"]
     assert len(steps) >= r.iterations
     last = [e for e in steps if e["load_case"] == 2][-1]
     assert last["residual"] == pytest.approx(r.residuals[1][-1])
@@ -41,3 +42,12 @@ def test_results_do_not_depend_on_the_observer_and_it_ends_with_the_block():
     elasticity(_labels(), MATS, method="fft")
     assert len(seen) == count > 0
     np.testing.assert_array_equal(plain.stiffness, watched.stiffness)
+
+
+def test_load_cases_of_a_generalized_plane_strain_solve_are_named():
+    seen = []
+    with progress.observe(seen.append):
+        elasticity(_labels(), MATS, method="fft")
+    names = [e["name"] for e in seen if e["event"] == "load case"]
+    assert names == ["strain xx", "strain yy", "strain xy", "axial strain zz",
+                     "axial shear xz", "axial shear yz"]

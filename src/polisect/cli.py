@@ -40,8 +40,9 @@ class _Progress:
         """Observer of `polisect.solve.progress`."""
         if facts["event"] != "iteration" or time.perf_counter() - self.last < self.SOLVER_EVERY:
             return
+        what = f" ({facts['name']})" if facts.get("name") else ""
         self(f"  {facts['method']} solver, load case {facts['load_case']} of "
-             f"{facts['load_cases']}: iteration {facts['iteration']}, residual "
+             f"{facts['load_cases']}{what}: iteration {facts['iteration']}, residual "
              f"{facts['residual']:.1e} (stops at {facts['tolerance']:.0e})")
 
 

@@ -206,7 +206,8 @@ class StatusFile:
     def solver(self, facts: dict) -> None:
         """The solvers' observer (`polisect.solve.progress`): the current load case,
         iteration and residual become ``status["solver"]``; a new load case clears it."""
-        keep = ("load_case", "load_cases", "method", "tolerance", "iteration", "residual")
+        keep = ("load_case", "load_cases", "name", "method", "tolerance", "iteration",
+                "residual")
         with self._lock:
             self.data["solver"] = {k: facts[k] for k in keep if k in facts}
             self._dirty = True

@@ -61,12 +61,15 @@ def field_flags(names: Sequence[str], fields) -> list[bool]:
 
 
 def solve_scalar(labels: np.ndarray, k: np.ndarray, method: str, tol: float,
-                 maxiter: int | None, flags: list[bool]) -> tuple[np.ndarray, Run]:
-    """Effective tensor of the scalar problem with per-phase tensors *k* (P, d, d)."""
+                 maxiter: int | None, flags: list[bool],
+                 names: Sequence[str] | None = None) -> tuple[np.ndarray, Run]:
+    """Effective tensor of the scalar problem with per-phase tensors *k* (P, d, d);
+    *names* label its load cases in the live progress (default "gradient x", …)."""
     dim = labels.ndim
     cell = Cell(labels, k.reshape(k.shape[0], 1, dim, 1, dim))
     loads = [Load(np.eye(dim)[i][None, :]) for i in range(dim)]
-    run = solve_loads(cell, loads, method, tol, maxiter, flags)
+    names = names or [f"gradient {a}" for a in AXIS_NAMES[:dim]]
+    run = solve_loads(cell, loads, method, tol, maxiter, flags, names)
     tensor = np.column_stack([s.mean_flux(cell, ld)[0] for s, ld in zip(run.solutions, loads)])
     return tensor, run
 

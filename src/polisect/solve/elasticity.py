@@ -165,7 +165,9 @@ def elastic_result(image: PhaseImage, plane: str | None, method: str, tol: float
         names = names + ("zz",)
         loads.append(Load(np.zeros((2, 2)), tau=tensors.voigt_to_stress(phases.axial)))
     flags = field_flags(names, fields)
-    run = solve_loads(cell, loads, method, tol, maxiter, flags)
+    run = solve_loads(cell, loads, method, tol, maxiter, flags,
+                      [f"{'axial ' if plane == GPS and n == 'zz' else ''}strain {n}"
+                       for n in names])
     C = np.column_stack([tensors.stress_to_voigt(s.mean_flux(cell, ld))
                          for s, ld in zip(run.solutions, loads)])
     if plane != GPS:
@@ -175,7 +177,7 @@ def elastic_result(image: PhaseImage, plane: str | None, method: str, tol: float
                     cell.fractions) for s, name in zip(run.solutions, names)]
     C4 = np.vstack([C, zz])                                    # rows/cols xx, yy, xy, zz
     antiplane, anti_run = solve_scalar(image.labels, phases.antiplane, method, tol, maxiter,
-                                       [False, False])
+                                       [False, False], ["axial shear xz", "axial shear yz"])
     prismatic = np.zeros((6, 6))
     prismatic[np.ix_(PRISMATIC_ORDER, PRISMATIC_ORDER)] = C4
     prismatic[np.ix_([4, 3], [4, 3])] = antiplane

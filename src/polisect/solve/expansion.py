@@ -134,7 +134,7 @@ def expansion(labels, materials: Mapping, *, plane: str = GPS, method: str = "au
     cell = elastic_cell(image, phases)
     load = Load(np.zeros((image.dim, image.dim)),
                 tau=-tensors.voigt_to_stress(phases.thermal_stress))
-    run = solve_loads(cell, [load], method, tol, maxiter, [False])
+    run = solve_loads(cell, [load], method, tol, maxiter, [False], ["thermal eigenstrain"])
     solution = run.solutions[0]
     mean = tensors.stress_to_voigt(solution.mean_flux(cell, load))
     if plane == GPS:

@@ -5,6 +5,7 @@ from __future__ import annotations
 import time
 import warnings
 from dataclasses import dataclass
+from typing import Sequence
 
 import numpy as np
 
@@ -63,8 +64,10 @@ class Run:
 
 
 def solve_loads(cell: Cell, loads: list[Load], method: str, tol: float, maxiter: int | None,
-                fields: list[bool]) -> Run:
+                fields: list[bool], names: Sequence[str] | None = None) -> Run:
     """Solve every load case on *cell* with one solver set up once.
+
+    *names* label the load cases in the live progress (`solve.progress`).
 
     Warns (RuntimeWarning) when a load case stops at *maxiter* before the tolerance.
     """
@@ -74,7 +77,8 @@ def solve_loads(cell: Cell, loads: list[Load], method: str, tol: float, maxiter:
     solver = SOLVERS[name](cell, tol, maxiter or DEFAULT_MAXITER[name])
     solutions = []
     for index, (load, want) in enumerate(zip(loads, fields), start=1):
-        progress.load_case(index, len(loads), name, tol)
+        progress.load_case(index, len(loads), name, tol,
+                           names[index - 1] if names is not None else None)
         solutions.append(solver.solve(load, want))
     solutions = tuple(solutions)
     seconds = time.perf_counter() - start

@@ -34,7 +34,7 @@ def observe(callback: Observer) -> Iterator[None]:
     """Send the solvers' progress to *callback* inside the block.
 
     *callback* receives dicts: ``{"event": "load case", "load_case": i, "load_cases": n,
-    "method": m, "tolerance": t}`` when a load case starts (i from 1), then
+    "method": m, "tolerance": t, "name": what is loaded or None}`` when a load case starts (i from 1), then
     ``{"event": "iteration", "iteration": k, "residual": r, ...}`` after every iteration
     (with the load-case keys repeated). It must be quick; it runs in the solver's thread.
     """
@@ -45,12 +45,15 @@ def observe(callback: Observer) -> Iterator[None]:
         _observer.reset(token)
 
 
-def load_case(index: int, total: int, method: str, tolerance: float) -> None:
-    """A solver starts load case *index* (1-based) of *total*."""
+def load_case(index: int, total: int, method: str, tolerance: float,
+              name: str | None = None) -> None:
+    """A solver starts load case *index* (1-based) of *total*, called *name* (e.g.
+    "gradient x", "strain xy", "axial shear xz")."""
     callback = _observer.get()
     if callback is None:
         return
-    facts = {"load_case": index, "load_cases": total, "method": method, "tolerance": tolerance}
+    facts = {"load_case": index, "load_cases": total, "method": method, "tolerance": tolerance,
+             "name": name}
     _load.set(facts)
     callback({"event": "load case", **facts})
 

@@ -759,7 +759,7 @@
     line.hidden = !sv;
     if (!sv) return;
     const parts = [`${sv.method} solver`];
-    if (sv.load_cases) parts.push(`load case ${sv.load_case} of ${sv.load_cases}`);
+    if (sv.load_cases) parts.push(`load case ${sv.load_case} of ${sv.load_cases}` + (sv.name ? ` (${sv.name})` : ""));
     if (sv.iteration !== undefined) {
       parts.push(`iteration ${sv.iteration}`);
       parts.push(`residual ${sv.residual.toExponential(1)} (stops at ${sv.tolerance.toExponential(0)})`);
