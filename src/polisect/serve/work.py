@@ -218,9 +218,12 @@ class StatusFile:
             self._dirty = True
 
     def finish(self, **values) -> None:
+        """Record the end of the run; a finished run has no live solver line."""
         self._done.set()
         if self._flusher.is_alive():
             self._flusher.join()
+        with self._lock:
+            self.data.pop("solver", None)
         self.update(finished=time.time(), **values)
         self.flush()
 
@@ -270,6 +273,5 @@ def run_analysis(folder: str) -> None:
         files = {"report": out.report, "json": out.json, "csv": out.csv,
                  "phasemap": out.phasemap, "overlay": out.overlay,
                  "particles": out.particles_csv}
-        status.data.pop("solver", None)
         status.finish(state="done", stage="done",
                       outputs={k: os.path.basename(v) for k, v in files.items() if v})

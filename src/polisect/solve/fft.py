@@ -34,6 +34,7 @@ from . import grid, kernels
 from .cell import Cell, Load, Solution
 from .cg import pcg
 
+
 def workers() -> int:
     """Threads for the transforms: ``POLISECT_THREADS`` when set (a batch worker sets it
     to cores ÷ jobs, so two jobs do not oversubscribe two cores), else every core. Read

@@ -76,9 +76,9 @@ def solve_loads(cell: Cell, loads: list[Load], method: str, tol: float, maxiter:
     start = time.perf_counter()
     solver = SOLVERS[name](cell, tol, maxiter or DEFAULT_MAXITER[name])
     solutions = []
-    for index, (load, want) in enumerate(zip(loads, fields), start=1):
-        progress.load_case(index, len(loads), name, tol,
-                           names[index - 1] if names is not None else None)
+    labels = names if names is not None else [None] * len(loads)
+    for index, (load, want, label) in enumerate(zip(loads, fields, labels), start=1):
+        progress.load_case(index, len(loads), name, tol, label)
         solutions.append(solver.solve(load, want))
     solutions = tuple(solutions)
     seconds = time.perf_counter() - start
