@@ -246,9 +246,9 @@ def _run_demo(args) -> int:
                               if k.startswith("fraction_") and not k.endswith(("_low", "_high")))
         print(f"  {title}")
         print(f"    fractions: {fractions}")
-        print(f"    k = {row.get('conductivity_W_mK', float('nan')):.4g} W/(m·K),  "
-              f"E = {row.get('youngs_modulus_GPa', float('nan')):.4g} GPa,  "
-              f"alpha = {row.get('expansion_per_K', float('nan')) * 1e6:.4g} ×10⁻⁶/K")
+        print(f"    k = {row.get('conductivity_W_mK', float('nan')):#.4g} W/(m·K),  "
+              f"E = {row.get('youngs_modulus_GPa', float('nan')):#.4g} GPa,  "
+              f"alpha = {row.get('expansion_per_K', float('nan')) * 1e6:#.4g} ×10⁻⁶/K")
         print(f"    report: {os.path.abspath(report)}")
     print("\nEstimates for screening and comparison, not design values; verify by measurement.")
     return EXIT_OK
