@@ -170,13 +170,13 @@ def _summary(result, paths) -> None:
         lines.append(f"  {p['name']:<18} fraction {p['fraction']:.4f}  (95 % {lo:.4f}–{hi:.4f})")
     eff = d.get("effective") or {}
     if eff.get("conductivity"):
-        lines.append(f"  conductivity      {eff['conductivity']['mean_W_mK']:.4g} W/(m·K)")
+        lines.append(f"  conductivity      {eff['conductivity']['mean_W_mK']:#.4g} W/(m·K)")
     if eff.get("elasticity"):
         el = eff["elasticity"]
-        lines.append(f"  Young's modulus   {el['youngs_modulus_GPa']:.4g} GPa, "
+        lines.append(f"  Young's modulus   {el['youngs_modulus_GPa']:#.4g} GPa, "
                      f"Poisson's ratio {el['poisson_ratio']:.3f}")
     if eff.get("expansion"):
-        lines.append(f"  expansion         {eff['expansion']['mean_per_K'] * 1e6:.4g} ×10⁻⁶/K")
+        lines.append(f"  expansion         {eff['expansion']['mean_per_K'] * 1e6:#.4g} ×10⁻⁶/K")
     if eff:
         lines.append(f"  ({eff.get('model', '')})")
     lines += _summary_3d(d.get("effective_3d") or {})
@@ -200,8 +200,8 @@ def _summary_3d(e3: dict) -> list[str]:
         if not block:
             continue
         ci = block.get(key + "_ci95")
-        spread = f" (95 % {ci[0] * scale:.4g}–{ci[1] * scale:.4g})" if ci else ""
-        lines.append(f"  3D {words:<14} {block[key] * scale:.4g} {unit}{spread}")
+        spread = f" (95 % {ci[0] * scale:#.4g}–{ci[1] * scale:#.4g})" if ci else ""
+        lines.append(f"  3D {words:<14} {block[key] * scale:#.4g} {unit}{spread}")
     if lines:
         lines.append(f"  ({e3.get('model', '')})")
     return lines
