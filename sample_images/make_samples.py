@@ -17,7 +17,7 @@ Usage::
 Each section is a TIFF with resolution tags (centimetres for line A, inches for line B),
 ``<name>_truth.tif`` beside it holds the true label map, and ``amc.toml`` and
 ``castable.toml`` are the run configs. Everything is periodic random sequential
-addition (`polisect.synth.compose`) rendered with `polisect.synth.render_sem`; the same
+addition (`polisect.model3d.synth.compose`) rendered with `polisect.model3d.synth.render_sem`; the same
 command writes the same files.
 """
 
@@ -30,9 +30,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from polisect.atomic import atomic_write_text
-from polisect.image import write_tiff
-from polisect.synth import Inclusions, compose, render_sem
+from polisect.core.atomic import atomic_write_text
+from polisect.read.image import write_tiff
+from polisect.model3d.synth import Inclusions, compose, render_sem
 
 SHAPE = (512, 512)
 #: The subset shipped in the package: (line, batch, section).

@@ -1,10 +1,10 @@
-"""Test microstructures and closed-form references shared by the tests of polisect.solve."""
+"""Test microstructures and closed-form references shared by the tests of polisect.properties.solve."""
 
 import numpy as np
 from scipy import ndimage
 
 from polisect import Material
-from polisect import tensors as T
+from polisect.core import tensors as T
 
 
 def blobs(shape, fractions, sigma, seed=0):

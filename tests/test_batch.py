@@ -1,4 +1,4 @@
-"""Tests of polisect.batch: discovery, grouping, bad files, manifest, resume after a kill,
+"""Tests of polisect.apps.batch: discovery, grouping, bad files, manifest, resume after a kill,
 the Dask path, a crashing worker, the progress bar and the lock."""
 
 import csv
@@ -15,12 +15,12 @@ import numpy as np
 import pytest
 import tifffile
 
-from polisect.batch import (MANIFEST, Grouping, ProgressBar, Settings, Task, _local_results,
+from polisect.apps.batch import (MANIFEST, Grouping, ProgressBar, Settings, Task, _local_results,
                             discover, read_manifest, run_batch)
-from polisect.cli import main
-from polisect.config import load_config
-from polisect.errors import InputError
-from polisect.synth import rsa_discs
+from polisect.apps.cli import main
+from polisect.read.config import load_config
+from polisect.core.errors import InputError
+from polisect.model3d.synth import rsa_discs
 
 CONFIG = ('[image]\nkind = "labels"\n[solve]\nproperties = ["conductivity"]\nfields = false\n'
           '[[phase]]\nlabel = 0\nname = "matrix"\nconductivity = 1.0\n'
@@ -153,7 +153,7 @@ def test_killed_batch_resumes_to_the_same_summary(folder, reference, tmp_path):
     duplicate rows) and no half-written file is left."""
     root, cfg = folder
     out = tmp_path / "out"
-    cmd = [sys.executable, "-m", "polisect.cli", "batch", str(root), "--config", str(cfg),
+    cmd = [sys.executable, "-m", "polisect.apps.cli", "batch", str(root), "--config", str(cfg),
            "--out", str(out), "--jobs", "1", "--quiet"]
     proc = subprocess.Popen(cmd, start_new_session=True, stdout=subprocess.DEVNULL,
                             stderr=subprocess.DEVNULL)
@@ -283,7 +283,7 @@ def test_cli_batch_and_bad_input(folder, tmp_path, capsys):
 @pytest.mark.slow
 def test_bench_batch_quick_runs():
     """The batch benchmark runs and reports its figures (no timing assertion)."""
-    from polisect.batch import bench_batch
+    from polisect.apps.batch import bench_batch
 
     rows = bench_batch(quick=True)
     assert [r["case"] for r in rows][1:] == ["batch, 1 job", "batch, 2 jobs"]

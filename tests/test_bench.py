@@ -1,12 +1,12 @@
-"""polisect.bench: rows, the FFT floor and the table (speed itself is not asserted)."""
+"""polisect.apps.bench: rows, the FFT floor and the table (speed itself is not asserted)."""
 
 import json
 
 import numpy as np
 import pytest
 
-from polisect import bench
-from polisect.solve import conductivity
+from polisect.apps import bench
+from polisect.properties.solve import conductivity
 
 
 def test_measure_row_and_table():
@@ -30,7 +30,7 @@ def test_measure_row_and_table():
 
 def test_images_have_the_stated_fractions():
     """Bench microstructures: 60 % matrix, 30 % particles, 10 % pores (RSA targets within
-    half a particle; Widom 1966 via polisect.synth)."""
+    half a particle; Widom 1966 via polisect.model3d.synth)."""
     for labels in (bench.image_2d(128), bench.image_3d(24), bench.smoothed_noise_image(64)):
         fractions = np.bincount(labels.ravel(), minlength=3) / labels.size
         assert np.allclose(fractions, [0.6, 0.3, 0.1], atol=0.01)

@@ -10,8 +10,8 @@ import numpy as np
 import pytest
 import tifffile
 
-from polisect import synth
-from polisect.cli import main
+from polisect.model3d import synth
+from polisect.apps.cli import main
 
 AMC = """
 [segment]
@@ -76,7 +76,7 @@ def test_analyze_writes_every_output(section, tmp_path, capsys):
 def test_long_solves_print_their_iterations(section, tmp_path, capsys, monkeypatch):
     """During a solve the progress shows the solver's iterations (here at every iteration:
     the interval is set to zero); --quiet prints nothing."""
-    from polisect import cli
+    from polisect.apps import cli
 
     path, cfg, _ = section
     monkeypatch.setattr(cli._Progress, "SOLVER_EVERY", 0.0)

@@ -1,14 +1,14 @@
-"""Tests of polisect.compare: sections of batches, the comparison, its HTML, JSON and CLI."""
+"""Tests of polisect.apps.compare: sections of batches, the comparison, its HTML, JSON and CLI."""
 
 import json
 
 import numpy as np
 import pytest
 
-from polisect.cli import main
-from polisect.compare import Section, compare, html_comparison, load_sections
-from polisect.errors import InputError
-from polisect.results import PhaseFraction, Result, Source, write_json
+from polisect.apps.cli import main
+from polisect.apps.compare import Section, compare, html_comparison, load_sections
+from polisect.core.errors import InputError
+from polisect.pipeline.results import PhaseFraction, Result, Source, write_json
 
 
 def _sections():

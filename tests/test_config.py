@@ -3,7 +3,7 @@
 import pytest
 
 from polisect import InputError
-from polisect.config import config_from_dict, load_config, quick_config
+from polisect.read.config import config_from_dict, load_config, quick_config
 
 BASE = {"segment": {"classes": 3},
         "phase": [{"label": 0, "material": "air", "name": "pore"},

@@ -1,4 +1,4 @@
-"""Tests of polisect.image: reading micrographs, pixel size, information bands, bad files."""
+"""Tests of polisect.read.image: reading micrographs, pixel size, information bands, bad files."""
 
 import hashlib
 
@@ -7,9 +7,9 @@ import numpy as np
 import pytest
 import tifffile
 
-from polisect.errors import InputError
-from polisect.image import find_info_band, read_image, to_grayscale, write_tiff
-from polisect.synth import render_sem, rsa_discs
+from polisect.core.errors import InputError
+from polisect.read.image import find_info_band, read_image, to_grayscale, write_tiff
+from polisect.model3d.synth import render_sem, rsa_discs
 
 
 @pytest.fixture
@@ -276,7 +276,7 @@ def test_to_grayscale_bt709():
 def test_multipage_tiff_volume_round_trip(tmp_path):
     """A synthetic volume written as a multi-page TIFF reads back with its shape, voxel size
     and phase fractions (construction: lossless TIFF, resolution tags as TIFF 6.0 defines)."""
-    from polisect.synth import rsa_spheres
+    from polisect.model3d.synth import rsa_spheres
 
     labels = rsa_spheres((24, 32, 40), 0.2, 4.0, seed=1, hollow_ratio=0.5).labels.astype(np.uint8)
     path = tmp_path / "volume.tif"
@@ -291,7 +291,7 @@ def test_multipage_tiff_volume_round_trip(tmp_path):
 def test_read_stack_folder(tmp_path):
     """A folder of slices reads as one volume in natural name order, with its pixel size;
     other files are ignored with a note (construction)."""
-    from polisect.image import read_stack
+    from polisect.read.image import read_stack
 
     rng = np.random.default_rng(0)
     vol = rng.integers(0, 4, (11, 16, 20)).astype(np.uint8)
@@ -309,7 +309,7 @@ def test_read_stack_folder(tmp_path):
 
 def test_read_stack_bad_input(tmp_path):
     """Stack folders that cannot make a volume say why."""
-    from polisect.image import read_stack
+    from polisect.read.image import read_stack
 
     with pytest.raises(InputError, match="not a folder"):
         read_stack(tmp_path / "missing")

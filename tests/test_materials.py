@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from polisect import InputError, Material, get_material, library
-from polisect.materials import describe_library
+from polisect.core.materials import describe_library
 
 REQUIRED = ["alumina", "silicon-carbide", "zirconia", "zirconia-cubic", "mullite", "magnesia",
             "spinel", "silica-glass", "cordierite", "aluminium", "copper", "steel",

@@ -1,8 +1,8 @@
-"""`polisect.memory`: the sampled peak resident size sees allocations made by libraries."""
+"""`polisect.core.memory`: the sampled peak resident size sees allocations made by libraries."""
 
 import numpy as np
 
-from polisect.memory import PeakRSS, resident_mb
+from polisect.core.memory import PeakRSS, resident_mb
 
 
 def test_peak_sees_a_short_lived_allocation():

@@ -1,4 +1,4 @@
-"""Tests of polisect.morphology: field fractions, Student t, enclosed fractions."""
+"""Tests of polisect.measure.morphology: field fractions, Student t, enclosed fractions."""
 
 import math
 
@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 from hypothesis import given, settings, strategies as st
 
-from polisect.errors import InputError
-from polisect.morphology import (enclosed_fractions, field_fractions, field_grid, student_t)
+from polisect.core.errors import InputError
+from polisect.measure.morphology import (enclosed_fractions, field_fractions, field_grid, student_t)
 
 
 def test_student_t_table_values():
@@ -97,9 +97,9 @@ def test_enclosed_pores_are_kept_apart():
 
 
 from polisect import Material
-from polisect.morphology import PhaseParticles, particle_phases, phase_particles
-from polisect.phasemap import Phase, PhaseMap
-from polisect.synth import Inclusions, compose
+from polisect.measure.morphology import PhaseParticles, particle_phases, phase_particles
+from polisect.core.phasemap import Phase, PhaseMap
+from polisect.model3d.synth import Inclusions, compose
 
 M = Material(conductivity=1.0)
 

@@ -1,12 +1,12 @@
-"""Tests of polisect.packing: periodic sphere packings with given radii and their voxel images."""
+"""Tests of polisect.model3d.packing: periodic sphere packings with given radii and their voxel images."""
 
 import numpy as np
 import pytest
 from hypothesis import given, settings, strategies as st
 from scipy import stats
 
-from polisect.errors import InputError
-from polisect.packing import (SpherePacking, collective_pack, pack_spheres, rasterize,
+from polisect.core.errors import InputError
+from polisect.model3d.packing import (SpherePacking, collective_pack, pack_spheres, rasterize,
                               rsa_pack)
 
 

@@ -1,4 +1,4 @@
-"""Tests of polisect.particles: labelling, splitting, per-particle measurements."""
+"""Tests of polisect.measure.particles: labelling, splitting, per-particle measurements."""
 
 import math
 
@@ -8,10 +8,10 @@ from hypothesis import given, settings, strategies as st
 from scipy import ndimage as ndi
 from skimage.measure import regionprops
 
-from polisect.errors import InputError
-from polisect.particles import (caliper_diameters, crofton_perimeter, label_particles,
+from polisect.core.errors import InputError
+from polisect.measure.particles import (caliper_diameters, crofton_perimeter, label_particles,
                                 measure_particles, miles_lantuejoul_weights)
-from polisect.synth import rsa_discs
+from polisect.model3d.synth import rsa_discs
 
 
 def disc(shape, cy, cx, r):
@@ -249,7 +249,7 @@ def test_3d_labelling_counts_spheres():
 
     Source: scipy.ndimage.label as an independent count (CHECKS.md); truth from synth.
     """
-    from polisect.synth import rsa_spheres
+    from polisect.model3d.synth import rsa_spheres
 
     p = rsa_spheres((48, 48, 48), 0.2, 5.0, seed=3, min_gap=2.0)
     m = p.labels == 1

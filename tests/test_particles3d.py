@@ -5,9 +5,9 @@ import pytest
 from scipy import ndimage
 
 from polisect import Material
-from polisect.particles3d import volume_particles
-from polisect.phasemap import Phase, PhaseMap
-from polisect.synth import Inclusions, compose
+from polisect.measure.particles3d import volume_particles
+from polisect.core.phasemap import Phase, PhaseMap
+from polisect.model3d.synth import Inclusions, compose
 
 M = Material(conductivity=1.0)
 

@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from polisect import InputError, Material
-from polisect.phasemap import Phase, PhaseMap
+from polisect.core.phasemap import Phase, PhaseMap
 
 PHASES = (Phase(0, "pore", Material(conductivity=0.0, name="pore")),
           Phase(1, "matrix", Material(conductivity=1.0, name="m")))

@@ -4,9 +4,9 @@ import numpy as np
 import pytest
 
 from polisect import InputError
-from polisect.config import config_from_dict
-from polisect.pipeline import analyze, write_outputs
-from polisect.synth import Inclusions, compose
+from polisect.read.config import config_from_dict
+from polisect.pipeline.analysis import analyze, write_outputs
+from polisect.model3d.synth import Inclusions, compose
 
 CONFIG = {"image": {"kind": "labels", "pixel_size_um": 1.0},
           "phase": [{"label": 0, "name": "matrix", "material": "mullite"},
@@ -66,7 +66,7 @@ def test_bounds_of_hollow_particles_hold_the_measured_fractions():
     form [Σ f/(k + (d−1)k₀)]⁻¹ − (d−1)k₀; fractions by Delesse's principle), in 2D and 3D,
     and the solved conductivity lies within them. Small and large hollow particles make the
     number mean of the particles' ratios differ from the area share of the cores."""
-    from polisect.materials import get_material
+    from polisect.core.materials import get_material
 
     labels = compose((256, 256), [
         Inclusions(1, 0.15, 14.0, hollow_ratio=0.7, core_label=2, min_gap=2.0),
@@ -116,8 +116,8 @@ def test_outputs_are_complete_and_atomic(hollow_section, tmp_path):
 def test_multipage_tiff_volume_through_the_pipeline(tmp_path):
     """A synthetic volume written as a multi-page TIFF comes back with its shape, voxel size
     and exact volume fractions (Delesse: voxel counts), cubic voxels checked."""
-    from polisect.image import write_tiff
-    from polisect.synth import rsa_spheres
+    from polisect.read.image import write_tiff
+    from polisect.model3d.synth import rsa_spheres
 
     labels = rsa_spheres((16, 24, 32), 0.2, 4.0, seed=3, hollow_ratio=0.5).labels
     path = tmp_path / "volume.tif"
@@ -153,7 +153,7 @@ def test_estimate_3d_block(hollow_section):
 def test_estimate_3d_that_cannot_be_built_leaves_a_warning():
     """A section whose particle phase crosses the whole image (layers) has no sphere sizes:
     the 2D results stand and a warning says why there is no 3D estimate."""
-    from polisect.synth import laminate
+    from polisect.model3d.synth import laminate
 
     layers = laminate((64, 64), 0.3, periods=4)
     cfg = config_from_dict({**CONFIG, "phase": CONFIG["phase"][:2],

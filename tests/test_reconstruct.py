@@ -1,4 +1,4 @@
-"""Tests of polisect.reconstruct: section statistics, volume plan, reconstruction, 3D estimate."""
+"""Tests of polisect.model3d.reconstruct: section statistics, volume plan, reconstruction, 3D estimate."""
 
 import math
 
@@ -7,13 +7,13 @@ import pytest
 from scipy import stats
 
 from polisect import Material
-from polisect.errors import InputError
-from polisect.materials import get_material
-from polisect.packing import pack_spheres
-from polisect.phasemap import Phase, PhaseMap
-from polisect.reconstruct import (Spread, compare_2d, draw_diameters,
+from polisect.core.errors import InputError
+from polisect.core.materials import get_material
+from polisect.model3d.packing import pack_spheres
+from polisect.core.phasemap import Phase, PhaseMap
+from polisect.model3d.reconstruct import (Spread, compare_2d, draw_diameters,
                                   estimate_3d, plan_volume, reconstruct, section_statistics)
-from polisect.synth import Inclusions, compose, laminate
+from polisect.model3d.synth import Inclusions, compose, laminate
 
 MATRIX, SHELL, PORE, SOLID = 1, 2, 0, 3
 
@@ -325,8 +325,8 @@ def _validation(shape, scale, properties, voxels, realizations, seed=7, tol=1e-5
     free pores, total 0.35, in mullite), one section through its middle, the 3D estimate from
     that section alone at the section's pixel size, the original volume's own 3D properties,
     and the 2D section solved as a prismatic structure."""
-    from polisect.effective import solve_effective
-    from polisect.solve import conductivity, elasticity, expansion
+    from polisect.properties.effective import solve_effective
+    from polisect.properties.solve import conductivity, elasticity, expansion
 
     mats = {MATRIX: get_material("mullite"), SOLID: get_material("silicon-carbide"),
             SHELL: get_material("alumina"), PORE: get_material("air")}

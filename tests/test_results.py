@@ -4,7 +4,7 @@ import json
 
 import numpy as np
 
-from polisect.results import (SCHEMA, PhaseFraction, Result, Source, csv_text, quantity_keys,
+from polisect.pipeline.results import (SCHEMA, PhaseFraction, Result, Source, csv_text, quantity_keys,
                               quantity_label, read_json, write_json)
 
 

@@ -1,4 +1,4 @@
-"""Tests of polisect.rve: window tiling, integral range, required size, mirrored windows."""
+"""Tests of polisect.trust.rve: window tiling, integral range, required size, mirrored windows."""
 
 import json
 import math
@@ -9,14 +9,14 @@ import tifffile
 from scipy import integrate, stats
 
 from polisect import Material
-from polisect.cli import main
-from polisect.config import config_from_dict
-from polisect.errors import InputError
-from polisect.phasemap import Phase, PhaseMap
-from polisect.pipeline import analyze, write_outputs
-from polisect.rve import (add_window_study, feature_diameter_px, mirrored, parse_target_error,
+from polisect.apps.cli import main
+from polisect.read.config import config_from_dict
+from polisect.core.errors import InputError
+from polisect.core.phasemap import Phase, PhaseMap
+from polisect.pipeline.analysis import analyze, write_outputs
+from polisect.trust.rve import (add_window_study, feature_diameter_px, mirrored, parse_target_error,
                           tile_levels, window_study, windows_of)
-from polisect.synth import rsa_discs
+from polisect.model3d.synth import rsa_discs
 
 TWO = (Phase(0, "pore", Material(conductivity=1.0)), Phase(1, "solid", Material(conductivity=5.0)))
 

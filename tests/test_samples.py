@@ -1,4 +1,4 @@
-"""Tests of polisect.samples and the shipped demo sections (fictional Kestrel Foundry Supply).
+"""Tests of polisect.apps.samples and the shipped demo sections (fictional Kestrel Foundry Supply).
 
 The acceptance test of the segmentation path: on the rendered demo sections, reading with
 the shipped config and segmenting recovers the true label map with pixel accuracy ≥ 97 %
@@ -9,11 +9,11 @@ import numpy as np
 import pytest
 import tifffile
 
-from polisect.config import load_config
-from polisect.image import read_image
-from polisect.samples import sample_files
+from polisect.read.config import load_config
+from polisect.read.image import read_image
+from polisect.apps.samples import sample_files
 from polisect.sample_images import make_samples
-from polisect.segment import segment_grayscale
+from polisect.segment.thresholds import segment_grayscale
 
 SAMPLES = sample_files()
 

@@ -1,4 +1,4 @@
-"""Tests of polisect.schemes: bounds, mean-field estimates, expansion, `polisect estimate`."""
+"""Tests of polisect.properties.schemes: bounds, mean-field estimates, expansion, `polisect estimate`."""
 
 import json
 import math
@@ -8,12 +8,12 @@ import pytest
 from hypothesis import given, settings, strategies as st
 
 from polisect import InputError, Material, get_material
-from polisect.schemes import (Particle, check_fractions, composite_assemblage, differential,
+from polisect.properties.schemes import (Particle, check_fractions, composite_assemblage, differential,
                               evaluate, expansion_estimate, generalized_self_consistent,
                               hashin_shtrikman, kerner, levin, mori_tanaka, parse_hollow_spec,
                               parse_phase_spec, place, reuss, run_estimate, schapery_bounds,
                               self_consistent, transverse_estimate, turner, voigt)
-from polisect.schemes import layered
+from polisect.properties.schemes import layered
 
 ESTIMATES = ("mori-tanaka", "self-consistent", "differential", "generalized-self-consistent")
 ASSEMBLAGE = {3: "composite-spheres", 2: "composite-cylinders"}
@@ -80,7 +80,7 @@ def test_shear_solutions_satisfy_navier(dim):
 def test_single_layer_equals_dilute_closed_form(dim, mode):
     """One-layer solution = the closed-form dilute factors of a sphere or cylinder
     (Maxwell 1873, Treatise art. 314; Eshelby, Proc. R. Soc. Lond. A 241 (1957) 376)."""
-    from polisect.schemes.core import Moduli, factors
+    from polisect.properties.schemes.core import Moduli, factors
     p = Particle(1.0, 7.0, 150.0, 90.0)
     ref = Moduli(2.0, 60.0 if dim == 3 else 60.0 + 20.0 / 3, 20.0)
     props = p.props(mode, dim)
@@ -372,7 +372,7 @@ def test_dilute_slope_is_common_to_all_estimates(dim):
     ps = two(f)
     base = two(0.0)
     for mode in ("conduction", "bulk", "shear"):
-        from polisect.schemes.core import Moduli, factors
+        from polisect.properties.schemes.core import Moduli, factors
         m0 = base[0].modulus(mode, dim)
         ref = Moduli(base[0].conductivity, base[0].modulus("bulk", dim), base[0].shear_modulus)
         t_eps, t_sig = factors(ps[1], mode, dim, ref)

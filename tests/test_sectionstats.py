@@ -1,4 +1,4 @@
-"""Tests of polisect.sectionstats: ASTM E562 summaries, Grubbs, Welch, ANOVA, spread, Gitman."""
+"""Tests of polisect.trust.sectionstats: ASTM E562 summaries, Grubbs, Welch, ANOVA, spread, Gitman."""
 
 import math
 
@@ -8,8 +8,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import stats
 
-from polisect.errors import InputError
-from polisect.sectionstats import (difference, gitman_chi2, grubbs, grubbs_critical, holm,
+from polisect.core.errors import InputError
+from polisect.trust.sectionstats import (difference, gitman_chi2, grubbs, grubbs_critical, holm,
                                    one_way_anova, section_spread, summarize, welch_anova, welch_t)
 
 RNG = np.random.default_rng(20240607)

@@ -1,14 +1,14 @@
-"""Tests of polisect.segment: thresholds, denoising, clean-up, palettes, class suggestion."""
+"""Tests of polisect.segment.thresholds: thresholds, denoising, clean-up, palettes, class suggestion."""
 
 import numpy as np
 import pytest
 from hypothesis import given, settings, strategies as st
 from skimage.measure import label as connected
 
-from polisect.errors import InputError
-from polisect.segment import (clean_small_features, noise_sigma, segment_grayscale,
+from polisect.core.errors import InputError
+from polisect.segment.thresholds import (clean_small_features, noise_sigma, segment_grayscale,
                               segment_palette, suggest_classes)
-from polisect.synth import Inclusions, compose, render_sem
+from polisect.model3d.synth import Inclusions, compose, render_sem
 
 
 def three_phase(seed=0, noise=0.04, shape=(192, 192)):

@@ -2,7 +2,7 @@
 runs (concurrent, cancelled, crashed) and the run configuration the page writes.
 
 The server runs in a thread of the test process on a free loopback port; its work runs in
-child processes as in normal use. Images are rendered with `polisect.synth` (known phase
+child processes as in normal use. Images are rendered with `polisect.model3d.synth` (known phase
 maps), so no sample file is needed.
 """
 
@@ -20,14 +20,14 @@ import numpy as np
 import pytest
 from hypothesis import given, strategies as st
 
-from polisect.config import load_config
-from polisect.errors import InputError
-from polisect.image import write_tiff
-from polisect.pipeline import analyze
-from polisect.serve.runconfig import run_config_toml
-from polisect.serve.server import is_loopback, serve
-from polisect.serve.uploads import safe_stem, sniff
-from polisect.synth import checkerboard, render_sem, rsa_discs
+from polisect.read.config import load_config
+from polisect.core.errors import InputError
+from polisect.read.image import write_tiff
+from polisect.pipeline.analysis import analyze
+from polisect.apps.serve.runconfig import run_config_toml
+from polisect.apps.serve.server import is_loopback, serve
+from polisect.apps.serve.uploads import safe_stem, sniff
+from polisect.model3d.synth import checkerboard, render_sem, rsa_discs
 
 NO_PROPS = {"properties": []}
 
@@ -572,8 +572,8 @@ _tables = st.dictionaries(st.text(min_size=1), _plain | st.lists(_plain, max_siz
 def test_toml_writer_round_trips(data):
     """Anything of the config's shape written by `toml_text` reads back equal with the
     standard library's TOML reader (TOML v1.0.0, Preston-Werner et al. 2021)."""
-    from polisect.config import tomllib
-    from polisect.serve.runconfig import toml_text
+    from polisect.read.config import tomllib
+    from polisect.apps.serve.runconfig import toml_text
 
     if any(0xD800 <= ord(c) <= 0xDFFF for c in repr(data)):
         return
@@ -597,7 +597,7 @@ def test_loopback_detection_and_warning(tmp_path, capsys):
 
 def test_upload_store_forgets_the_oldest(tmp_path, image):
     """More uploads than the store keeps: the oldest go, the newest stay readable."""
-    from polisect.serve.uploads import UploadStore
+    from polisect.apps.serve.uploads import UploadStore
 
     store = UploadStore(str(tmp_path / "up"), max_bytes=10**6, keep=2)
     size = os.path.getsize(image)
@@ -631,8 +631,8 @@ def test_preview_settings_are_bounded(served, image, body, expect):
 def test_preview_of_a_small_image_is_the_segmentation(served, image):
     """An image smaller than the preview is not subsampled: the preview labels with the
     automatic thresholds are exactly `segment_grayscale` of the image, pixel for pixel."""
-    from polisect.image import read_image
-    from polisect.segment import segment_grayscale
+    from polisect.read.image import read_image
+    from polisect.segment.thresholds import segment_grayscale
 
     client, _ = served
     _, facts = client.upload(image)
@@ -651,7 +651,7 @@ def test_preview_of_a_small_image_is_the_segmentation(served, image):
 
 def test_short_tasks_that_crash_or_overrun_are_stopped():
     """A child that dies is reported with its exit code; one that overruns is killed."""
-    from polisect.serve.jobs import TaskFailed, Tasks, process_context
+    from polisect.apps.serve.jobs import TaskFailed, Tasks, process_context
 
     tasks = Tasks(process_context(), parallel=1, timeout_s=0.5)
     with pytest.raises(TaskFailed, match="exit code 3"):

@@ -29,18 +29,18 @@ sync_api = pytest.importorskip("playwright.sync_api",
                                       "'.[test]')")
 expect = sync_api.expect
 
-from polisect.cli import main as polisect_main  # noqa: E402
-from polisect.serve.server import serve  # noqa: E402
+from polisect.apps.cli import main as polisect_main  # noqa: E402
+from polisect.apps.serve.server import serve  # noqa: E402
 
 
 def _demo_image(folder) -> str:
     """The first shipped demo section, or (before they exist) one rendered like it."""
     try:
-        from polisect.samples import sample_files
+        from polisect.apps.samples import sample_files
         return str(sample_files()[0].image)
     except (ImportError, IndexError, ModuleNotFoundError):
-        from polisect.image import write_tiff
-        from polisect.synth import render_sem, rsa_discs
+        from polisect.read.image import write_tiff
+        from polisect.model3d.synth import render_sem, rsa_discs
 
         particles = rsa_discs((256, 256), 0.25, 9.0, seed=5).labels
         pores = rsa_discs((256, 256), 0.04, 4.0, seed=6).labels

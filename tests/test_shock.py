@@ -1,11 +1,11 @@
-"""Tests of polisect.shock: Hasselman's thermal-shock indices."""
+"""Tests of polisect.properties.shock: Hasselman's thermal-shock indices."""
 
 import json
 
 import pytest
 
 from polisect import InputError
-from polisect.shock import CAUTION, thermal_shock_indices
+from polisect.properties.shock import CAUTION, thermal_shock_indices
 
 
 def test_indices_follow_hasselman_definitions():

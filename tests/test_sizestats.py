@@ -1,4 +1,4 @@
-"""Tests of polisect.sizestats: weighted quantiles, edge-corrected statistics, bootstrap."""
+"""Tests of polisect.measure.sizestats: weighted quantiles, edge-corrected statistics, bootstrap."""
 
 import math
 
@@ -6,10 +6,10 @@ import numpy as np
 import pytest
 from hypothesis import given, settings, strategies as st
 
-from polisect.errors import InputError
-from polisect.particles import ParticleTable, label_particles, measure_particles
-from polisect.sizestats import size_statistics, weighted_quantile
-from polisect.synth import rsa_discs
+from polisect.core.errors import InputError
+from polisect.measure.particles import ParticleTable, label_particles, measure_particles
+from polisect.measure.sizestats import size_statistics, weighted_quantile
+from polisect.model3d.synth import rsa_discs
 
 
 def table(ecd, weight=None, hollow=None, ratio=None, shape=(1000, 1000), pixel=1.0):

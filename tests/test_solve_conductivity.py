@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from polisect import InputError, Material
-from polisect.solve import conductivity
+from polisect.properties.solve import conductivity
 from solve_cases import PORE, blobs, boolean_spheres, centred_disc, hs_conductivity, perrins
 
 

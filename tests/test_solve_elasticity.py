@@ -5,8 +5,8 @@ import numpy as np
 import pytest
 
 from polisect import InputError, Material
-from polisect import tensors as T
-from polisect.solve import conductivity, elasticity
+from polisect.core import tensors as T
+from polisect.properties.solve import conductivity, elasticity
 from solve_cases import PORE, blobs, boolean_spheres, hs_elastic, iso_material, laminate
 
 AL = Material(youngs_modulus=70.0, poisson_ratio=0.33, name="al")

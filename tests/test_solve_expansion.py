@@ -4,8 +4,8 @@ import numpy as np
 import pytest
 
 from polisect import InputError, Material
-from polisect import tensors as T
-from polisect.solve import elasticity, expansion
+from polisect.core import tensors as T
+from polisect.properties.solve import elasticity, expansion
 from solve_cases import PORE, blobs, boolean_spheres, laminate
 
 AL = Material(youngs_modulus=70.0, poisson_ratio=0.33, expansion=23e-6)

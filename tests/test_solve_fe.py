@@ -6,11 +6,11 @@ import pytest
 import scipy.sparse.linalg as spla
 
 from polisect import Material
-from polisect.solve import conductivity, elasticity
-from polisect.solve.cell import Cell, Load, Solution
-from polisect.solve.conductivity import solve_scalar
-from polisect.solve.fe import AMGSolver, pinned_dofs
-from polisect.solve import grid
+from polisect.properties.solve import conductivity, elasticity
+from polisect.properties.solve.cell import Cell, Load, Solution
+from polisect.properties.solve.conductivity import solve_scalar
+from polisect.properties.solve.fe import AMGSolver, pinned_dofs
+from polisect.properties.solve import grid
 from solve_cases import PORE, blobs
 
 
@@ -58,11 +58,11 @@ def test_plane_strain_stiffness_matches_direct_solve(method):
     (CHECKS.md: direct-solver reference)."""
     labels = three_phase((16, 16), seed=2, sigma=1.0)
     r = elasticity(labels, MATERIALS, plane="plane-strain", method=method, tol=1e-12)
-    from polisect.solve.elasticity import elastic_cell
-    from polisect.solve.phases import elastic_phases, phase_image
+    from polisect.properties.solve.elasticity import elastic_cell
+    from polisect.properties.solve.phases import elastic_phases, phase_image
     image = phase_image(labels, MATERIALS)
     cell = elastic_cell(image, elastic_phases(image, "plane-strain", thermal=False))
-    from polisect import tensors as T
+    from polisect.core import tensors as T
     reference = np.column_stack([T.stress_to_voigt(direct(cell, Load(T.voigt_to_strain(e))))
                                  for e in np.eye(3)])
     assert rel(r.stiffness, reference) < 1e-8
@@ -111,8 +111,8 @@ def test_pins_make_islands_nonsingular():
     labels[6, 6] = 0                      # ... with a one-pixel island inside
     labels[0, :] = 2                      # a pore layer: the solid is one strip
     image_materials = {0: MATERIALS[0], 2: PORE}
-    from polisect.solve.elasticity import elastic_cell
-    from polisect.solve.phases import elastic_phases, phase_image
+    from polisect.properties.solve.elasticity import elastic_cell
+    from polisect.properties.solve.phases import elastic_phases, phase_image
     image = phase_image(labels, image_materials)
     cell = elastic_cell(image, elastic_phases(image, "plane-strain", thermal=False))
     solver = AMGSolver(cell, 1e-10, 100)

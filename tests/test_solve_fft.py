@@ -1,11 +1,11 @@
-"""Tests of `polisect.solve.fft` helpers (the solver itself is tested per property)."""
+"""Tests of `polisect.properties.solve.fft` helpers (the solver itself is tested per property)."""
 
 import os
 
 import numpy as np
 import pytest
 
-from polisect.solve import fft
+from polisect.properties.solve import fft
 
 
 @pytest.mark.parametrize("value, expected", [("1", 1), ("3", 3), ("", None), ("zero", None),

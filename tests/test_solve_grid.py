@@ -5,11 +5,11 @@ import numpy as np
 import pytest
 from hypothesis import given, settings, strategies as st
 
-from polisect import tensors as T
-from polisect.solve import grid
-from polisect.solve.cell import Cell, Load
-from polisect.solve.fe import AMGSolver, assemble, element_matrices
-from polisect.solve.fft import FourierSolver
+from polisect.core import tensors as T
+from polisect.properties.solve import grid
+from polisect.properties.solve.cell import Cell, Load
+from polisect.properties.solve.fe import AMGSolver, assemble, element_matrices
+from polisect.properties.solve.fft import FourierSolver
 
 CASES = [((6, 5), 1), ((5, 7), 2), ((4, 5, 3), 1), ((3, 4, 5), 3), ((2, 3), 2), ((2, 2, 3), 3)]
 
@@ -116,7 +116,7 @@ def test_active_nodes():
 def test_kernel_independent_of_thread_blocks(shape, nc):
     """The blocked kernels give the same A u for any number of plane blocks, including
     one plane per block (seams everywhere): common practice (no source)."""
-    from polisect.solve import kernels
+    from polisect.properties.solve import kernels
     cell = random_cell(shape, nc, seed=11)
     solver = FourierSolver(cell, 1e-6, 10)
     u = np.random.default_rng(3).normal(size=(nc,) + shape)

@@ -5,7 +5,7 @@ import numpy as np
 import pytest
 
 from polisect import InputError, Material
-from polisect.solve import conductivity, elasticity, expansion
+from polisect.properties.solve import conductivity, elasticity, expansion
 from solve_cases import PORE, boolean_spheres
 
 

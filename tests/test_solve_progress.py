@@ -1,11 +1,11 @@
-"""Live solver progress (`polisect.solve.progress`): what an observer sees, and that the
+"""Live solver progress (`polisect.properties.solve.progress`): what an observer sees, and that the
 results do not depend on it (common practice, no source)."""
 
 import numpy as np
 import pytest
 
 from polisect import Material
-from polisect.solve import conductivity, elasticity, progress
+from polisect.properties.solve import conductivity, elasticity, progress
 
 MATS = {0: Material(conductivity=1.0, youngs_modulus=70.0, poisson_ratio=0.3),
         1: Material(conductivity=20.0, youngs_modulus=400.0, poisson_ratio=0.2)}

@@ -4,7 +4,7 @@ import numpy as np
 from hypothesis import given, settings, strategies as st
 from scipy import ndimage
 
-from polisect.solve.topology import periodic_clusters
+from polisect.properties.solve.topology import periodic_clusters
 
 
 def ranks(solid):

@@ -1,4 +1,4 @@
-"""Tests of polisect.stereology: Saltykov unfolding, Fullman spacing, contiguity, nearest
+"""Tests of polisect.measure.stereology: Saltykov unfolding, Fullman spacing, contiguity, nearest
 neighbours, two-point correlation."""
 
 import math
@@ -8,11 +8,11 @@ import pytest
 from hypothesis import given, settings, strategies as st
 from scipy.optimize import brentq
 
-from polisect.errors import InputError
-from polisect.particles import label_particles, measure_particles
-from polisect.stereology import (LineDensities, boundary_densities, nearest_neighbour, saltykov,
+from polisect.core.errors import InputError
+from polisect.measure.particles import label_particles, measure_particles
+from polisect.measure.stereology import (LineDensities, boundary_densities, nearest_neighbour, saltykov,
                                  saltykov_matrix, spacing, two_point_correlation)
-from polisect.synth import Inclusions, compose, rsa_discs, rsa_spheres
+from polisect.model3d.synth import Inclusions, compose, rsa_discs, rsa_spheres
 
 
 @pytest.fixture(scope="module")
@@ -55,7 +55,7 @@ def test_delesse_slices_estimate_volume_fraction(spheres):
 
     Source: Delesse (1847) A_A = V_V; interval as ASTM E562.
     """
-    from polisect.morphology import student_t
+    from polisect.measure.morphology import student_t
 
     f = np.array([np.mean(spheres.labels[z] == 1) for z in range(3, 128, 16)])
     v_v = len(spheres.radii) * 4 / 3 * math.pi * 1000 / 128 ** 3

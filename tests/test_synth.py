@@ -1,11 +1,11 @@
-"""Tests of polisect.synth: synthetic periodic microstructures and SEM-like rendering."""
+"""Tests of polisect.model3d.synth: synthetic periodic microstructures and SEM-like rendering."""
 
 import numpy as np
 import pytest
 from hypothesis import assume, given, settings, strategies as st
 
-from polisect.errors import InputError
-from polisect.synth import (Inclusions, checkerboard, compose, laminate, render_sem, rsa_discs,
+from polisect.core.errors import InputError
+from polisect.model3d.synth import (Inclusions, checkerboard, compose, laminate, render_sem, rsa_discs,
                             rsa_spheres, square_array_disc)
 
 

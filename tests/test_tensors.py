@@ -1,11 +1,11 @@
-"""Tests of polisect.tensors: isotropic stiffness, plane reductions, moduli, projections."""
+"""Tests of polisect.core.tensors: isotropic stiffness, plane reductions, moduli, projections."""
 
 import numpy as np
 import pytest
 from hypothesis import given, settings, strategies as st
 
-from polisect.errors import InputError
-from polisect import tensors as T
+from polisect.core.errors import InputError
+from polisect.core import tensors as T
 
 moduli = st.tuples(st.floats(0.1, 1000.0), st.floats(-0.95, 0.49))
 

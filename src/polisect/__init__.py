@@ -6,8 +6,8 @@ and stiffness come out, with analytical bounds beside them and a statement of ho
 the numbers can be trusted.
 """
 
-from .errors import InputError
-from .materials import Material, library, get_material
+from .core.errors import InputError
+from .core.materials import Material, library, get_material
 
 __version__ = "0.1.0"
 

@@ -1,0 +1,467 @@
+"""Command-line front end: ``polisect analyze | batch | compare | demo | materials | estimate |
+bench``.
+
+Exit codes: 0 success; 2 bad input (one line naming the input and what to fix, no
+traceback); 1 internal error.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import sys
+import time
+import traceback
+
+from .. import __version__
+from ..core.errors import InputError
+
+EXIT_OK, EXIT_INTERNAL, EXIT_INPUT = 0, 1, 2
+
+
+class _Progress:
+    """Progress lines on stderr (silent with --quiet): the pipeline's stages, and during a
+    long solve a line on the solver's iterations every `SOLVER_EVERY` seconds."""
+
+    SOLVER_EVERY = 10.0
+
+    def __init__(self, quiet: bool):
+        self.quiet = quiet
+        self.t0 = time.perf_counter()
+        self.last = self.t0
+
+    def __call__(self, message: str) -> None:
+        if not self.quiet:
+            self.last = time.perf_counter()
+            print(f"[{self.last - self.t0:6.1f} s] {message}", file=sys.stderr, flush=True)
+
+    def solver(self, facts: dict) -> None:
+        """Observer of `polisect.properties.solve.progress`."""
+        if facts["event"] != "iteration" or time.perf_counter() - self.last < self.SOLVER_EVERY:
+            return
+        what = f" ({facts['name']})" if facts.get("name") else ""
+        self(f"  {facts['method']} solver, load case {facts['load_case']} of "
+             f"{facts['load_cases']}{what}: iteration {facts['iteration']}, residual "
+             f"{facts['residual']:.1e} (stops at {facts['tolerance']:.0e})")
+
+
+def _add_analyze(sub):
+    p = sub.add_parser("analyze", help="analyse one section image",
+                       description="Analyse one polished-section image: phase map, fractions "
+                       "with confidence, particles, effective properties, bounds, report.")
+    p.add_argument("image", help="image file (TIFF, PNG, JPEG, BMP), or a folder of slices with "
+                   "--stack")
+    p.add_argument("--config", help="run configuration (TOML)")
+    p.add_argument("--out", default="polisect-out", help="output folder (default: polisect-out)")
+    p.add_argument("--json", metavar="FILE", help="also write the result JSON here ('-' = stdout)")
+    p.add_argument("--classes", type=int, help="number of grey-level classes (multi-Otsu)")
+    p.add_argument("--assign", help="materials per class, e.g. 0=air,1=alumina,2=zirconia")
+    p.add_argument("--pixel-size", type=float, metavar="UM", help="pixel size in µm")
+    p.add_argument("--kind", choices=("grayscale", "labels", "palette"), help="[image] kind")
+    p.add_argument("--quiet", action="store_true", help="no progress messages")
+    _add_window_options(p)
+    _add_3d_options(p)
+    p.set_defaults(run=_run_analyze)
+
+
+def _add_3d_options(p) -> None:
+    p.add_argument("--stack", action="store_true",
+                   help="IMAGE is a folder of slice images, read as one 3D volume")
+    p.add_argument("--estimate-3d", action="store_true",
+                   help="also estimate the 3D properties from the section's statistics "
+                        "(reconstructed sphere packings; [solve] estimate_3d)")
+    p.add_argument("--voxels", type=_whole(16), metavar="N",
+                   help="voxels per edge of each 3D reconstruction (default 160)")
+    p.add_argument("--realizations", type=_whole(1), metavar="N",
+                   help="number of 3D reconstructions (default 3)")
+
+
+def _whole(least: int):
+    """argparse type: a whole number of at least *least*."""
+    def parse(text: str) -> int:
+        try:
+            value = int(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+        if value < least:
+            raise argparse.ArgumentTypeError(f"{value} is below the smallest allowed, {least}")
+        return value
+    return parse
+
+
+def _with_3d_options(cfg, args):
+    """The config with --stack, --estimate-3d, --voxels and --realizations applied."""
+    import dataclasses
+
+    if args.stack:
+        if not os.path.isdir(args.image):
+            raise InputError(f"{args.image}: --stack reads a folder of slice images, and this "
+                             "is not a folder (give a multi-page TIFF without --stack)")
+        cfg = dataclasses.replace(cfg, image=dataclasses.replace(cfg.image, volume=True))
+    given = {"estimate_3d": True if args.estimate_3d else None, "voxels": args.voxels,
+             "realizations": args.realizations}
+    given = {k: v for k, v in given.items() if v is not None}
+    if given:
+        cfg = dataclasses.replace(cfg, solve=dataclasses.replace(cfg.solve, **given))
+    return cfg
+
+
+def _add_window_options(p) -> None:
+    p.add_argument("--windows", action="store_true",
+                   help="window-size study: is the image big enough? (integral range, "
+                        "supported error, required size)")
+    p.add_argument("--target-error", metavar="PCT",
+                   help="target relative error at 95 %% for the required size, e.g. 2%% "
+                        "(default 5%%; implies --windows)")
+    p.add_argument("--edges", choices=("periodic", "mirror"),
+                   help="window boundary for the effective properties: periodic (default) "
+                        "or mirrored windows (implies --windows)")
+
+
+def _window_options(args):
+    """The window-study options given on the command line, or None."""
+    if not (args.windows or args.target_error or args.edges):
+        return None
+    from .batch import WindowOptions
+    from ..trust.rve import parse_target_error
+
+    return WindowOptions(edges=args.edges or "periodic",
+                         target_error=parse_target_error(args.target_error or "5%"))
+
+
+def _run_analyze(args) -> int:
+    from ..read.config import load_config, quick_config
+    from ..pipeline.analysis import analyze, write_outputs
+    from ..properties.solve import progress as solver_progress
+
+    progress = _Progress(args.quiet)
+    cfg = load_config(args.config) if args.config else None
+    if any(v is not None for v in (args.classes, args.assign, args.kind)) or cfg is None:
+        cfg = quick_config(classes=args.classes, assign=args.assign, kind=args.kind, base=cfg)
+    cfg = _with_3d_options(cfg, args)
+    try:
+        with solver_progress.observe(progress.solver):
+            analysis = analyze(args.image, cfg, pixel_size_um=args.pixel_size,
+                               progress=progress)
+    except InputError as exc:
+        if str(args.image) in str(exc):
+            raise
+        raise InputError(f"{args.image}: {exc}") from None
+    windows = _window_options(args)
+    if windows is not None:
+        from ..trust.rve import add_window_study
+
+        analysis = add_window_study(analysis, cfg, edges=windows.edges,
+                                    target_error=windows.target_error, progress=progress)
+    progress("writing outputs")
+    paths = write_outputs(analysis, args.out, config=cfg)
+    _emit_json(args.json, analysis.result.to_json())
+    if not args.quiet:
+        _summary(analysis.result, paths)
+    return EXIT_OK
+
+
+def _summary(result, paths) -> None:
+    d = result.to_dict()
+    lines = [f"{d['source']['path']}: {' × '.join(map(str, d['source']['shape']))} px"]
+    for p in d["phases"]:
+        lo, hi = p["fraction_ci95"]
+        lines.append(f"  {p['name']:<18} fraction {p['fraction']:.4f}  (95 % {lo:.4f}–{hi:.4f})")
+    eff = d.get("effective") or {}
+    if eff.get("conductivity"):
+        lines.append(f"  conductivity      {eff['conductivity']['mean_W_mK']:#.4g} W/(m·K)")
+    if eff.get("elasticity"):
+        el = eff["elasticity"]
+        lines.append(f"  Young's modulus   {el['youngs_modulus_GPa']:#.4g} GPa, "
+                     f"Poisson's ratio {el['poisson_ratio']:.3f}")
+    if eff.get("expansion"):
+        lines.append(f"  expansion         {eff['expansion']['mean_per_K'] * 1e6:#.4g} ×10⁻⁶/K")
+    if eff:
+        lines.append(f"  ({eff.get('model', '')})")
+    lines += _summary_3d(d.get("effective_3d") or {})
+    for w in d["warnings"]:
+        lines.append(f"  warning: {w}")
+    if d.get("windows"):
+        lines.append(f"  window study: {d['windows']['verdict']}")
+    lines.append(f"  report: {paths.report}")
+    lines.append(f"  json:   {paths.json}")
+    print("\n".join(lines), file=sys.stderr)
+
+
+def _summary_3d(e3: dict) -> list[str]:
+    """Lines for the 3D estimate: mean and 95 % interval over the realizations."""
+    rows = [("conductivity", "mean_W_mK", "conductivity", 1.0, "W/(m·K)"),
+            ("elasticity", "youngs_modulus_GPa", "Young's modulus", 1.0, "GPa"),
+            ("expansion", "mean_per_K", "expansion", 1e6, "×10⁻⁶/K")]
+    lines = []
+    for prop, key, words, scale, unit in rows:
+        block = e3.get(prop)
+        if not block:
+            continue
+        ci = block.get(key + "_ci95")
+        spread = f" (95 % {ci[0] * scale:#.4g}–{ci[1] * scale:#.4g})" if ci else ""
+        lines.append(f"  3D {words:<14} {block[key] * scale:#.4g} {unit}{spread}")
+    if lines:
+        lines.append(f"  ({e3.get('model', '')})")
+    return lines
+
+
+def _emit_json(target, text) -> None:
+    if not target:
+        return
+    if target == "-":
+        sys.stdout.write(text + "\n")
+    else:
+        from ..core.atomic import atomic_write_text
+        atomic_write_text(target, text + "\n")
+
+
+def _add_demo(sub):
+    p = sub.add_parser("demo", help="run the built-in demo sections",
+                       description="Analyse the built-in demo sections (a fictional supplier's "
+                       "two product lines) and write their reports.")
+    p.add_argument("--out", default="polisect-demo", help="output folder (default: polisect-demo)")
+    p.add_argument("--quiet", action="store_true")
+    p.set_defaults(run=_run_demo)
+
+
+def _run_demo(args) -> int:
+    from ..read.config import load_config
+    from ..pipeline.analysis import analyze, write_outputs
+    from .samples import demo_sections
+
+    progress = _Progress(args.quiet)
+    written = []
+    for section in demo_sections():
+        progress(f"demo: {section.title}")
+        cfg = load_config(section.config)
+        analysis = analyze(section.image, cfg, progress=progress)
+        paths = write_outputs(analysis, os.path.join(args.out, section.group), config=cfg)
+        written.append((section.title, analysis.result.headline(), paths.report))
+    print("Demo: sections of the fictional Kestrel Foundry Supply's two product lines")
+    print("(2D sections solved as prismatic structures, generalized plane strain)\n")
+    for title, row, report in written:
+        fractions = ", ".join(f"{k[len('fraction_'):]} {v:.3f}" for k, v in row.items()
+                              if k.startswith("fraction_") and not k.endswith(("_low", "_high")))
+        print(f"  {title}")
+        print(f"    fractions: {fractions}")
+        print(f"    k = {row.get('conductivity_W_mK', float('nan')):#.4g} W/(m·K),  "
+              f"E = {row.get('youngs_modulus_GPa', float('nan')):#.4g} GPa,  "
+              f"alpha = {row.get('expansion_per_K', float('nan')) * 1e6:#.4g} ×10⁻⁶/K")
+        print(f"    report: {os.path.abspath(report)}")
+    print("\nEstimates for screening and comparison, not design values; verify by measurement.")
+    return EXIT_OK
+
+
+def _add_materials(sub):
+    p = sub.add_parser("materials", help="list the built-in material library")
+    p.add_argument("--json", action="store_true", help="print the library as JSON")
+    p.set_defaults(run=_run_materials)
+
+
+def _run_materials(args) -> int:
+    from ..core.materials import describe_library, library
+
+    if args.json:
+        print(json.dumps({k: m.to_dict() for k, m in library().items()}, indent=2))
+    else:
+        print(describe_library())
+    return EXIT_OK
+
+
+def _add_estimate(sub):
+    p = sub.add_parser("estimate", help="bounds and mean-field estimates without an image",
+                       description="Analytical bounds and mean-field estimates from phase "
+                       "fractions alone.")
+    p.add_argument("--phase", action="append", required=True, metavar="SPEC",
+                   help="NAME:FRACTION (library material) or NAME:FRACTION:k=..,E=..,nu=..,"
+                        "alpha=.. ; repeat for every phase")
+    p.add_argument("--matrix", help="the matrix phase for Mori–Tanaka (default: largest)")
+    p.add_argument("--2d", dest="two_d", action="store_true",
+                   help="2D: circular cylinders, transverse plane")
+    p.add_argument("--hollow", action="append", default=[], metavar="NAME:RATIO",
+                   help="an inclusion phase is hollow with this inner/outer diameter ratio")
+    p.add_argument("--json", metavar="FILE", help="write JSON here ('-' = stdout)")
+    p.set_defaults(run=_run_estimate)
+
+
+def _run_estimate(args) -> int:
+    from ..properties.schemes import run_estimate
+
+    text = run_estimate(args.phase, args.matrix, args.two_d, args.hollow, args.json)
+    if text:
+        print(text)
+    return EXIT_OK
+
+
+def _add_bench(sub):
+    p = sub.add_parser("bench", help="measure solver and analysis speed",
+                       description="Benchmarks: prints a table of iterations, seconds, the FFT "
+                       "floor and peak memory per case.")
+    p.add_argument("--json", metavar="FILE", help="write the figures as JSON")
+    p.add_argument("--quick", action="store_true", help="small sizes (a smoke run)")
+    p.add_argument("--cases", metavar="LETTERS",
+                   help="run only these cases, e.g. 'ab' or 'e' (default: all, a–i)")
+    p.set_defaults(run=_run_bench)
+
+
+def _run_bench(args) -> int:
+    from .bench import format_table, run_bench
+
+    rows = run_bench(quick=args.quick, json_path=args.json, cases=args.cases)
+    print(format_table(rows))
+    return EXIT_OK
+
+
+def _add_serve(sub):
+    p = sub.add_parser("serve", help="the drop-in web page on this computer",
+                       description="Start a local web page: drop a section image, check the "
+                       "phase map, assign materials, run, read and download the report.")
+    p.add_argument("--port", type=int, default=8765, help="port (default 8765; 0 = any free)")
+    p.add_argument("--host", default="127.0.0.1",
+                   help="address to listen on (default 127.0.0.1, this computer only; the "
+                        "page has no login)")
+    p.add_argument("--out", default="polisect-runs",
+                   help="output folder, one sub-folder per run (default: polisect-runs)")
+    p.add_argument("--max-upload-mb", type=float, default=200.0, metavar="MB",
+                   help="largest image accepted, MB (default 200)")
+    p.add_argument("--jobs", type=int, default=1,
+                   help="runs computed at the same time (default 1; more wait in a queue)")
+    p.add_argument("--open", action="store_true", help="open the page in the web browser")
+    p.add_argument("--verbose", action="store_true", help="log every request")
+    p.set_defaults(run=_run_serve)
+
+
+def _run_serve(args) -> int:
+    from .serve import serve
+
+    serve(host=args.host, port=args.port, out_dir=args.out, max_upload_mb=args.max_upload_mb,
+          parallel_runs=args.jobs, open_browser=args.open, verbose=args.verbose)
+    return EXIT_OK
+
+
+def _add_batch(sub):
+    p = sub.add_parser("batch", help="analyse every image of a folder",
+                       description="Analyse every image under a folder (recursively) in "
+                       "parallel; survives bad files and kills (--resume), writes summary.csv, "
+                       "failures.csv, index.html and a manifest.")
+    p.add_argument("folder", help="folder holding the images (searched recursively)")
+    p.add_argument("--config", help="run configuration (TOML) for every image")
+    p.add_argument("--out", default="polisect-batch", help="output folder (default: "
+                   "polisect-batch)")
+    p.add_argument("--pattern", default="*.tif", help="file-name pattern(s), comma-separated, "
+                   "case-insensitive (default: *.tif)")
+    p.add_argument("--jobs", type=int, default=1, help="worker processes (default 1)")
+    p.add_argument("--scheduler", metavar="ADDRESS", help="run on a Dask distributed "
+                   "scheduler, e.g. tcp://host:8786 (needs polisect[dask])")
+    p.add_argument("--resume", action="store_true", help="keep what a previous run into --out "
+                   "finished; redo changed images or a changed config")
+    p.add_argument("--group-by", metavar="folder|REGEX", help="batches by folder (default) or "
+                   "by a regex with (?P<batch>...) on the file name")
+    p.add_argument("--classes", type=int, help="number of grey-level classes (multi-Otsu)")
+    p.add_argument("--assign", help="materials per class, e.g. 0=air,1=alumina,2=zirconia")
+    p.add_argument("--pixel-size", type=float, metavar="UM", help="pixel size in µm")
+    p.add_argument("--kind", choices=("grayscale", "labels", "palette"), help="[image] kind")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+    _add_window_options(p)
+    p.set_defaults(run=_run_batch)
+
+
+def _run_batch(args) -> int:
+    from .batch import run_batch
+    from ..read.config import load_config, quick_config
+
+    cfg = load_config(args.config) if args.config else None
+    if any(v is not None for v in (args.classes, args.assign, args.kind)) or cfg is None:
+        cfg = quick_config(classes=args.classes, assign=args.assign, kind=args.kind, base=cfg)
+    r = run_batch(args.folder, args.out, config=cfg, pattern=args.pattern, jobs=args.jobs,
+                  scheduler=args.scheduler, resume=args.resume, group_by=args.group_by,
+                  pixel_size_um=args.pixel_size, windows=_window_options(args),
+                  quiet=args.quiet)
+    for note in r.notes:
+        print(f"polisect: note: {note}", file=sys.stderr)
+    if not args.quiet:
+        print(f"{r.done} of {r.total} images done ({r.skipped} from before), {r.failed} "
+              f"failed, {r.seconds:.1f} s\n  index:    {r.index_html}\n  summary:  "
+              f"{r.summary_csv}\n  failures: {r.failures_csv}", file=sys.stderr)
+    return EXIT_OK
+
+
+def _add_compare(sub):
+    p = sub.add_parser("compare", help="compare sections and batches",
+                       description="Statistics of the sections of each batch (mean, 95 % "
+                       "interval, %RA), Grubbs outliers, Welch's t-test / ANOVA between "
+                       "batches, heterogeneity against the window studies, as HTML and JSON.")
+    p.add_argument("dirs", nargs="+", metavar="DIR", help="folders written by polisect batch "
+                   "(or holding result JSON files)")
+    p.add_argument("--group-by", metavar="dir|folder|REGEX", help="batches: as recorded by "
+                   "polisect batch (default), each DIR (dir), the image folder (folder), or a "
+                   "regex with (?P<batch>...) on the image file name")
+    p.add_argument("--out", metavar="FILE.html", default="comparison.html",
+                   help="HTML page to write (default: comparison.html)")
+    p.add_argument("--json", metavar="FILE", help="also write the comparison as JSON "
+                   "('-' = stdout)")
+    p.add_argument("--quiet", action="store_true", help="do not print the findings")
+    p.set_defaults(run=_run_compare)
+
+
+def _run_compare(args) -> int:
+    from .compare import compare, load_sections, write_html
+
+    comparison = compare(load_sections(args.dirs, args.group_by))
+    write_html(comparison, args.out)
+    _emit_json(args.json, comparison.to_json())
+    if not args.quiet:
+        lines = [f"{len(comparison.sections)} sections in {len(comparison.batches)} batch(es): "
+                 + ", ".join(comparison.batches)]
+        lines += [f"  {s}" for s in comparison.sentences()]
+        lines.append(f"  report: {args.out}")
+        print("\n".join(lines), file=sys.stderr)
+    return EXIT_OK
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="polisect",
+        description="Polished sections of composites to phase maps, particle statistics and "
+                    "effective properties with bounds and confidence.")
+    parser.add_argument("--version", action="version", version=f"polisect {__version__}")
+    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+    for add in (_add_analyze, _add_batch, _add_compare, _add_demo, _add_materials,
+                _add_estimate, _add_bench, _add_serve):
+        add(sub)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Entry point of the ``polisect`` command."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        return args.run(args)
+    except InputError as exc:
+        print(f"polisect: error: {exc}", file=sys.stderr)
+        return EXIT_INPUT
+    except OSError as exc:
+        if exc.filename is None:
+            raise
+        print(f"polisect: error: {exc.filename}: {exc.strerror}; check the path and its "
+              "permissions", file=sys.stderr)
+        return EXIT_INPUT
+    except BrokenPipeError:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        return EXIT_OK
+    except KeyboardInterrupt:
+        print("polisect: interrupted", file=sys.stderr)
+        return 130
+    except Exception:  # noqa: BLE001 - the last line of defence: report and exit 1
+        print("polisect: internal error (please report it with the traceback below)",
+              file=sys.stderr)
+        traceback.print_exc()
+        return EXIT_INTERNAL
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,140 @@
+"""Effective conductivity tensor of a periodic pixel/voxel map."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Mapping, Sequence
+
+import numpy as np
+
+from ...core import tensors
+from ...core.errors import InputError
+from .cell import Cell, Load
+from .fields import AXIS_NAMES, ConductivityFields
+from .methods import Run, solve_loads
+from .phases import conductivity_tensors, phase_image
+from .results import HasFacts, SolverFacts, matrix
+
+
+@dataclass(frozen=True, eq=False)
+class ConductivityResult(HasFacts):
+    """Effective conductivity and how it was computed.
+
+    Attributes
+    ----------
+    tensor : (d, d) ndarray
+        ⟨q⟩ = tensor · ⟨∇T⟩ (units of the phase conductivities). Column j is the mean
+        flux under a unit mean gradient along axis j.
+    facts : SolverFacts
+        ``method``, ``iterations``, ``seconds``, ``residuals``, ``converged`` are also
+        attributes of the result.
+    fields : ConductivityFields or None
+    """
+
+    tensor: np.ndarray
+    facts: SolverFacts
+    fields: ConductivityFields | None = None
+
+    def mean(self) -> float:
+        """Isotropic projection: the mean conductivity tr(k)/d."""
+        return float(np.trace(self.tensor) / self.tensor.shape[0])
+
+    def anisotropy(self) -> float:
+        """‖k − mean·I‖ / ‖k‖ (0 when isotropic); see `tensors.tensor_anisotropy`."""
+        return tensors.tensor_anisotropy(0.5 * (self.tensor + self.tensor.T))
+
+    def to_dict(self) -> dict:
+        return {"tensor": matrix(self.tensor), "mean": self.mean(),
+                "anisotropy": self.anisotropy(), **self.facts.to_dict()}
+
+
+def field_flags(names: Sequence[str], fields) -> list[bool]:
+    """Which load cases keep their fields: all for True, none for False, or those named."""
+    if fields is True or fields is False:
+        return [bool(fields)] * len(names)
+    wanted = set(fields)
+    unknown = wanted - set(names)
+    if unknown:
+        raise InputError(f"fields for unknown load cases {sorted(unknown)}; choose from "
+                         f"{list(names)} or pass fields=True")
+    return [n in wanted for n in names]
+
+
+def solve_scalar(labels: np.ndarray, k: np.ndarray, method: str, tol: float,
+                 maxiter: int | None, flags: list[bool],
+                 names: Sequence[str] | None = None) -> tuple[np.ndarray, Run]:
+    """Effective tensor of the scalar problem with per-phase tensors *k* (P, d, d);
+    *names* label its load cases in the live progress (default "gradient x", …)."""
+    dim = labels.ndim
+    cell = Cell(labels, k.reshape(k.shape[0], 1, dim, 1, dim))
+    loads = [Load(np.eye(dim)[i][None, :]) for i in range(dim)]
+    names = names or [f"gradient {a}" for a in AXIS_NAMES[:dim]]
+    run = solve_loads(cell, loads, method, tol, maxiter, flags, names)
+    tensor = np.column_stack([s.mean_flux(cell, ld)[0] for s, ld in zip(run.solutions, loads)])
+    return tensor, run
+
+
+def conductivity(labels, materials: Mapping, *, method: str = "auto", tol: float = 1e-6,
+                 maxiter: int | None = None, fields=False) -> ConductivityResult:
+    """Effective conductivity tensor of a periodic 2D or 3D phase map.
+
+    One load case per axis: a unit mean temperature gradient with periodic fluctuations.
+
+    Parameters
+    ----------
+    labels : (nx, ny) or (nx, ny, nz) int array_like
+        Phase label of every pixel/voxel; periodic.
+    materials : mapping label → Material
+        Every label needs a ``conductivity`` (a number or a d×d tensor; 0 for a pore).
+    method : {'auto', 'fft', 'fe', 'ms'}
+        'fft' FFT-preconditioned CG; 'fe' assembled matrix with AMG-preconditioned CG
+        (same equations); 'ms' Moulinec–Suquet basic scheme (no pores); 'auto' the
+        fastest correct one.
+    tol : float
+        Relative residual (equilibrium error for 'ms') to reach.
+    maxiter : int, optional
+    fields : bool or sequence of {'x', 'y', 'z'}
+        Keep the temperature-gradient and heat-flux fields of all (True) or the named
+        load cases.
+
+    Returns
+    -------
+    ConductivityResult
+
+    References
+    ----------
+    .. [1] Leuschner, M. & Fritzen, F. (2018). Fourier-Accelerated Nodal Solvers (FANS)
+       for homogenization problems. Comput. Mech. 62, 359–392.
+    .. [2] Moulinec, H. & Suquet, P. (1998). Comput. Methods Appl. Mech. Engrg. 157, 69–94.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from polisect import Material
+    >>> layers = np.zeros((8, 8), dtype=int); layers[:4] = 1
+    >>> r = conductivity(layers, {0: Material(conductivity=1.0), 1: Material(conductivity=3.0)})
+    >>> np.round(np.diag(r.tensor), 6)      # across the layers: harmonic; along: arithmetic
+    array([1.5, 2. ])
+    """
+    image = phase_image(labels, materials)
+    names = AXIS_NAMES[:image.dim]
+    flags = field_flags(names, fields)
+    k = conductivity_tensors(image)
+    tensor, run = solve_scalar(image.labels, k, method, tol, maxiter, flags)
+    out = None
+    if any(flags):
+        kept = [i for i, f in enumerate(flags) if f]
+        grads = np.array([run.solutions[i].gradient[0] for i in kept])
+        flux = _flux(k, image.labels, grads)
+        grads[:, :, ~np.any(k.reshape(len(k), -1) != 0, axis=1)[image.labels]] = np.nan
+        out = ConductivityFields(tuple(names[i] for i in kept), grads, flux)
+    return ConductivityResult(tensor, SolverFacts.of(run), out)
+
+
+def _flux(k: np.ndarray, labels: np.ndarray, grads: np.ndarray) -> np.ndarray:
+    """``q = k ∇T`` per pixel for stacked gradient fields (n, d, *grid)."""
+    flux = np.zeros_like(grads)
+    for p in range(k.shape[0]):
+        mask = labels == p
+        flux[:, :, mask] = np.einsum("ij,ljm->lim", k[p], grads[:, :, mask])
+    return flux
