@@ -3,7 +3,7 @@
 `run_batch` finds the images under a folder (recursively), analyses each one in a local
 process pool (or on a Dask distributed cluster) and writes, in the output folder:
 
-* per image, the outputs of `polisect.pipeline.analysis.write_outputs` (every file atomic), in
+* per image, the outputs of `polisect.apps.run.run_section` (written as a whole set), in
   ``sections/<relative folder>/``;
 * ``manifest.json`` (atomic): for every input its content hash, the configuration hash,
   its status (``done`` / ``failed`` with a one-line reason) and its output paths;
@@ -54,9 +54,9 @@ from ..core.atomic import atomic_write_text
 from ..read.config import Config, config_from_dict
 from ..core.errors import InputError
 from ..present.htmlkit import CAUTION_SECTION, page
-from ..pipeline.analysis import analyze, write_outputs
-from ..pipeline.results import csv_text, headline, quantity_keys, quantity_label, read_json
-from ..trust.rve import add_window_study
+from ..core.quantities import quantity_keys, quantity_label
+from ..present.record import csv_text, headline, read_result
+from .run import run_section
 from ..trust.sectionstats import sig
 from ..model3d.synth import rsa_discs
 
@@ -172,27 +172,17 @@ def file_sha256(path: str | os.PathLike, chunk: int = 1 << 20) -> str:
 # ------------------------------------------------------------------------------ settings
 
 @dataclass(frozen=True)
-class WindowOptions:
-    """Window-size study per image (see `polisect.trust.rve.window_study`)."""
-
-    edges: str = "periodic"
-    target_error: float = 0.05
-
-
-@dataclass(frozen=True)
 class Settings:
     """What every image of a batch is analysed with (sent to the workers)."""
 
     config: object
     pixel_size_um: float | None = None
-    windows: WindowOptions | None = None
 
     def sha256(self) -> str:
         """Hash of everything that changes the outputs (the config file's path excluded)."""
         cfg = dataclasses.replace(self.config, source="")
-        text = json.dumps({"config": repr(cfg), "pixel_size_um": self.pixel_size_um,
-                           "windows": None if self.windows is None
-                           else dataclasses.asdict(self.windows)}, sort_keys=True)
+        text = json.dumps({"config": repr(cfg), "pixel_size_um": self.pixel_size_um},
+                          sort_keys=True)
         return hashlib.sha256(text.encode("utf-8")).hexdigest()
 
 
@@ -220,13 +210,9 @@ def analyze_one(task: Task, settings: Settings) -> dict:
     """
     t0 = time.perf_counter()
     try:
-        analysis = analyze(task.path, settings.config, pixel_size_um=settings.pixel_size_um)
-        if settings.windows is not None:
-            analysis = add_window_study(analysis, settings.config,
-                                        edges=settings.windows.edges,
-                                        target_error=settings.windows.target_error)
-        paths = write_outputs(analysis, task.out_dir, stem=task.stem, config=settings.config)
-        outputs = {k: v for k, v in dataclasses.asdict(paths).items() if v}
+        _, paths = run_section(task.path, settings.config, task.out_dir, stem=task.stem,
+                               pixel_size_um=settings.pixel_size_um)
+        outputs = paths.files()
         return {"status": "done", "reason": "", "retry": False, "outputs": outputs,
                 "seconds": time.perf_counter() - t0}
     except InputError as exc:
@@ -465,8 +451,7 @@ def _pool(jobs: int, threads: int):
     warm. Elsewhere they are spawned afresh."""
     if "forkserver" in multiprocessing.get_all_start_methods():
         ctx = multiprocessing.get_context("forkserver")
-        ctx.set_forkserver_preload(["polisect.pipeline.analysis", "polisect.present.report",
-                                    "polisect.trust.rve"])
+        ctx.set_forkserver_preload(["polisect.apps.run"])
     else:
         ctx = multiprocessing.get_context("spawn")
     return ProcessPoolExecutor(max_workers=jobs, mp_context=ctx, initializer=_worker_init,
@@ -558,7 +543,7 @@ class BatchResult:
 def run_batch(folder: str | os.PathLike, out: str | os.PathLike, *, config=None,
               pattern: str = "*.tif", jobs: int = 1, scheduler=None, resume: bool = False,
               group_by: str | None = None, pixel_size_um: float | None = None,
-              windows: WindowOptions | None = None, quiet: bool = False,
+              quiet: bool = False,
               stream=None) -> BatchResult:
     """Analyse every image under *folder* into *out*.
 
@@ -583,8 +568,6 @@ def run_batch(folder: str | os.PathLike, out: str | os.PathLike, *, config=None,
         ``"folder"`` (default) or a regex with ``(?P<batch>...)`` on the file name.
     pixel_size_um : float, optional
         Pixel size override for every image.
-    windows : WindowOptions, optional
-        Run a window-size study on every image.
     quiet : bool
         No progress bar.
     stream : file, optional
@@ -605,7 +588,7 @@ def run_batch(folder: str | os.PathLike, out: str | os.PathLike, *, config=None,
     if not isinstance(jobs, int) or jobs < 1:
         raise InputError(f"--jobs {jobs!r}: give a whole number of worker processes ≥ 1")
     grouping = Grouping.parse(group_by)
-    settings = Settings(config or Config(), pixel_size_um, windows)
+    settings = Settings(config or Config(), pixel_size_um)
     config_sha = settings.sha256()
     rels = discover(folder, pattern, exclude=[out])
     if not rels:
@@ -711,8 +694,8 @@ def _outputs_ok(out: str, outputs: dict) -> bool:
                                           for p in outputs.values()):
         return False
     try:
-        read_json(os.path.join(out, outputs["json"]))
-    except (OSError, ValueError):
+        read_result(os.path.join(out, outputs["json"]))
+    except (OSError, ValueError, InputError):
         return False
     return True
 
@@ -736,12 +719,11 @@ def summary_rows(out: str, manifest: dict) -> tuple[list[dict], list[dict]]:
     for rel in sorted(manifest["entries"]):
         e = manifest["entries"][rel]
         if e["status"] == "done":
-            d = read_json(os.path.join(out, e["outputs"]["json"]))
-            row = {"image": rel, "batch": e["group"], **headline(d)}
-            win = d.get("windows")
-            if win:
-                row["window_verdict_enough"] = all(q.get("enough") is not False
-                                                   for q in win["quantities"].values())
+            result = read_result(os.path.join(out, e["outputs"]["json"]))
+            row = {"image": rel, "batch": e["group"], **headline(result)}
+            if result.windows:
+                row["window_verdict_enough"] = all(q.enough is not False
+                                                   for q in result.windows.quantities.values())
             rows.append(row)
         else:
             failures.append({"image": rel, "batch": e["group"], "status": e["status"],
@@ -808,7 +790,7 @@ def bench_batch(quick: bool = False) -> list[dict]:
     100 images of 512² (quick: 8 of 128²), two phases (conductivity 1 and 10 W/(m·K),
     random discs). Figures: images per second at 1 and 2 jobs, the speed-up, and the batch
     overhead over the sum of the analyses run one after another in this (warmed-up) process
-    (analyze + write_outputs per image, the work of ``polisect analyze``); the overhead
+    (`run_section` per image, the work of ``polisect analyze``); the overhead
     includes starting the workers. ``overhead_in_workers_pct`` compares the batch's wall
     time with the per-image times measured inside its workers.
 
@@ -830,12 +812,10 @@ def bench_batch(quick: bool = False) -> list[dict]:
             lab = rsa_discs((side, side), 0.3, side / 40.0, seed=i).labels.astype(np.uint8)
             tifffile.imwrite(os.path.join(src, f"s{i:03d}.tif"), lab)
         names = sorted(os.listdir(src))
-        write_outputs(analyze(os.path.join(src, names[0]), cfg), os.path.join(tmp, "warm"),
-                      config=cfg)
+        run_section(os.path.join(src, names[0]), cfg, os.path.join(tmp, "warm"))
         t0 = time.perf_counter()
         for name in names:
-            write_outputs(analyze(os.path.join(src, name), cfg), os.path.join(tmp, "serial"),
-                          config=cfg)
+            run_section(os.path.join(src, name), cfg, os.path.join(tmp, "serial"))
         serial = time.perf_counter() - t0
         rows.append({"case": "sum of analyses (serial, in process)", "images": n,
                      "side_px": side, "seconds": serial, "images_per_s": n / serial})

@@ -8,6 +8,7 @@ traceback); 1 internal error.
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import json
 import os
 import sys
@@ -92,8 +93,6 @@ def _whole(least: int):
 
 def _with_3d_options(cfg, args):
     """The config with --stack, --estimate-3d, --voxels and --realizations applied."""
-    import dataclasses
-
     if args.stack:
         if not os.path.isdir(args.image):
             raise InputError(f"{args.image}: --stack reads a folder of slice images, and this "
@@ -119,91 +118,111 @@ def _add_window_options(p) -> None:
                         "or mirrored windows (implies --windows)")
 
 
-def _window_options(args):
-    """The window-study options given on the command line, or None."""
+def _with_window_options(cfg, args):
+    """The configuration with the window-study options of the command line."""
     if not (args.windows or args.target_error or args.edges):
-        return None
-    from .batch import WindowOptions
-    from ..trust.rve import parse_target_error
+        return cfg
+    win = cfg.windows
+    win = dataclasses.replace(win, study=True, edges=args.edges or win.edges,
+                              target_error=(parse_target_error(args.target_error)
+                                            if args.target_error else win.target_error))
+    return dataclasses.replace(cfg, windows=win)
 
-    return WindowOptions(edges=args.edges or "periodic",
-                         target_error=parse_target_error(args.target_error or "5%"))
+
+def parse_target_error(text: str) -> float:
+    """``"2%"`` or ``"0.02"`` → 0.02.
+
+    Examples
+    --------
+    >>> parse_target_error("2%"), parse_target_error("0.05")
+    (0.02, 0.05)
+    """
+    s = str(text).strip()
+    try:
+        value = float(s[:-1]) / 100.0 if s.endswith("%") else float(s)
+    except ValueError:
+        raise InputError(f"--target-error {text!r}: give a percentage such as 2% or a "
+                         "fraction such as 0.02") from None
+    if not 0.0 < value < 1.0:
+        raise InputError(f"--target-error {text!r} must be between 0 and 100 %")
+    return value
 
 
 def _run_analyze(args) -> int:
-    from ..read.config import load_config, quick_config
-    from ..pipeline.analysis import analyze, write_outputs
+    from ..present.record import to_json
     from ..properties.solve import progress as solver_progress
+    from .run import run_section
 
     progress = _Progress(args.quiet)
-    cfg = load_config(args.config) if args.config else None
-    if any(v is not None for v in (args.classes, args.assign, args.kind)) or cfg is None:
-        cfg = quick_config(classes=args.classes, assign=args.assign, kind=args.kind, base=cfg)
-    cfg = _with_3d_options(cfg, args)
+    cfg = _with_window_options(_with_3d_options(_config(args), args), args)
     try:
         with solver_progress.observe(progress.solver):
-            analysis = analyze(args.image, cfg, pixel_size_um=args.pixel_size,
-                               progress=progress)
+            analysis, paths = run_section(args.image, cfg, args.out,
+                                          pixel_size_um=args.pixel_size, progress=progress)
     except InputError as exc:
-        if str(args.image) in str(exc):
+        if str(args.image) in str(exc) or str(args.out) in str(exc):
             raise
         raise InputError(f"{args.image}: {exc}") from None
-    windows = _window_options(args)
-    if windows is not None:
-        from ..trust.rve import add_window_study
-
-        analysis = add_window_study(analysis, cfg, edges=windows.edges,
-                                    target_error=windows.target_error, progress=progress)
-    progress("writing outputs")
-    paths = write_outputs(analysis, args.out, config=cfg)
-    _emit_json(args.json, analysis.result.to_json())
+    _emit_json(args.json, to_json(analysis.result))
     if not args.quiet:
         _summary(analysis.result, paths)
     return EXIT_OK
 
 
+def _config(args):
+    """The run configuration of --config with the quick options applied."""
+    from ..read.config import load_config, quick_config
+
+    cfg = load_config(args.config) if args.config else None
+    if any(v is not None for v in (args.classes, args.assign, args.kind)) or cfg is None:
+        cfg = quick_config(classes=args.classes, assign=args.assign, kind=args.kind, base=cfg)
+    return cfg
+
+
 def _summary(result, paths) -> None:
-    d = result.to_dict()
-    lines = [f"{d['source']['path']}: {' × '.join(map(str, d['source']['shape']))} px"]
-    for p in d["phases"]:
-        lo, hi = p["fraction_ci95"]
-        lines.append(f"  {p['name']:<18} fraction {p['fraction']:.4f}  (95 % {lo:.4f}–{hi:.4f})")
-    eff = d.get("effective") or {}
-    if eff.get("conductivity"):
-        lines.append(f"  conductivity      {eff['conductivity']['mean_W_mK']:#.4g} W/(m·K)")
-    if eff.get("elasticity"):
-        el = eff["elasticity"]
-        lines.append(f"  Young's modulus   {el['youngs_modulus_GPa']:#.4g} GPa, "
-                     f"Poisson's ratio {el['poisson_ratio']:.3f}")
-    if eff.get("expansion"):
-        lines.append(f"  expansion         {eff['expansion']['mean_per_K'] * 1e6:#.4g} ×10⁻⁶/K")
-    if eff:
-        lines.append(f"  ({eff.get('model', '')})")
-    lines += _summary_3d(d.get("effective_3d") or {})
-    for w in d["warnings"]:
+    src = result.source
+    lines = [f"{src.path}: {' × '.join(map(str, src.shape))} px"]
+    for p in result.phases:
+        lo, hi = p.fraction_ci95
+        lines.append(f"  {p.name:<18} fraction {p.fraction:.4f}  (95 % {lo:.4f}–{hi:.4f})")
+    lines += _summary_model(result.effective, "")
+    if result.effective_3d:
+        lines += _summary_model(result.effective_3d.effective, "3D ")
+    for w in result.warnings:
         lines.append(f"  warning: {w}")
-    if d.get("windows"):
-        lines.append(f"  window study: {d['windows']['verdict']}")
+    if result.windows:
+        lines.append(f"  window study: {result.windows.verdict}")
     lines.append(f"  report: {paths.report}")
     lines.append(f"  json:   {paths.json}")
     print("\n".join(lines), file=sys.stderr)
 
 
-def _summary_3d(e3: dict) -> list[str]:
-    """Lines for the 3D estimate: mean and 95 % interval over the realizations."""
-    rows = [("conductivity", "mean_W_mK", "conductivity", 1.0, "W/(m·K)"),
-            ("elasticity", "youngs_modulus_GPa", "Young's modulus", 1.0, "GPa"),
-            ("expansion", "mean_per_K", "expansion", 1e6, "×10⁻⁶/K")]
+def _summary_model(eff, prefix: str) -> list[str]:
+    """Lines for one model's effective properties, with the 95 % interval over the
+    realizations of a 3D estimate."""
+    from ..properties.records import Spread, value_of
+
+    if eff is None:
+        return []
+
+    def show(x, scale=1.0):
+        value = f"{value_of(x) * scale:#.4g}"
+        if isinstance(x, Spread) and x.ci95:
+            value += f" (95 % {x.ci95[0] * scale:#.4g}–{x.ci95[1] * scale:#.4g})"
+        return value
+
     lines = []
-    for prop, key, words, scale, unit in rows:
-        block = e3.get(prop)
-        if not block:
-            continue
-        ci = block.get(key + "_ci95")
-        spread = f" (95 % {ci[0] * scale:#.4g}–{ci[1] * scale:#.4g})" if ci else ""
-        lines.append(f"  3D {words:<14} {block[key] * scale:#.4g} {unit}{spread}")
+    if eff.conductivity:
+        lines.append(f"  {prefix + 'conductivity':<17} {show(eff.conductivity.mean)} W/(m·K)")
+    if eff.elasticity:
+        el = eff.elasticity
+        label = prefix + "Young's modulus"
+        lines.append(f"  {label:<17} {show(el.youngs_modulus)} GPa, "
+                     f"Poisson's ratio {value_of(el.poisson_ratio):.3f}")
+    if eff.expansion:
+        lines.append(f"  {prefix + 'expansion':<17} {show(eff.expansion.mean, 1e6)} ×10⁻⁶/K")
     if lines:
-        lines.append(f"  ({e3.get('model', '')})")
+        lines.append(f"  ({eff.model})")
     return lines
 
 
@@ -227,8 +246,9 @@ def _add_demo(sub):
 
 
 def _run_demo(args) -> int:
+    from ..present.record import headline
     from ..read.config import load_config
-    from ..pipeline.analysis import analyze, write_outputs
+    from .run import run_section
     from .samples import demo_sections
 
     progress = _Progress(args.quiet)
@@ -236,9 +256,9 @@ def _run_demo(args) -> int:
     for section in demo_sections():
         progress(f"demo: {section.title}")
         cfg = load_config(section.config)
-        analysis = analyze(section.image, cfg, progress=progress)
-        paths = write_outputs(analysis, os.path.join(args.out, section.group), config=cfg)
-        written.append((section.title, analysis.result.headline(), paths.report))
+        analysis, paths = run_section(section.image, cfg, os.path.join(args.out, section.group),
+                                      progress=progress)
+        written.append((section.title, headline(analysis.result), paths.report))
     print("Demo: sections of the fictional Kestrel Foundry Supply's two product lines")
     print("(2D sections solved as prismatic structures, generalized plane strain)\n")
     for title, row, report in written:
@@ -370,15 +390,11 @@ def _add_batch(sub):
 
 def _run_batch(args) -> int:
     from .batch import run_batch
-    from ..read.config import load_config, quick_config
 
-    cfg = load_config(args.config) if args.config else None
-    if any(v is not None for v in (args.classes, args.assign, args.kind)) or cfg is None:
-        cfg = quick_config(classes=args.classes, assign=args.assign, kind=args.kind, base=cfg)
+    cfg = _with_window_options(_config(args), args)
     r = run_batch(args.folder, args.out, config=cfg, pattern=args.pattern, jobs=args.jobs,
                   scheduler=args.scheduler, resume=args.resume, group_by=args.group_by,
-                  pixel_size_um=args.pixel_size, windows=_window_options(args),
-                  quiet=args.quiet)
+                  pixel_size_um=args.pixel_size, quiet=args.quiet)
     for note in r.notes:
         print(f"polisect: note: {note}", file=sys.stderr)
     if not args.quiet:

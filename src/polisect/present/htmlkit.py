@@ -1,8 +1,9 @@
 """HTML and figure helpers shared by the section report, the batch index and the comparison page.
 
 The pages are self-contained: one style sheet (`CSS`) inlined, figures embedded as PNG
-``data:`` URIs (`figure_png`). Figures are drawn on matplotlib's Agg backend, chosen here
-before pyplot is loaded, so that reports render without a display.
+``data:`` URIs (`figure_png`). Figures are `matplotlib.figure.Figure` objects rendered
+without pyplot, so drawing a report needs no display and never changes the caller's
+matplotlib backend.
 
 Examples
 --------
@@ -18,10 +19,7 @@ import base64
 import html
 import io
 
-import matplotlib
-
-matplotlib.use("Agg")
-import matplotlib.pyplot as plt  # noqa: E402
+from matplotlib.figure import Figure
 
 CAUTION = (
     "These numbers are estimates computed from one image of one section. They are meant for "
@@ -91,16 +89,16 @@ def grid(head, rows, raw: bool = False) -> str:
     return f'<table class="grid"><thead><tr>{h}</tr></thead><tbody>{b}</tbody></table>'
 
 
-def new_axes(figsize: tuple[float, float]):
-    """A figure with one axes (on the Agg backend), to be turned into a URI by `figure_png`."""
-    return plt.subplots(figsize=figsize)
+def new_axes(figsize: tuple[float, float], nrows: int = 1, ncols: int = 1, **kwargs):
+    """A figure and its axes (``Figure.subplots``), to be turned into a URI by `figure_png`."""
+    fig = Figure(figsize=figsize)
+    return fig, fig.subplots(nrows, ncols, **kwargs)
 
 
 def figure_png(fig) -> str:
     """A matplotlib figure as a ``data:`` URI (and close it)."""
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=110, bbox_inches="tight")
-    plt.close(fig)
     return "data:image/png;base64," + base64.b64encode(buf.getvalue()).decode("ascii")
 
 

@@ -136,3 +136,20 @@ def thermal_shock_indices(E_GPa: float, nu: float, alpha: float, k: float | None
         gamma = _positive(fracture_energy_J_m2, "fracture energy", "J/m²")
         R4 = E * gamma / (sigma ** 2 * (1.0 - nu))
     return ThermalShockIndices(R, R_prime, R4)
+
+
+INDEX_WORDS = {"R": "crack initiation, severe shock (comparative index)",
+               "R_prime": "crack initiation, mild shock (comparative index)",
+               "R_4prime": "resistance to crack propagation (comparative index)"}
+"""What each index ranks."""
+
+
+@dataclass(frozen=True)
+class ShockIndices:
+    """Hasselman's thermal-shock indices from the computed effective properties."""
+
+    R: float
+    R_prime: float | None
+    R_4prime: float | None
+    caution: str
+    model: str

@@ -22,6 +22,8 @@ import os
 import re
 from dataclasses import dataclass, field
 
+from ..core.choices import (DENOISERS, IMAGE_KINDS, PLANES, SEGMENT_METHODS, SOLVE_METHODS,
+                            SOLVE_PROPERTIES, WINDOW_EDGES)
 from ..core.errors import InputError
 from ..core.materials import PROPERTIES, Material, get_material
 
@@ -29,14 +31,6 @@ try:  # Python >= 3.11
     import tomllib
 except ModuleNotFoundError:  # pragma: no cover - Python 3.10
     import tomli as tomllib
-
-KINDS = ("grayscale", "labels", "palette")
-SEGMENT_METHODS = ("multi-otsu", "thresholds")
-DENOISERS = ("median", "nl-means", "none")
-SOLVE_PROPERTIES = ("conductivity", "elasticity", "expansion")
-SOLVE_METHODS = ("auto", "fft", "fe", "ms")
-PLANES = ("generalized-plane-strain", "plane-strain", "plane-stress")
-
 
 @dataclass(frozen=True)
 class ImageConfig:
@@ -47,7 +41,6 @@ class ImageConfig:
     crop_bottom_px: int | str = 0
     volume: bool = False
     slice_spacing_um: float | None = None
-
 
 @dataclass(frozen=True)
 class SegmentConfig:
@@ -62,7 +55,6 @@ class SegmentConfig:
     color_tolerance: float = 12.0
     fields: int = 16
 
-
 @dataclass(frozen=True)
 class PhaseConfig:
     """One ``[[phase]]`` entry: a label, its name, its material and what to measure."""
@@ -73,7 +65,6 @@ class PhaseConfig:
     color: str | None = None
     particles: bool | None = None
     split_touching: bool = False
-
 
 @dataclass(frozen=True)
 class SolveConfig:
@@ -88,6 +79,13 @@ class SolveConfig:
     voxels: int = 160
     realizations: int = 3
 
+@dataclass(frozen=True)
+class WindowsConfig:
+    """``[windows]``: the window-size study (is the image big enough?)."""
+
+    study: bool = False
+    edges: str = "periodic"
+    target_error: float = 0.05
 
 @dataclass(frozen=True)
 class ServiceConfig:
@@ -95,7 +93,6 @@ class ServiceConfig:
 
     strength_MPa: float | None = None
     fracture_energy_J_m2: float | None = None
-
 
 @dataclass(frozen=True)
 class Config:
@@ -106,6 +103,7 @@ class Config:
     phases: tuple[PhaseConfig, ...] = ()
     solve: SolveConfig = field(default_factory=SolveConfig)
     service: ServiceConfig = field(default_factory=ServiceConfig)
+    windows: WindowsConfig = field(default_factory=WindowsConfig)
     source: str = "defaults"
     raw: str = ""
 
@@ -115,12 +113,10 @@ class Config:
                 return p
         return None
 
-
 _SECTIONS = {"image": ImageConfig, "segment": SegmentConfig, "solve": SolveConfig,
-             "service": ServiceConfig}
+             "service": ServiceConfig, "windows": WindowsConfig}
 _PHASE_KEYS = {"label", "name", "material", "color", "particles", "split_touching",
                "source"} | set(PROPERTIES)
-
 
 def load_config(path: str | os.PathLike) -> Config:
     """Read a TOML run configuration.
@@ -147,7 +143,6 @@ def load_config(path: str | os.PathLike) -> Config:
     except InputError as exc:
         raise InputError(f"{path}: {exc}") from None
 
-
 def config_from_dict(data: dict, *, source: str = "dict", raw: str = "") -> Config:
     """Build and check a `Config` from parsed TOML (or an equivalent dict)."""
     unknown = set(data) - set(_SECTIONS) - {"phase"}
@@ -164,7 +159,6 @@ def config_from_dict(data: dict, *, source: str = "dict", raw: str = "") -> Conf
     cfg = Config(phases=phases, source=source, raw=raw, **sections)
     _check(cfg)
     return cfg
-
 
 def quick_config(*, classes: int | None = None, assign: str | None = None,
                  pixel_size_um: float | None = None, kind: str | None = None,
@@ -194,7 +188,6 @@ def quick_config(*, classes: int | None = None, assign: str | None = None,
     _check(cfg)
     return cfg
 
-
 def _section(cls, values, name):
     if not isinstance(values, dict):
         raise InputError(f"[{name}] must be a table of keys")
@@ -209,7 +202,6 @@ def _section(cls, values, name):
                 raise InputError(f"[{name}] {key} must be a list, e.g. {key} = [...]")
             kwargs[key] = tuple(kwargs[key])
     return cls(**kwargs)
-
 
 def _phase(entry, index):
     if not isinstance(entry, dict):
@@ -243,7 +235,6 @@ def _phase(entry, index):
                        particles=entry.get("particles"),
                        split_touching=bool(entry.get("split_touching", False)))
 
-
 def _check(cfg: Config) -> None:
     im, seg, sol = cfg.image, cfg.segment, cfg.solve
     names = [p.name for p in cfg.phases]
@@ -251,7 +242,7 @@ def _check(cfg: Config) -> None:
         twice = sorted({n for n in names if names.count(n) > 1})
         raise InputError(f"two [[phase]] entries share the name {', '.join(twice)}; give each "
                          "phase its own name (e.g. name = \"alumina-fine\")")
-    _choice(im.kind, KINDS, "[image] kind")
+    _choice(im.kind, IMAGE_KINDS, "[image] kind")
     if im.pixel_size_um is not None and not (im.pixel_size_um > 0):
         raise InputError(f"[image] pixel_size_um = {im.pixel_size_um} must be a positive number "
                          "of micrometres")
@@ -280,6 +271,10 @@ def _check(cfg: Config) -> None:
             or sol.realizations < 1:
         raise InputError(f"[solve] realizations = {sol.realizations!r}: give a whole number of "
                          "3D reconstructions of at least 1 (default 3)")
+    _choice(cfg.windows.edges, WINDOW_EDGES, "[windows] edges")
+    if not 0.0 < cfg.windows.target_error < 1.0:
+        raise InputError(f"[windows] target_error = {cfg.windows.target_error!r}: give a "
+                         "fraction between 0 and 1, e.g. 0.02 for 2 %")
     if im.kind == "palette":
         missing = [p.name for p in cfg.phases if p.color is None]
         if missing:
@@ -292,13 +287,11 @@ def _check(cfg: Config) -> None:
         for prop in sol.properties:
             p.material.require(*needs[prop])
 
-
 def _choice(value, options, what):
     if value not in options:
         close = difflib.get_close_matches(str(value), options, n=1)
         hint = f" (did you mean {close[0]!r}?)" if close else ""
         raise InputError(f"{what} = {value!r} is not one of {', '.join(options)}{hint}")
-
 
 def _unknown(key, known, where):
     close = difflib.get_close_matches(key, known, n=1)

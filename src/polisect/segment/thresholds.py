@@ -26,13 +26,14 @@ from typing import Mapping, Sequence
 
 import numpy as np
 
+from ..core.choices import SEGMENT_METHODS
 from ..core.errors import InputError
 
 __all__ = ["SegmentResult", "segment_grayscale", "segment_palette", "suggest_classes",
            "clean_small_features", "noise_sigma"]
 
 DENOISE = ("none", "median", "nl-means")
-METHODS = ("multi-otsu", "thresholds")
+METHODS = SEGMENT_METHODS
 #: Multi-Otsu searches all threshold combinations; beyond this many classes it uses a
 #: coarser histogram to stay fast.
 _FULL_HISTOGRAM_CLASSES = 5

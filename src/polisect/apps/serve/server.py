@@ -46,7 +46,6 @@ import threading
 import time
 import traceback
 import urllib.parse
-from http import HTTPStatus
 from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
 from importlib import resources
 

@@ -1,0 +1,13 @@
+"""The words a run configuration chooses from, each defined once.
+
+The configuration checks its values against these; the rooms that act on them (solvers,
+segmentation, window study, the page) take them from here.
+"""
+
+IMAGE_KINDS = ("grayscale", "labels", "palette")
+SEGMENT_METHODS = ("multi-otsu", "thresholds")
+DENOISERS = ("median", "nl-means", "none")
+SOLVE_PROPERTIES = ("conductivity", "elasticity", "expansion")
+SOLVE_METHODS = ("auto", "fft", "fe", "ms")
+PLANES = ("generalized-plane-strain", "plane-strain", "plane-stress")
+WINDOW_EDGES = ("periodic", "mirror")
