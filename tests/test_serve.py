@@ -24,6 +24,7 @@ from polisect.read.config import load_config
 from polisect.core.errors import InputError
 from polisect.read.image import write_tiff
 from polisect.pipeline.analysis import analyze
+from polisect.present.record import to_dict as json_form
 from polisect.apps.serve.runconfig import run_config_toml
 from polisect.apps.serve.server import is_loopback, serve
 from polisect.apps.serve.uploads import safe_stem, sniff
@@ -378,7 +379,7 @@ def test_run_writes_what_analyze_writes(served, image):
     config_path = os.path.join(str(folder), "again.toml")
     with open(config_path, "wb") as f:
         f.write(raw)
-    direct = analyze(image, load_config(config_path)).result.to_dict()
+    direct = json_form(analyze(image, load_config(config_path)).result)
     status, served_json = client.json("GET", f"/api/runs/{st['id']}/files/json")
     assert status == 200
     for a, b in zip(served_json["phases"], direct["phases"]):

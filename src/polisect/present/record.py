@@ -511,7 +511,7 @@ def headline(result: Result) -> dict[str, Any]:
         if value is not None:
             row[column] = value
     row["warnings"] = len(result.warnings)
-    return row
+    return plain(row)
 
 
 def whole_image_variances(result: Result) -> dict[str, float]:

@@ -39,14 +39,6 @@ class ThermalShockIndices:
     R_4prime: float | None
     caution: str = CAUTION
 
-    def to_dict(self) -> dict:
-        """JSON form with units in the keys, labels and the caution."""
-        return {"R_K": self.R, "R_prime_W_m": self.R_prime, "R_4prime_m": self.R_4prime,
-                "labels": {"R_K": "crack initiation, severe shock (comparative index)",
-                           "R_prime_W_m": "crack initiation, mild shock (comparative index)",
-                           "R_4prime_m": "resistance to crack propagation (comparative index)"},
-                "caution": self.caution}
-
     def format(self) -> str:
         """Plain-text lines for the terminal or a report."""
         def show(value, unit):
