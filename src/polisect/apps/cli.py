@@ -307,7 +307,7 @@ def _add_estimate(sub):
 
 
 def _run_estimate(args) -> int:
-    from ..properties.schemes import run_estimate
+    from .estimate import run_estimate
 
     text = run_estimate(args.phase, args.matrix, args.two_d, args.hollow, args.json)
     if text:

@@ -195,7 +195,7 @@ class QuantityComparison:
     differences : tuple of Difference
         Every batch against the first one.
     spreads : dict
-        Batch → `Spread` (batches whose sections carry window studies).
+        Batch → `BatchSpread` (batches whose sections carry window studies).
     sentences : tuple of str
         The findings in plain words.
     """

@@ -85,7 +85,7 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
     say = progress or (lambda msg: None)
     props = tuple(properties)
     two_d = phasemap.ndim == 2
-    labels = np.ascontiguousarray(phasemap.labels.T)
+    labels = solver_labels(phasemap.labels)
     mats = phasemap.materials
     warnings: list[str] = []
     out_maps: dict[str, np.ndarray] = {}
@@ -119,6 +119,12 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
                           model_words(phasemap.ndim, plane), PRISMATIC_NOTE if two_d else None,
                           AXES_2D if two_d else AXES_2D + ", z = slices", c_rec, e_rec, x_rec)
     return Solved(effective, tuple(warnings), out_maps)
+
+
+def solver_labels(labels: np.ndarray) -> np.ndarray:
+    """Image-indexed labels (row = y, column = x[, slice = z]) as the solvers take them,
+    indexed (x, y[, z])."""
+    return np.ascontiguousarray(np.asarray(labels).T)
 
 
 def _image_plane(values: np.ndarray) -> np.ndarray:

@@ -8,6 +8,7 @@ strains), expansion 1/K.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -41,7 +42,7 @@ class Spread:
         mean = float(v.mean())
         if v.size < 2:
             return cls(mean, None, tuple(v.tolist()))
-        half = float(stats.t.ppf(0.975, v.size - 1)) * float(v.std(ddof=1)) / np.sqrt(v.size)
+        half = float(stats.t.ppf(0.975, v.size - 1)) * float(v.std(ddof=1)) / math.sqrt(v.size)
         return cls(mean, (mean - half, mean + half), tuple(v.tolist()))
 
     @property

@@ -68,6 +68,7 @@ from ..core.choices import WINDOW_EDGES
 from ..core.errors import InputError
 from ..core.quantities import SOLVED_COLUMNS, fraction_column
 from ..properties import solve
+from ..properties.effective import solver_labels
 from .records import LevelStats, QuantityFitRecord, WindowLevelRecord, WindowRecord
 from .sectionstats import gitman_chi2
 from .verdicts import need_words, overall_verdict, percent_words, quantity_words
@@ -351,7 +352,8 @@ def solver_evaluator(phasemap, properties, *, method: str = "auto", tol: float =
                          f"{', '.join(PROPERTY_KEYS)}")
     materials = phasemap.materials
 
-    def evaluate(labels: np.ndarray) -> dict:
+    def evaluate(window: np.ndarray) -> dict:
+        labels = solver_labels(window)
         out, stiff = {}, None
         if "conductivity" in properties:
             out["conductivity_W_mK"] = solve.conductivity(labels, materials, method=method,
