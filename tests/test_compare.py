@@ -12,7 +12,7 @@ from polisect.core.materials import Material
 from polisect.pipeline.result import PhaseFraction, Result, Source
 from polisect.present.record import write_json
 from polisect.properties.records import Conductivity, Effective, Solver
-from polisect.trust.records import QuantityFitRecord, WindowRecord
+from polisect.trust.records import QuantityFit, WindowRecord
 
 
 def _sections():
@@ -57,9 +57,8 @@ def _write_result(path, name, fraction, conductivity, whole_image_variance=None)
                                        Solver("fft", 1, 0.0, 1e-6, True)))
     windows = None
     if whole_image_variance is not None:
-        fit = QuantityFitRecord("conductivity_W_mK", conductivity, None, None, None, None, (),
-                                whole_image_variance, None, None, None, None, None, "", None,
-                                None)
+        fit = QuantityFit("conductivity_W_mK", conductivity, None, None, None, None, (),
+                          whole_image_variance, None, None, None, None, None, "")
         windows = WindowRecord("periodic", 5.0, 0.95, (64, 64), None, 4.0, 8, 20.0, (), (),
                                {"conductivity_W_mK": fit}, (), "")
     r = Result(source=Source(path=f"/data/{name}", sha256=None, shape=(64, 64),

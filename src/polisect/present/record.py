@@ -36,7 +36,7 @@ from ..properties.records import (AxialModuli, ComparableModuli, Conductivity, E
                                   Elasticity, Expansion, Solver, Spread, value_of)
 from ..properties.schemes import Bound, Estimate
 from ..properties.shock import INDEX_WORDS, ShockIndices
-from ..trust.records import (LevelStats, QuantityFitRecord, WindowLevelRecord,
+from ..trust.records import (LevelStats, QuantityFit, WindowLevelRecord,
                              WindowRecord)
 from ..trust.sectionstats import Gitman
 
@@ -246,7 +246,7 @@ def _windows(w: WindowRecord) -> dict:
         return {"side_px": list(lv.side_px), "area_px": lv.area_px,
                 "n_windows": lv.n_windows, "n_solved": lv.n_solved, "quantities": qs}
 
-    def fit(q: QuantityFitRecord) -> dict:
+    def fit(q: QuantityFit) -> dict:
         return {f: (list(getattr(q, f)) if f == "fit_sides_px" else getattr(q, f))
                 for f in _FIT_FIELDS}
 
@@ -422,9 +422,9 @@ def _read_windows(w: dict) -> WindowRecord:
         return WindowLevelRecord(tuple(lv["side_px"]), lv["area_px"], lv["n_windows"],
                                  lv["n_solved"], qs)
 
-    def fit(q: dict) -> QuantityFitRecord:
-        return QuantityFitRecord(**{f: (tuple(q[f]) if f == "fit_sides_px" else q.get(f))
-                                    for f in _FIT_FIELDS})
+    def fit(q: dict) -> QuantityFit:
+        return QuantityFit(**{f: (tuple(q[f]) if f == "fit_sides_px" else q.get(f))
+                              for f in _FIT_FIELDS if f != "enough"})
 
     return WindowRecord(w["edges"], w["target_error_pct"], w["confidence"], tuple(w["shape"]),
                         w["pixel_size_um"], w["particle_diameter_px"], w["min_side_px"],

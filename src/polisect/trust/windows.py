@@ -69,7 +69,7 @@ from ..core.errors import InputError
 from ..core.quantities import SOLVED_COLUMNS, fraction_column
 from ..properties import solve
 from ..properties.effective import solver_labels
-from .records import LevelStats, QuantityFitRecord, WindowLevelRecord, WindowRecord
+from .records import LevelStats, QuantityFit, WindowLevelRecord, WindowRecord
 from .sectionstats import gitman_chi2
 from .verdicts import need_words, overall_verdict, percent_words, quantity_words
 
@@ -111,73 +111,6 @@ class WindowLevel:
                   for key, v in self.values.items()}
         return WindowLevelRecord(tuple(self.side_px), self.area_px, self.n_windows,
                                  self.n_solved, stats_)
-
-
-@dataclass(frozen=True)
-class QuantityFit:
-    """Integral-range fit and adequacy of one quantity.
-
-    Attributes
-    ----------
-    key : str
-        The headline column it belongs to (``fraction_<phase>``, ``conductivity_W_mK``, …).
-    value : float
-        Its value on the whole image (the window of side 1).
-    variance_area : float or None
-        K = D²_Z·A₃, fitted (unit² · pixel area); ``None`` when no fit was possible.
-    point_variance : float or None
-        D²_Z = p(1 − p) for a fraction; unknown (``None``) for effective properties.
-    integral_range_px : float or None
-        A₃ = K / D²_Z in pixels (fractions only).
-    exponent : float or None
-        α of a free fit D²(A) ∝ A^−α (Kanit et al.'s generalization); 1 for the law above.
-    fit_sides_px : tuple of int
-        Window sides (shortest edge) used in the fit.
-    whole_image_variance : float or None
-        K / A_image: the variance of this quantity between whole images of this size.
-    supported_error_pct : float or None
-        Relative error of *value* at the study's confidence that this image supports.
-    required_area_px : float or None
-        Area (pixels; volume in voxels for 3D) needed for the target error.
-    required_side_px : float or None
-        Side of a square (cube) of that area.
-    images_needed : int or None
-        Number of images of the present size for the target error.
-    gitman_smallest_side_px : int or None
-        Smallest window side from which every size up to the largest tested passes the
-        chi-square criterion of Gitman et al. (2007).
-    verdict : str
-        The adequacy in plain words.
-    """
-
-    key: str
-    value: float
-    variance_area: float | None
-    point_variance: float | None
-    integral_range_px: float | None
-    exponent: float | None
-    fit_sides_px: tuple[int, ...]
-    whole_image_variance: float | None
-    supported_error_pct: float | None
-    required_area_px: float | None
-    required_side_px: float | None
-    images_needed: int | None
-    gitman_smallest_side_px: int | None
-    verdict: str
-
-    @property
-    def enough(self) -> bool | None:
-        """Whether one image of this size meets the target (None: unknown)."""
-        return None if self.images_needed is None else self.images_needed <= 1
-
-    def summary(self, pixel_size_um: float | None = None) -> QuantityFitRecord:
-        """The fit with the required side in µm (when the pixel size is known)."""
-        d = {f.name: getattr(self, f.name) for f in dataclasses.fields(self)}
-        d["required_side_um"] = (None if self.required_side_px is None or not pixel_size_um
-                                 else self.required_side_px * pixel_size_um)
-        d["enough"] = self.enough
-        return QuantityFitRecord(**{k: (None if isinstance(v, float) and not math.isfinite(v)
-                                        else v) for k, v in d.items()})
 
 
 @dataclass(frozen=True)
@@ -232,8 +165,7 @@ class WindowStudy:
                             tuple(self.shape), self.pixel_size_um, self.particle_diameter_px,
                             self.min_side_px, self.fit_min_side_px, tuple(self.properties),
                             tuple(lv.summary() for lv in self.levels),
-                            {k: q.summary(self.pixel_size_um)
-                             for k, q in self.quantities.items()},
+                            dict(self.quantities),
                             tuple(self.notes), self.verdict)
 
 
@@ -529,9 +461,10 @@ def _fit(key, value, point_var, fit_levels, levels, area, ndim, z, target, confi
     supported = z * math.sqrt(whole_var) / abs(value)
     required = k_est * (z / (target * abs(value))) ** 2
     images = max(1, math.ceil(required / area - 1e-12))
+    side = required ** (1.0 / ndim)
     fit = QuantityFit(key, value, k_est, point_var, a3, exponent, sides, whole_var,
-                      supported * 100.0, required, required ** (1.0 / ndim), images,
-                      gitman_side, "")
+                      supported * 100.0, required, side, images, gitman_side, "",
+                      side * pixel_um if pixel_um else None)
     head = f"{quantity_words(key)}: {percent_words(supported)} at {confidence * 100:g} %"
     verdict = (f"{head}; this image is large enough for {percent_words(target)}" if images <= 1 else
                f"{head}; for {percent_words(target)} it takes {need_words(fit, area, ndim, pixel_um)}")
