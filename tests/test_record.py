@@ -42,7 +42,9 @@ def full_result():
                   {"label": 2, "name": "pore", "material": "air", "particles": False}],
         "solve": {"tolerance": 1e-4, "fields": False},
         "service": {"strength_MPa": 150.0, "fracture_energy_J_m2": 30.0},
-        "windows": {"study": True}})
+        "windows": {"study": True},
+        "measured": [{"property": "conductivity", "value": 4.0, "uncertainty": 0.3,
+                      "method": "laser flash (invented for the test)"}]})
     return analyze(labels, cfg).result
 
 
@@ -52,7 +54,7 @@ def test_json_form_reads_back_exactly(full_result, tmp_path):
     d = to_dict(full_result)
     assert d["schema"] == SCHEMA
     for block in ("effective", "particles", "schemes", "bounds", "schemes_3d", "bounds_3d",
-                  "shock", "windows", "correlation"):
+                  "shock", "windows", "correlation", "measured"):
         assert d[block], block
     back = from_dict(json.loads(json.dumps(d)))
     assert to_dict(back) == d

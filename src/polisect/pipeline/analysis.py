@@ -129,6 +129,10 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
     if cfg.solve.estimate_3d:
         effective_3d = clock("estimate_3d", _effective_3d, phasemap, cfg, effective, say,
                              warnings, notes)
+    measured = ()
+    if cfg.measured:
+        measured = _measured(cfg, effective, effective_3d,
+                             schemes.get(3))
     windows = None
     if cfg.windows.study:
         windows = clock("windows", _window_study, phasemap, cfg, effective, say)
@@ -145,6 +149,7 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
                     windows=windows,
                     correlation={name: summarize_correlation(c)
                                  for name, c in correlations.items()} or None,
+                    measured=measured,
                     config_toml=cfg.raw, warnings=tuple(warnings), notes=tuple(notes),
                     timings_s=clock.timings,
                     created=_dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"))
@@ -173,6 +178,16 @@ def _effective_3d(phasemap: PhaseMap, cfg: Config, effective: Effective | None, 
         return None
     warnings.extend(f"3D estimate: {w}" for w in est.warnings)
     return est.summary()
+
+
+def _measured(cfg: Config, effective: Effective | None, effective_3d, bounds_3d):
+    """The ``[[measured]]`` values beside the computed ones (room temperature) and the
+    bounds of the isotropic 3D composite."""
+    from ..trust.measured import ROOM_C, compare_measured
+
+    return compare_measured(cfg.measured, {ROOM_C: effective} if effective else {},
+                            effective_3d.effective if effective_3d else None,
+                            dict(bounds_3d.bounds) if bounds_3d else None)
 
 
 def _window_study(phasemap: PhaseMap, cfg: Config, effective: Effective | None, say: Progress):

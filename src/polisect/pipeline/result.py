@@ -26,6 +26,7 @@ from ..model3d.summary import Estimate3DRecord
 from ..properties.records import Effective
 from ..properties.schemes import Bound, Estimate
 from ..properties.shock import ShockIndices
+from ..trust.measured import MeasuredComparison
 from ..trust.records import WindowRecord
 
 
@@ -88,6 +89,8 @@ class Result:
     shock : ShockIndices or None
     windows : WindowRecord or None
     correlation : mapping phase name → Correlation, or None
+    measured : tuple of MeasuredComparison
+        The lab's ``[[measured]]`` values beside the computed ones.
     warnings, notes : tuple of str
     timings_s : mapping stage → seconds
     config_toml : str
@@ -108,6 +111,7 @@ class Result:
     shock: ShockIndices | None = None
     windows: WindowRecord | None = None
     correlation: Mapping[str, Correlation] | None = None
+    measured: tuple[MeasuredComparison, ...] = ()
     warnings: tuple[str, ...] = ()
     notes: tuple[str, ...] = ()
     timings_s: Mapping[str, float] = field(default_factory=dict)

@@ -36,6 +36,7 @@ from ..properties.records import (AxialModuli, ComparableModuli, Conductivity, E
                                   Elasticity, Expansion, Solver, Spread, value_of)
 from ..properties.schemes import Bound, Estimate
 from ..properties.shock import INDEX_WORDS, ShockIndices
+from ..trust.measured import MeasuredComparison
 from ..trust.records import (LevelStats, QuantityFit, WindowLevelRecord,
                              WindowRecord)
 from ..trust.sectionstats import Gitman
@@ -79,6 +80,7 @@ def to_dict(result: Result) -> dict:
         "correlation": ({n: {"correlation_length": c.correlation_length, "units": c.units,
                              "fraction": c.fraction} for n, c in result.correlation.items()}
                         if result.correlation else None),
+        "measured": [{f: getattr(m, f) for f in _MEASURED_FIELDS} for m in result.measured],
         "warnings": list(result.warnings),
         "notes": list(result.notes),
         "timings_s": dict(result.timings_s),
@@ -259,6 +261,9 @@ def _windows(w: WindowRecord) -> dict:
             "notes": list(w.notes), "verdict": w.verdict}
 
 
+_MEASURED_FIELDS = ("property", "value", "uncertainty", "temperature_C", "method", "section",
+                   "estimate_3d", "lower", "upper", "z_section", "z_3d", "verdict")
+
 _FIT_FIELDS = ("key", "value", "variance_area", "point_variance", "integral_range_px",
                "exponent", "fit_sides_px", "whole_image_variance", "supported_error_pct",
                "required_area_px", "required_side_px", "images_needed",
@@ -292,6 +297,8 @@ def from_dict(d: dict) -> Result:
         windows=_read_windows(d["windows"]) if d.get("windows") else None,
         correlation=({n: Correlation(c["correlation_length"], c["units"], c["fraction"])
                       for n, c in d["correlation"].items()} if d.get("correlation") else None),
+        measured=tuple(MeasuredComparison(**{f: m[f] for f in _MEASURED_FIELDS})
+                       for m in d.get("measured") or ()),
         warnings=tuple(d.get("warnings") or ()), notes=tuple(d.get("notes") or ()),
         timings_s=dict(d.get("timings_s") or {}), created=d.get("created", ""))
 

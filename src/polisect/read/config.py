@@ -17,13 +17,14 @@ Examples
 from __future__ import annotations
 
 import dataclasses
+import math
 import difflib
 import os
 import re
 from dataclasses import dataclass, field
 
-from ..core.choices import (DENOISERS, IMAGE_KINDS, PLANES, SEGMENT_METHODS, SOLVE_METHODS,
-                            SOLVE_PROPERTIES, WINDOW_EDGES)
+from ..core.choices import (DENOISERS, IMAGE_KINDS, MEASURED_PROPERTIES, PLANES,
+                            SEGMENT_METHODS, SOLVE_METHODS, SOLVE_PROPERTIES, WINDOW_EDGES)
 from ..core.errors import InputError
 from ..core.materials import PROPERTIES, Material, get_material
 
@@ -31,6 +32,7 @@ try:  # Python >= 3.11
     import tomllib
 except ModuleNotFoundError:  # pragma: no cover - Python 3.10
     import tomli as tomllib
+
 
 @dataclass(frozen=True)
 class ImageConfig:
@@ -41,6 +43,7 @@ class ImageConfig:
     crop_bottom_px: int | str = 0
     volume: bool = False
     slice_spacing_um: float | None = None
+
 
 @dataclass(frozen=True)
 class SegmentConfig:
@@ -55,6 +58,7 @@ class SegmentConfig:
     color_tolerance: float = 12.0
     fields: int = 16
 
+
 @dataclass(frozen=True)
 class PhaseConfig:
     """One ``[[phase]]`` entry: a label, its name, its material and what to measure."""
@@ -65,6 +69,7 @@ class PhaseConfig:
     color: str | None = None
     particles: bool | None = None
     split_touching: bool = False
+
 
 @dataclass(frozen=True)
 class SolveConfig:
@@ -79,6 +84,7 @@ class SolveConfig:
     voxels: int = 160
     realizations: int = 3
 
+
 @dataclass(frozen=True)
 class WindowsConfig:
     """``[windows]``: the window-size study (is the image big enough?)."""
@@ -87,12 +93,25 @@ class WindowsConfig:
     edges: str = "periodic"
     target_error: float = 0.05
 
+
+@dataclass(frozen=True)
+class MeasuredValue:
+    """One ``[[measured]]`` entry: a value the lab measured on the same material."""
+
+    property: str
+    value: float
+    uncertainty: float | None = None
+    temperature_C: float = 20.0
+    method: str = ""
+
+
 @dataclass(frozen=True)
 class ServiceConfig:
     """``[service]``: optional service data for the thermal-shock indices."""
 
     strength_MPa: float | None = None
     fracture_energy_J_m2: float | None = None
+
 
 @dataclass(frozen=True)
 class Config:
@@ -104,6 +123,7 @@ class Config:
     solve: SolveConfig = field(default_factory=SolveConfig)
     service: ServiceConfig = field(default_factory=ServiceConfig)
     windows: WindowsConfig = field(default_factory=WindowsConfig)
+    measured: tuple[MeasuredValue, ...] = ()
     source: str = "defaults"
     raw: str = ""
 
@@ -117,6 +137,7 @@ _SECTIONS = {"image": ImageConfig, "segment": SegmentConfig, "solve": SolveConfi
              "service": ServiceConfig, "windows": WindowsConfig}
 _PHASE_KEYS = {"label", "name", "material", "color", "particles", "split_touching",
                "source"} | set(PROPERTIES)
+
 
 def load_config(path: str | os.PathLike) -> Config:
     """Read a TOML run configuration.
@@ -143,11 +164,12 @@ def load_config(path: str | os.PathLike) -> Config:
     except InputError as exc:
         raise InputError(f"{path}: {exc}") from None
 
+
 def config_from_dict(data: dict, *, source: str = "dict", raw: str = "") -> Config:
     """Build and check a `Config` from parsed TOML (or an equivalent dict)."""
-    unknown = set(data) - set(_SECTIONS) - {"phase"}
+    unknown = set(data) - set(_SECTIONS) - {"phase", "measured"}
     for key in unknown:
-        _unknown(key, list(_SECTIONS) + ["phase"], "top level")
+        _unknown(key, list(_SECTIONS) + ["phase", "measured"], "top level")
     sections = {name: _section(cls, data.get(name, {}), name) for name, cls in _SECTIONS.items()}
     entries = data.get("phase", [])
     if not isinstance(entries, list):
@@ -156,9 +178,11 @@ def config_from_dict(data: dict, *, source: str = "dict", raw: str = "") -> Conf
     labels = [p.label for p in phases]
     if len(set(labels)) != len(labels):
         raise InputError(f"two [[phase]] entries share a label ({labels}); give each its own")
-    cfg = Config(phases=phases, source=source, raw=raw, **sections)
+    cfg = Config(phases=phases, measured=measured_values(data.get("measured", [])),
+                 source=source, raw=raw, **sections)
     _check(cfg)
     return cfg
+
 
 def quick_config(*, classes: int | None = None, assign: str | None = None,
                  pixel_size_um: float | None = None, kind: str | None = None,
@@ -188,6 +212,7 @@ def quick_config(*, classes: int | None = None, assign: str | None = None,
     _check(cfg)
     return cfg
 
+
 def _section(cls, values, name):
     if not isinstance(values, dict):
         raise InputError(f"[{name}] must be a table of keys")
@@ -202,6 +227,48 @@ def _section(cls, values, name):
                 raise InputError(f"[{name}] {key} must be a list, e.g. {key} = [...]")
             kwargs[key] = tuple(kwargs[key])
     return cls(**kwargs)
+
+
+def measured_values(entries) -> tuple[MeasuredValue, ...]:
+    """The ``[[measured]]`` tables, each checked (property known, value and uncertainty
+    finite numbers in the property's unit)."""
+    if not isinstance(entries, list) or not all(isinstance(e, dict) for e in entries):
+        raise InputError("measured values are given as [[measured]] tables (double brackets), "
+                         "one per measurement")
+    out = []
+    keys = [f.name for f in dataclasses.fields(MeasuredValue)]
+    for i, entry in enumerate(entries):
+        where = f"[[measured]] number {i + 1}"
+        for key in entry:
+            if key not in keys:
+                _unknown(key, keys, where)
+        prop = entry.get("property")
+        if prop not in MEASURED_PROPERTIES:
+            raise InputError(f"{where}: property = {prop!r}; choose one of "
+                             f"{', '.join(MEASURED_PROPERTIES)}")
+        unit = MEASURED_PROPERTIES[prop]
+        for key in ("value", "uncertainty", "temperature_C"):
+            v = entry.get(key)
+            if v is None and key != "value":
+                continue
+            if not isinstance(v, (int, float)) or isinstance(v, bool) or not math.isfinite(v):
+                raise InputError(f"{where}: {key} = {v!r} must be a finite number"
+                                 + (f" in {unit}" if key != "temperature_C" else " in °C"))
+        if entry.get("uncertainty") is not None and entry["uncertainty"] < 0:
+            raise InputError(f"{where}: uncertainty must be zero or positive (a standard "
+                             f"uncertainty in {unit})")
+        if prop in ("expansion", "mean_expansion") and abs(entry["value"]) > 1e-3:
+            raise InputError(f"{where}: expansion {entry['value']:g} 1/K is implausibly large; "
+                             "give it in 1/K (e.g. 7.5e-6), not in 10⁻⁶/K")
+        t = entry.get("temperature_C", 20.0)
+        if t < -273.15:
+            raise InputError(f"{where}: temperature_C = {t} is below absolute zero")
+        out.append(MeasuredValue(prop, float(entry["value"]),
+                                 None if entry.get("uncertainty") is None
+                                 else float(entry["uncertainty"]), float(t),
+                                 str(entry.get("method", ""))))
+    return tuple(out)
+
 
 def _phase(entry, index):
     if not isinstance(entry, dict):
@@ -234,6 +301,7 @@ def _phase(entry, index):
     return PhaseConfig(label=entry["label"], name=str(name), material=material, color=color,
                        particles=entry.get("particles"),
                        split_touching=bool(entry.get("split_touching", False)))
+
 
 def _check(cfg: Config) -> None:
     im, seg, sol = cfg.image, cfg.segment, cfg.solve
@@ -287,11 +355,13 @@ def _check(cfg: Config) -> None:
         for prop in sol.properties:
             p.material.require(*needs[prop])
 
+
 def _choice(value, options, what):
     if value not in options:
         close = difflib.get_close_matches(str(value), options, n=1)
         hint = f" (did you mean {close[0]!r}?)" if close else ""
         raise InputError(f"{what} = {value!r} is not one of {', '.join(options)}{hint}")
+
 
 def _unknown(key, known, where):
     close = difflib.get_close_matches(key, known, n=1)
