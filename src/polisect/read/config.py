@@ -291,8 +291,9 @@ def _value(value, rule, what, default):
     ok = whole if kind == "int" else (whole or isinstance(value, float))
     if not ok or not (low <= value <= high):
         number = "a whole number" if kind == "int" else "a number"
-        raise InputError(f"{what} = {value!r}: give {number} from {low:g} to {high:g} ({unit}; "
-                         f"default {default})")
+        usual = "" if default is None else f"; default {default}"
+        raise InputError(f"{what} = {value!r}: give {number} from {low:g} to {high:g} "
+                         f"({unit}{usual})")
 
 
 def validate(cfg: Config) -> None:
