@@ -376,3 +376,16 @@ def test_parent_check_thread_ends_the_worker(tmp_path):
     assert _gone_within([worker.pid], 1.0) == []
     worker.wait(timeout=5)
     assert worker.returncode == 1
+
+
+def test_index_page_escapes_names_and_forbids_scripts():
+    """Issue 17 probe: user strings in written pages must not run as script."""
+    from polisect.apps.batch import index_html
+
+    evil = "<script>alert(1)</script>.tif"
+    manifest = {"folder": "/data/<b>", "pattern": "*<i>", "entries": {
+        evil: {"outputs": {"report": f"{evil}.html", "json": f"{evil}.json"}}}}
+    text = index_html(manifest, [{"batch": "<img src=x onerror=alert(1)>", "image": evil}],
+                      [{"image": evil, "reason": "<script>x</script>"}])
+    assert "<script>" not in text and "<img src=x" not in text
+    assert 'http-equiv="Content-Security-Policy"' in text
