@@ -132,3 +132,20 @@ def test_fractions_must_describe_the_solved_phases():
 
     with pytest.raises(InputError, match="sum"):
         check_conductivity(ConductivityResult(np.eye(2), _facts()), {0: ALUMINA}, {0: 0.5})
+
+
+@pytest.mark.parametrize("dim, plane", [(2, "generalized-plane-strain"), (2, "plane-strain"),
+                                        (2, "plane-stress"), (3, None)])
+def test_two_phase_expansion_must_obey_levin(dim, plane):
+    """Levin (1967): for two phases α* = ᾱ + (S* − S̄)(S₁ − S₂)⁻¹(α₁ − α₂) exactly with the
+    effective compliance S*; the solver meets it to ~1e-9 of α₁ − α₂, a result off by 2 %
+    of α₁ − α₂ is refused."""
+    labels, f = _square(16 if dim == 2 else 8, dim)
+    m = {0: EPOXY, 1: ALUMINA}
+    result = expansion(labels, m, **({} if plane is None else {"plane": plane}))
+    assert check_expansion(result, m, f) == ()
+    shifted = result.tensor + 0.02 * (6e-5 - 8e-6) * np.eye(dim)
+    wrong = type(result)(shifted, result.plane, result.facts, result.axial,
+                         result.thermal_stress, result.stiffness)
+    found = check_expansion(wrong, m, f)
+    assert found[0].level == REFUSE and "Levin" in found[0].message

@@ -143,7 +143,10 @@ def check_expansion(result: ExpansionResult, materials: Mapping,
 
     Refused: non-finite values; with one solid phase and pores, any departure from the
     solid's own expansion (a stress-free uniform expansion of the skeleton is the exact
-    solution, so pores do not change α [3]_).
+    solution, so pores do not change α [3]_); with two solid phases, any departure from
+    Levin's exact relation α* = ᾱ + (S* − S̄)(S₁ − S₂)⁻¹(α₁ − α₂) with the result's own
+    stiffness [3]_, which holds for any geometry and anisotropy (in 3D, generalized plane
+    strain, plane strain and plane stress alike, each with its phase compliances).
 
     References
     ----------
@@ -151,33 +154,61 @@ def check_expansion(result: ExpansionResult, materials: Mapping,
        Mech. Solids 2, 58–61.
     """
     keys, f = _phases(materials, fractions)
-    alpha = np.asarray(result.tensor, float)
-    if not np.all(np.isfinite(alpha)) or (result.axial is not None
-                                          and not np.isfinite(result.axial)):
+    if not np.all(np.isfinite(result.tensor)) or (result.axial is not None
+                                                  and not np.isfinite(result.axial)):
         return (Finding(REFUSE, "expansion", "the effective expansion is not a finite "
                         "number; the solve failed — check the phase properties"),)
-    solids = [k for k in keys if f[keys.index(k)] > 0 and not materials[k].is_pore]
-    if len(solids) != 1:
-        return ()
-    solid = materials[solids[0]]
-    dim = alpha.shape[0]
-    if result.plane in (None, "generalized-plane-strain"):
-        image = PhaseImage(np.zeros((1,) * 3, int), (solids[0],), (solid,))
-        phase = elastic_phases(image, None, thermal=True)
-        own = tensors.voigt_to_strain(np.linalg.solve(phase.stiffness[0],
-                                                      phase.thermal_stress[0]))[:dim, :dim]
+    solids = [k for k in keys if not materials[k].is_pore]
+    strain, compliance, own = _thermal_phases(result, solids, materials)
+    if len(solids) == 1:
+        expected, what = own[0], f"the only solid phase's ({_name(materials[solids[0]])}), " \
+                                 "which pores cannot change"
+    elif len(solids) == len(keys) == 2:
+        expected = _levin(result, f, compliance, own)
+        what = "Levin's exact two-phase relation with the solver's own stiffness"
     else:
-        image = PhaseImage(np.zeros((1, 1), int), (solids[0],), (solid,))
-        phase = elastic_phases(image, result.plane, thermal=True)
-        own = tensors.voigt_to_strain(np.linalg.solve(phase.stiffness[0],
-                                                      phase.thermal_stress[0]))
-    scale = max(np.abs(own).max(), 1e-30)
-    if np.abs(alpha - own).max() > max(1e3 * result.facts.tolerance, 1e-4) * scale:
-        return (Finding(REFUSE, "expansion", f"the effective expansion {_fmt(alpha)} differs "
-                        f"from {_fmt(own)}, the only solid phase's ({_name(solid)}), which "
-                        "pores cannot change; the solve did not converge to the right answer "
-                        "— tighten [solve] tolerance or try another [solve] method"),)
+        return ()
+    if expected is None:
+        return ()
+    scale = max(np.abs(own[0]).max(), np.abs(own[-1]).max(), 1e-30)
+    if len(solids) == 2:
+        scale = max(np.abs(own[0] - own[1]).max(), 1e-3 * scale)
+    if np.abs(strain - expected).max() > max(1e3 * result.facts.tolerance, 1e-3) * scale:
+        return (Finding(REFUSE, "expansion", f"the effective expansion {_fmt(strain)} differs "
+                        f"from {_fmt(expected)}, {what}; the solve did not reach the right "
+                        "answer — tighten [solve] tolerance or try another [solve] method"),)
     return ()
+
+
+def _thermal_phases(result: ExpansionResult, solids, materials):
+    """The result's thermal strain as a Voigt vector in the order of its stiffness, and
+    each solid phase's compliance and stress-free thermal strain in that order."""
+    strain = tensors.strain_to_voigt(np.asarray(result.tensor, float))
+    gps = result.plane == "generalized-plane-strain"
+    dim = 3 if result.plane is None or gps else 2
+    image = PhaseImage(np.zeros((1,) * dim, int), tuple(solids),
+                       tuple(materials[k] for k in solids))
+    phase = elastic_phases(image, None if gps else result.plane, thermal=True)
+    C, beta = phase.stiffness, phase.thermal_stress
+    if gps:
+        order = [0, 1, 5, 2]                       # xx, yy, xy, zz
+        C, beta = C[:, order][:, :, order], beta[:, order]
+        strain = np.append(strain, result.axial)
+    compliance = np.linalg.inv(C)
+    own = np.einsum("pij,pj->pi", compliance, beta)
+    return strain, compliance, own
+
+
+def _levin(result, f, compliance, own):
+    """α* = ᾱ + (S* − S̄)(S₁ − S₂)⁻¹(α₁ − α₂) when α₁ − α₂ lies in the range of S₁ − S₂
+    (Levin 1967), else None."""
+    difference = compliance[0] - compliance[1]
+    P = np.linalg.lstsq(difference, own[0] - own[1], rcond=1e-10)[0]
+    if np.abs(difference @ P - (own[0] - own[1])).max() > 1e-8 * np.abs(own).max():
+        return None
+    f = np.asarray(f)
+    mean_S = np.einsum("p,pij->ij", f, compliance)
+    return f @ own + (np.linalg.inv(result.stiffness) - mean_S) @ P
 
 
 def _phases(materials, fractions):
@@ -243,5 +274,5 @@ def _name(material) -> str:
     return repr(material.name)
 
 
-def _fmt(alpha) -> str:
-    return "[" + ", ".join(f"{v:.3g}" for v in np.diag(alpha)) + "] /K"
+def _fmt(strain) -> str:
+    return "[" + ", ".join(f"{v:.3g}" for v in strain) + "] /K (Voigt order)"
