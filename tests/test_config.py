@@ -145,9 +145,9 @@ def test_issue_examples_of_bad_values_from_toml(tmp_path):
 def test_valid_edge_values_are_accepted():
     """Common practice (no source): the ends of each range are accepted."""
     cfg = config_from_dict({"image": {"pixel_size_um": 1e-3, "crop_bottom_px": "auto"},
-                            "segment": {"denoise_px": 50, "color_tolerance": 0, "fields": 4},
+                            "segment": {"denoise_px": 25, "color_tolerance": 0, "fields": 4},
                             "solve": {"tolerance": 0.1, "voxels": 16, "realizations": 1}})
-    assert cfg.segment.denoise_px == 50 and cfg.solve.tolerance == 0.1
+    assert cfg.segment.denoise_px == 25 and cfg.solve.tolerance == 0.1
 
 
 def test_thresholds_checked_against_grey_range():

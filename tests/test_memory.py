@@ -67,3 +67,20 @@ def test_3d_estimate_refused_with_the_voxels_that_fit(monkeypatch):
     memory.check_estimate_3d(64, ["conductivity", "elasticity"])
     with pytest.raises(InputError, match="method"):
         memory.check_solves((30000, 30000), ["elasticity"], "fe")
+
+
+def test_check_analysis_names_the_step_that_does_not_fit(monkeypatch):
+    """Common practice (no source): the first step that cannot fit is the one named."""
+    import pytest
+
+    from polisect import InputError
+    from polisect.core import memory
+
+    monkeypatch.setattr(memory, "available_bytes", lambda: 200 * 10 ** 6)
+    memory.check_analysis((512, 512), ["conductivity"], voxels=None)
+    with pytest.raises(InputError, match="segmenting the 30000×30000-pixel image"):
+        memory.check_analysis((30000, 30000), ["conductivity"])
+    with pytest.raises(InputError, match="solving elasticity on 1024×1024 pixels"):
+        memory.check_analysis((1024, 1024), ["elasticity"])
+    with pytest.raises(InputError, match="3D estimate"):
+        memory.check_analysis((256, 256), ["conductivity"], voxels=400)

@@ -794,3 +794,12 @@ def test_upload_over_the_pixel_limit_refused_before_decoding(tmp_path):
     finally:
         server.shutdown()
         thread.join(30)
+
+
+def test_malformed_request_line_gets_plain_text(served):
+    """Common practice (no source): the base server's own error answers carry no HTML."""
+    client, _ = served
+    with socket.create_connection(("127.0.0.1", client.port), timeout=30) as sock:
+        sock.sendall(b"GET /<script> HTTP/1.1\r\n" + b"X-Many: <b>\r\n" * 101 + b"\r\n")
+        answer = _read_all(sock)
+    assert answer.startswith("HTTP/1.1 431") and "text/plain" in answer and "<" not in answer

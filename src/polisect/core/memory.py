@@ -208,3 +208,16 @@ def check_estimate_3d(voxels: int, properties, method: str = "auto") -> None:
                f"the 3D estimate ({voxels}³ voxels per realization)",
                f"lower --voxels ([solve] voxels) to {fit} or less, or ask for fewer properties",
                available)
+
+
+def check_analysis(shape: tuple[int, ...], properties=(), method: str = "auto",
+                   fields: bool = True, voxels: int | None = None) -> None:
+    """Every check of an analysis in one call, before any work on the image read: the phase
+    map and measurements, each solve on the map of *shape*, and with *voxels* the 3D
+    estimate. Raises `InputError` with the figure and what to change."""
+    size = "×".join(str(s) for s in shape)
+    check_fits(phasemap_bytes(int(np.prod(shape))), f"segmenting the {size}-pixel image",
+               "crop a region of interest or downsample it")
+    check_solves(shape, tuple(properties), method, fields)
+    if voxels is not None:
+        check_estimate_3d(voxels, tuple(properties), method)

@@ -263,7 +263,7 @@ _VALUES = {
     ("image", "slice_spacing_um"): ("num", 1e-6, 1e5, "micrometres between slices"),
     ("image", "volume"): ("bool",),
     ("segment", "classes"): ("int", 2, 8, "phases told apart by grey level"),
-    ("segment", "denoise_px"): ("num", 1, 50, "pixels of smoothing radius"),
+    ("segment", "denoise_px"): ("num", 1, 25, "pixels of smoothing radius"),
     ("segment", "min_feature_px"): ("int", 0, 10 ** 8, "pixels of the smallest feature kept"),
     ("segment", "color_tolerance"): ("num", 0, 442, "RGB distance"),
     ("segment", "fields"): ("int", 4, 4096, "fields of the point-count confidence"),

@@ -134,6 +134,9 @@ class Handler(BaseHTTPRequestHandler):
 
     server_version = "polisect"
     sys_version = ""
+    # the base class's answers to malformed request lines: plain text, never HTML
+    error_content_type = "text/plain; charset=utf-8"
+    error_message_format = "%(code)d %(message)s\n"
     protocol_version = "HTTP/1.1"
     timeout = 120
 
