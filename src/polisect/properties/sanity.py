@@ -27,14 +27,19 @@ References
 
 Examples
 --------
+Between the harmonic (1.22) and arithmetic (2.8) means of its phases a conductivity may lie;
+above, it cannot:
+
 >>> import numpy as np
 >>> from polisect import Material
->>> from polisect.properties.solve import conductivity
->>> labels = np.zeros((16, 16), dtype=int); labels[4:12, 4:12] = 1
->>> m = {0: Material(conductivity=1.0, name="matrix"), 1: Material(conductivity=10.0)}
->>> r = conductivity(labels, m)
->>> check_conductivity(r, m, {0: 0.75, 1: 0.25})
+>>> from polisect.properties.solve import ConductivityResult, SolverFacts
+>>> phases = {0: Material(conductivity=1.0), 1: Material(conductivity=10.0)}
+>>> facts = SolverFacts("fft", 10, 0.1, (), 1e-6, True)
+>>> check_conductivity(ConductivityResult(np.eye(2) * 2.0, facts), phases, {0: 0.8, 1: 0.2})
 ()
+>>> [f.level for f in check_conductivity(ConductivityResult(np.eye(2) * 3.0, facts),
+...                                      phases, {0: 0.8, 1: 0.2})]
+['refuse']
 """
 
 from __future__ import annotations
