@@ -6,7 +6,7 @@ import pytest
 from polisect import Material
 from polisect.core import tensors
 from polisect.properties.sanity import (REFUSE, WARN, check_conductivity, check_elasticity,
-                                        check_expansion, check_result, refusals)
+                                        check_expansion, check_result, fractions_of, refusals)
 from polisect.properties.solve import (ConductivityResult, ElasticityResult, SolverFacts,
                                        conductivity, elasticity, expansion)
 
@@ -20,7 +20,8 @@ PORE = Material(conductivity=0.0, youngs_modulus=0.0, poisson_ratio=0.2, name="p
 def _square(n=32, dim=2):
     labels = np.zeros((n,) * dim, dtype=int)
     labels[(slice(n // 4, 3 * n // 4),) * dim] = 1
-    return labels, {0: 1 - 0.5 ** dim, 1: 0.5 ** dim}
+    assert fractions_of(labels) == {0: 1 - 0.5 ** dim, 1: 0.5 ** dim}
+    return labels, fractions_of(labels)
 
 
 def _facts(tol=1e-6):

@@ -80,6 +80,13 @@ def check_result(result, materials: Mapping, fractions: Mapping) -> tuple[Findin
     raise TypeError(f"no sanity check for {type(result).__name__}")
 
 
+def fractions_of(labels) -> dict:
+    """Exact area (voxel) fraction of every label of the map that was solved, the
+    *fractions* the checks need (the bounds are sharp: pass these, not estimates)."""
+    values, counts = np.unique(np.asarray(labels), return_counts=True)
+    return {int(v): c / counts.sum() for v, c in zip(values, counts)}
+
+
 def refusals(findings) -> list[str]:
     """The messages of the findings that must stop a result from being reported."""
     return [f.message for f in findings if f.level == REFUSE]
