@@ -161,3 +161,33 @@ def test_thresholds_checked_against_grey_range():
     outside = config_from_dict({"segment": {"method": "thresholds", "thresholds": [300, 400]}})
     with pytest.raises(InputError, match="every pixel would be one phase"):
         check_grey_range(outside, 0, 255)
+
+
+def test_any_value_of_any_key_is_accepted_or_refused_clearly():
+    """Common practice (no source): whatever a TOML file holds, reading it either succeeds or
+    raises one `InputError`; never another exception (a traceback)."""
+    from hypothesis import given, settings, strategies as st
+
+    from polisect.read.config import _PHASE_KEYS, _SECTIONS
+
+    keys = [(name, f.name) for name, cls in _SECTIONS.items()
+            for f in __import__("dataclasses").fields(cls)]
+    values = (st.none() | st.booleans() | st.integers(-10 ** 20, 10 ** 20) | st.floats()
+              | st.text(max_size=5) | st.lists(st.integers(-300, 300) | st.floats(), max_size=9)
+              | st.dictionaries(st.text(max_size=3), st.integers(), max_size=2))
+
+    keys += [("phase", k) for k in sorted(_PHASE_KEYS)]
+
+    @settings(max_examples=600, deadline=None)
+    @given(st.sampled_from(keys), values)
+    def check(key, value):
+        section, name = key
+        data = {section: {name: value}} if value is not None else {}
+        if section == "phase":
+            data = {"phase": [{"label": 1, "material": "alumina", name: value}]}
+        try:
+            config_from_dict(data)
+        except InputError as exc:
+            assert "\n" not in str(exc)
+
+    check()
