@@ -191,3 +191,17 @@ def test_any_value_of_any_key_is_accepted_or_refused_clearly():
             assert "\n" not in str(exc)
 
     check()
+
+
+def test_validate_rechecks_a_config_changed_after_reading():
+    """Common practice (no source): options applied after reading (command line) are checked
+    by the same rules before any work."""
+    import dataclasses
+
+    from polisect.read.config import validate
+
+    cfg = config_from_dict({})
+    validate(cfg)
+    bad = dataclasses.replace(cfg, solve=dataclasses.replace(cfg.solve, realizations=0))
+    with pytest.raises(InputError, match=r"\[solve\] realizations = 0"):
+        validate(bad)
