@@ -256,7 +256,9 @@ def _write_manifest(out: str, manifest: dict) -> None:
 
 
 class _Lock:
-    """One batch at a time per output folder (a lock file holding the process id)."""
+    """One batch at a time per output folder: a lock file holding the process id and the
+    process's start time, so that a lock left by a killed batch whose id was since given to
+    another process is known to be stale."""
 
     def __init__(self, out: str):
         self.path = os.path.join(out, LOCK)
@@ -266,24 +268,32 @@ class _Lock:
             try:
                 fd = os.open(self.path, os.O_CREAT | os.O_EXCL | os.O_WRONLY)
             except FileExistsError:
-                pid = self._holder()
-                if pid is not None and _alive(pid):
+                pid, started = self._holder()
+                if pid is not None and _alive(pid) and started in (None, _start_time(pid)):
                     raise InputError(f"another polisect batch (process {pid}) is writing into "
-                                     f"{os.path.dirname(self.path)}; wait for it or use "
-                                     "another --out folder") from None
-                os.unlink(self.path)
+                                     f"{os.path.dirname(self.path)}; wait for it or use another "
+                                     f"--out folder (if no batch is running, delete the lock "
+                                     f"file {self.path})") from None
+                try:
+                    os.unlink(self.path)
+                except FileNotFoundError:
+                    pass
                 continue
             with os.fdopen(fd, "w") as f:
-                f.write(str(os.getpid()))
+                f.write(f"{os.getpid()} {_start_time(os.getpid()) or ''}".strip())
             return self
-        raise InputError(f"cannot take the lock {self.path}; remove it if no batch is running")
+        raise InputError(f"cannot take the lock file {self.path}; delete it if no batch is "
+                         "running")
 
-    def _holder(self) -> int | None:
+    def _holder(self) -> tuple[int | None, str | None]:
+        """Process id and start time recorded in the lock (start time None if not recorded)."""
         try:
             with open(self.path) as f:
-                return int(f.read().strip() or 0) or None
+                parts = f.read().split()
+            return (int(parts[0]) or None if parts else None), \
+                (parts[1] if len(parts) > 1 else None)
         except (OSError, ValueError):
-            return None
+            return None, None
 
     def __exit__(self, *exc):
         try:
@@ -292,14 +302,29 @@ class _Lock:
             pass
 
 
+def _start_time(pid: int) -> str | None:
+    """When process *pid* started, in clock ticks since boot (Linux ``/proc``); None where
+    that cannot be read."""
+    try:
+        with open(f"/proc/{pid}/stat") as f:
+            return f.read().rsplit(")", 1)[1].split()[19]
+    except (OSError, IndexError):
+        return None
+
+
 def _alive(pid: int) -> bool:
+    """Whether process *pid* runs (a killed process not yet reaped by its parent does not)."""
     try:
         os.kill(pid, 0)
     except ProcessLookupError:
         return False
     except PermissionError:
         return True
-    return True
+    try:
+        with open(f"/proc/{pid}/stat") as f:
+            return f.read().rsplit(")", 1)[1].split()[0] != "Z"
+    except (OSError, IndexError):
+        return True
 
 
 def _remove_stale_temporaries(out: str) -> int:
@@ -385,8 +410,10 @@ def _clock(seconds: float) -> str:
 
 # ------------------------------------------------------------------------------ executors
 
-def _worker_init(threads: int) -> None:
-    """Limit each worker's threads so that jobs × threads matches the cores."""
+def _worker_init(threads: int, parent: int) -> None:
+    """Tie the worker's life to the batch process *parent* and limit its threads so that
+    jobs × threads matches the cores."""
+    _die_with(parent)
     for var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS",
                 "POLISECT_THREADS"):
         os.environ[var] = str(threads)
@@ -395,6 +422,37 @@ def _worker_init(threads: int) -> None:
     import numba
 
     numba.set_num_threads(min(threads, numba.config.NUMBA_NUM_THREADS))
+
+
+PR_SET_PDEATHSIG = 1  # linux/prctl.h
+
+
+def _die_with(parent: int, kernel: bool = True) -> None:
+    """End this worker when the batch process ends, however it ends (killed included).
+
+    On Linux the kernel sends SIGKILL when the worker's parent exits (``PR_SET_PDEATHSIG``):
+    the parent is the forkserver, which exits when the batch process does. Elsewhere, and
+    as a guard against the batch process ending before this ran, a daemon thread checks
+    every 0.2 s that *parent* is still alive (the only guard when *kernel* is False).
+    """
+    import signal
+    import threading
+
+    if kernel and sys.platform.startswith("linux"):
+        import ctypes
+
+        try:
+            ctypes.CDLL(None, use_errno=True).prctl(PR_SET_PDEATHSIG, int(signal.SIGKILL), 0, 0, 0)
+        except (OSError, AttributeError):
+            pass
+    started = _start_time(parent)
+
+    def watch():
+        while _alive(parent) and _start_time(parent) == started:
+            time.sleep(0.2)
+        os._exit(1)
+
+    threading.Thread(target=watch, name="polisect-parent-watch", daemon=True).start()
 
 
 def _local_results(tasks: list[Task], settings: Settings, jobs: int, work=analyze_one
@@ -455,7 +513,7 @@ def _pool(jobs: int, threads: int):
     else:
         ctx = multiprocessing.get_context("spawn")
     return ProcessPoolExecutor(max_workers=jobs, mp_context=ctx, initializer=_worker_init,
-                               initargs=(threads,))
+                               initargs=(threads, os.getpid()))
 
 
 def _died(task: Task) -> dict:

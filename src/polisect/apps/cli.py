@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import argparse
 import dataclasses
+import errno
 import json
 import os
 import sys
@@ -447,36 +448,68 @@ def build_parser() -> argparse.ArgumentParser:
     for add in (_add_analyze, _add_batch, _add_compare, _add_demo, _add_materials,
                 _add_estimate, _add_bench, _add_serve):
         add(sub)
+    parser.add_argument("--debug", action="store_true",
+                        help="show the traceback of an internal error")
+    for command in sub.choices.values():
+        command.add_argument("--debug", action="store_true", default=argparse.SUPPRESS,
+                             help="show the traceback of an internal error")
     return parser
 
 
 def main(argv: list[str] | None = None) -> int:
-    """Entry point of the ``polisect`` command."""
-    parser = build_parser()
-    args = parser.parse_args(argv)
+    """Entry point of the ``polisect`` command.
+
+    Every failure ends in one line on stderr: bad input, a missing file or a full disk exit
+    2; an interrupt exits 130; a closed output pipe (``| head``) ends quietly; any other
+    exception exits 1 with a pointer to ``--debug``, which shows its traceback.
+    """
+    debug = False
     try:
-        return args.run(args)
-    except InputError as exc:
-        print(f"polisect: error: {exc}", file=sys.stderr)
-        return EXIT_INPUT
-    except OSError as exc:
-        if exc.filename is None:
-            raise
-        print(f"polisect: error: {exc.filename}: {exc.strerror}; check the path and its "
-              "permissions", file=sys.stderr)
-        return EXIT_INPUT
+        parser = build_parser()
+        args = parser.parse_args(argv)
+        debug = args.debug
+        code = args.run(args)
+        sys.stdout.flush()  # a closed pipe shows here, not at interpreter exit
+        return code
     except BrokenPipeError:
-        devnull = os.open(os.devnull, os.O_WRONLY)
-        os.dup2(devnull, sys.stdout.fileno())
+        try:  # no second error when Python flushes stdout at exit
+            os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        except (OSError, ValueError):
+            pass
         return EXIT_OK
     except KeyboardInterrupt:
         print("polisect: interrupted", file=sys.stderr)
         return 130
-    except Exception:  # noqa: BLE001 - the last line of defence: report and exit 1
-        print("polisect: internal error (please report it with the traceback below)",
-              file=sys.stderr)
+    except InputError as exc:
+        print(f"polisect: error: {exc}", file=sys.stderr)
+        return EXIT_INPUT
+    except MemoryError:
+        print("polisect: error: out of memory; crop the image, lower --voxels or ask for fewer "
+              "[solve] properties", file=sys.stderr)
+        return EXIT_INPUT
+    except OSError as exc:
+        if exc.errno == errno.ENOSPC:
+            print(f"polisect: error: disk full writing {exc.filename or 'the outputs'}; free "
+                  "some space or choose another --out", file=sys.stderr)
+            return EXIT_INPUT
+        if exc.filename is not None:
+            print(f"polisect: error: {exc.filename}: {exc.strerror}; check the path and its "
+                  "permissions", file=sys.stderr)
+            return EXIT_INPUT
+        return _internal(exc, debug)
+    except Exception as exc:  # noqa: BLE001 - the last line of defence: report and exit 1
+        return _internal(exc, debug)
+
+
+def _internal(exc: BaseException, debug: bool) -> int:
+    """One line for an unexpected exception (its traceback with ``--debug``); exit 1."""
+    if debug:
         traceback.print_exc()
-        return EXIT_INTERNAL
+    text = (str(exc).strip().splitlines() or [""])[0][:200]
+    print(f"polisect: internal error: {type(exc).__name__}: {text}"
+          + ("" if debug else " (run again with --debug for the traceback; please report it)"),
+          file=sys.stderr)
+    return EXIT_INTERNAL
 
 
 if __name__ == "__main__":  # pragma: no cover

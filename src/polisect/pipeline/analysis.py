@@ -33,8 +33,9 @@ from ..measure.summary import (summarize_correlation, summarize_particles,
                                summarize_volume_particles)
 from ..properties.records import Effective, value_of
 from ..properties.shock import ShockIndices
-from ..read.config import Config
+from ..read.config import Config, check_grey_range, validate
 from ..read.image import Micrograph, check_slice_spacing, read_image, read_stack, to_grayscale
+from .guard import check_analysis
 from .result import PhaseFraction, Result, SchemeTable, Source
 
 Progress = Callable[[str], None]
@@ -103,14 +104,20 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
     0.25
     """
     cfg = config or Config()
+    validate(cfg)
     say = progress or (lambda msg: None)
     clock = _Clock()
     warnings: list[str] = []
 
     say("reading image")
     micro = clock("read", _micrograph, source, cfg, pixel_size_um)
+    check_analysis(micro.data.shape[:2] if micro.is_rgb else micro.data.shape,
+                   cfg.solve.properties if cfg.phases else (), cfg.solve.method,
+                   cfg.solve.fields,
+                   cfg.solve.voxels if cfg.solve.estimate_3d and cfg.phases else None)
     say("building the phase map")
-    phasemap, thresholds, seg_notes = clock("segment", _phasemap, micro, cfg)
+    phasemap, thresholds, seg_notes, seg_warnings = clock("segment", _phasemap, micro, cfg)
+    warnings.extend(seg_warnings)
     if micro.pixel_size_um is None:
         warnings.append("pixel size unknown: sizes are in pixels; give [image] pixel_size_um "
                         "or --pixel-size, or use a TIFF with resolution tags")
@@ -118,7 +125,7 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
 
     say("measuring phase fractions")
     fractions = clock("fractions", _fractions, phasemap, cfg)
-    measured, summaries, correlations = clock("particles", _particles, phasemap, cfg, say)
+    particles, summaries, correlations = clock("particles", _particles, phasemap, cfg, say)
     schemes = clock("schemes", _schemes, phasemap, fractions, summaries, notes)
     solved = clock("solve", _effective, phasemap, cfg, say, warnings, notes)
     effective = solved.effective if solved else None
@@ -129,10 +136,8 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
     if cfg.solve.estimate_3d:
         effective_3d = clock("estimate_3d", _effective_3d, phasemap, cfg, effective, say,
                              warnings, notes)
-    measured = ()
-    if cfg.measured:
-        measured = _measured(cfg, effective, effective_3d,
-                             schemes.get(3))
+    measured = (_measured(cfg, effective, effective_3d, schemes.get(3)) if cfg.measured
+                else ())
     windows = None
     if cfg.windows.study:
         windows = clock("windows", _window_study, phasemap, cfg, effective, say)
@@ -154,7 +159,7 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
                     timings_s=clock.timings,
                     created=_dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"))
     return Analysis(result=result, phasemap=phasemap, image=micro.data,
-                    thresholds=tuple(thresholds), particles=measured,
+                    thresholds=tuple(thresholds), particles=particles,
                     correlations=correlations, field_maps=solved.maps if solved else {})
 
 
@@ -223,6 +228,7 @@ def _effective(phasemap: PhaseMap, cfg: Config, say: Progress, warnings: list, n
     solved = solve_effective(phasemap, props, method=cfg.solve.method, tol=cfg.solve.tolerance,
                              plane=cfg.solve.plane, maps=cfg.solve.fields, progress=say)
     warnings.extend(solved.warnings)
+    warnings.extend(f"effective properties refused: {why}" for why in solved.refused)
     return solved
 
 
@@ -407,12 +413,13 @@ def _micrograph(source, cfg: Config, pixel_size_um: float | None) -> Micrograph:
     return check_slice_spacing(micro, cfg.image.slice_spacing_um) if micro.is_volume else micro
 
 
-def _phasemap(micro: Micrograph, cfg: Config) -> tuple[PhaseMap, tuple, list]:
-    """The phase map of a micrograph, the thresholds used and the segmentation's notes."""
-    labels, thresholds, notes = _labels(micro, cfg)
+def _phasemap(micro: Micrograph, cfg: Config) -> tuple[PhaseMap, tuple, list, list]:
+    """The phase map of a micrograph, the thresholds used, the segmentation's notes and its
+    warnings (what a user must know before trusting the phase map)."""
+    labels, thresholds, notes, warnings = _labels(micro, cfg)
     phasemap = PhaseMap(labels.astype(np.int32, copy=False), _phase_table(labels, cfg),
                         micro.pixel_size_um)
-    return phasemap, thresholds, notes
+    return phasemap, thresholds, notes, warnings
 
 
 def _labels(micro: Micrograph, cfg: Config):
@@ -430,11 +437,11 @@ def _labels(micro: Micrograph, cfg: Config):
                 raise InputError(f"{micro.path or 'image'}: [image] kind = \"labels\" needs "
                                  "integer labels; this image has fractional values")
             data = data.astype(np.int64)
-        return data, (), ["labels used as given"]
+        return data, (), ["labels used as given"], []
     if kind == "palette":
         res = segment.segment_palette(data, {p.label: p.color for p in cfg.phases},
                                       tolerance=cfg.segment.color_tolerance)
-        return res.labels, (), list(res.notes)
+        return res.labels, (), list(res.notes), []
     grey = to_grayscale(data) if micro.is_rgb else data
     seg = cfg.segment
     classes = seg.classes
@@ -447,10 +454,11 @@ def _labels(micro: Micrograph, cfg: Config):
             classes = segment.suggest_classes(grey)
             notes.append(f"classes = {classes} suggested from the histogram; set [segment] "
                          "classes or --classes to choose")
+    warnings = check_grey_range(cfg, float(np.min(grey)), float(np.max(grey)))
     res = segment.segment_grayscale(grey, method=seg.method, classes=classes,
                                     thresholds=seg.thresholds, denoise=seg.denoise,
                                     denoise_px=seg.denoise_px, min_feature_px=seg.min_feature_px)
-    return res.labels, tuple(res.thresholds), notes + list(res.notes)
+    return res.labels, tuple(res.thresholds), notes + list(res.notes), warnings
 
 
 def _phase_table(labels: np.ndarray, cfg: Config) -> tuple[Phase, ...]:

@@ -37,6 +37,17 @@ PALETTE = ("#20304f", "#e0a030", "#3f9e74", "#c8553d", "#7b68b5", "#4fb0c6", "#d
 """Colours of phases and batches, in order."""
 
 
+STANDALONE_CSP = ("default-src 'none'; img-src data:; style-src 'unsafe-inline'; "
+                  "base-uri 'none'; form-action 'none'")
+"""Content-Security-Policy of every page written to disk: no script runs, nothing loads
+from elsewhere, even if a user's string slipped through unescaped."""
+
+
+def csp_meta(policy: str = STANDALONE_CSP) -> str:
+    """The ``<meta http-equiv>`` element that carries *policy* in a written page."""
+    return f'<meta http-equiv="Content-Security-Policy" content="{html.escape(policy)}">'
+
+
 def page(title: str, meta: str, body: str) -> str:
     """A whole self-contained HTML page.
 
@@ -54,8 +65,9 @@ def page(title: str, meta: str, body: str) -> str:
     str
     """
     t = html.escape(title)
-    return (f'<!DOCTYPE html>\n<html lang="en"><head><meta charset="utf-8"><title>{t}</title>'
-            f'<meta name="viewport" content="width=device-width, initial-scale=1">'
+    return (f'<!DOCTYPE html>\n<html lang="en"><head><meta charset="utf-8">{csp_meta()}'
+            f'<title>{t}</title><meta name="viewport" content="width=device-width, '
+            'initial-scale=1">'
             f"<style>{CSS}</style></head><body><header><h1>{t}</h1>"
             f'<p class="meta">{meta}</p></header><main>{body}</main></body></html>\n')
 

@@ -15,6 +15,7 @@ import numpy as np
 
 from ..core import tensors
 from ..core.phasemap import PhaseMap
+from .sanity import check_result, fractions_of, refusals
 from .records import (AxialModuli, ComparableModuli, Conductivity, Effective, Elasticity,
                       Expansion, Solver)
 from .solve import SolverFacts, conductivity, elasticity, expansion
@@ -38,12 +39,14 @@ AXES_2D = "x = image columns (left to right), y = image rows (top to bottom)"
 
 @dataclass(frozen=True, eq=False)
 class Solved:
-    """The effective properties, the warnings the solves raised, and per-pixel maps for
-    the report (image-indexed arrays)."""
+    """The effective properties, the warnings the solves raised, per-pixel maps for the
+    report (image-indexed arrays), and why a physically meaningless result was refused
+    (`polisect.properties.sanity`; the refused property is left out of ``effective``)."""
 
     effective: Effective
     warnings: tuple[str, ...] = ()
     maps: dict = field(default_factory=dict)
+    refused: tuple[str, ...] = ()
 
 
 def solver_record(facts: SolverFacts) -> Solver:
@@ -88,14 +91,25 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
     labels = solver_labels(phasemap.labels)
     mats = phasemap.materials
     warnings: list[str] = []
+    refused: list[str] = []
     out_maps: dict[str, np.ndarray] = {}
     c_rec = e_rec = x_rec = None
+    fractions = fractions_of(labels)
+
+    def sane(result) -> bool:
+        """Warnings of the sanity checks kept; False when the result must be refused."""
+        findings = check_result(result, mats, fractions)
+        warnings.extend(f.message for f in findings if f.level != "refuse")
+        refused.extend(refusals(findings))
+        return not refusals(findings)
+
     if "conductivity" in props:
         say("solving for the effective conductivity")
         c = conductivity(labels, mats, method=method, tol=tol, fields=maps)
-        c_rec = Conductivity(c.tensor, c.mean(), c.anisotropy(), solver_record(c.facts))
         _converged(c, "conductivity", warnings)
-        if maps and c.fields is not None:
+        if sane(c):
+            c_rec = Conductivity(c.tensor, c.mean(), c.anisotropy(), solver_record(c.facts))
+        if c_rec is not None and maps and c.fields is not None:
             out_maps["heat_flux"] = _image_plane(c.fields.flux_magnitude("x"))
     stiff = None
     if "elasticity" in props or "expansion" in props:
@@ -103,14 +117,17 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
         stiff = elasticity(labels, mats, plane=plane, method=method, tol=tol,
                            fields=maps and "elasticity" in props)
         _converged(stiff, "elasticity", warnings)
-    if "elasticity" in props:
+    stiff_ok = stiff is not None and sane(stiff)
+    if "elasticity" in props and stiff_ok:
         e_rec = _elasticity(stiff, two_d)
         if maps and stiff.fields is not None:
             out_maps["von_mises"] = _image_plane(stiff.fields.von_mises_uniaxial("x"))
-    if "expansion" in props:
+    x = None
+    if "expansion" in props and stiff_ok:
         say("solving for the effective thermal expansion")
         x = expansion(labels, mats, plane=plane, method=method, tol=tol, stiffness=stiff)
         _converged(x, "expansion", warnings)
+    if x is not None and sane(x):
         x_rec = Expansion(x.tensor, x.mean(), x.axial, x.anisotropy(), solver_record(x.facts),
                           has_comparable=two_d,
                           comparable_mean=(x.mean() if two_d and plane == "generalized-plane-strain"
@@ -118,7 +135,7 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
     effective = Effective(phasemap.ndim, plane if two_d else None,
                           model_words(phasemap.ndim, plane), PRISMATIC_NOTE if two_d else None,
                           AXES_2D if two_d else AXES_2D + ", z = slices", c_rec, e_rec, x_rec)
-    return Solved(effective, tuple(warnings), out_maps)
+    return Solved(effective, tuple(warnings), out_maps, tuple(refused))
 
 
 def solver_labels(labels: np.ndarray) -> np.ndarray:

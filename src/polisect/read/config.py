@@ -26,7 +26,7 @@ from dataclasses import dataclass, field
 from ..core.choices import (DENOISERS, IMAGE_KINDS, MEASURED_PROPERTIES, PLANES,
                             SEGMENT_METHODS, SOLVE_METHODS, SOLVE_PROPERTIES, WINDOW_EDGES)
 from ..core.errors import InputError
-from ..core.materials import PROPERTIES, Material, get_material
+from ..core.materials import PROPERTIES, UNITS, Material, get_material
 
 try:  # Python >= 3.11
     import tomllib
@@ -276,13 +276,24 @@ def _phase(entry, index):
     for key in entry:
         if key not in _PHASE_KEYS:
             _unknown(key, sorted(_PHASE_KEYS), f"[[phase]] number {index + 1}")
-    if "label" not in entry or not isinstance(entry["label"], int) or entry["label"] < 0:
-        raise InputError(f"[[phase]] number {index + 1} needs label = <integer ≥ 0>, the class "
-                         "number (0 = darkest) or the value in the label image")
+    label = entry.get("label")
+    if isinstance(label, bool) or not isinstance(label, int) or not 0 <= label <= 65535:
+        raise InputError(f"[[phase]] number {index + 1} needs label = <integer 0 to 65535>, the "
+                         "class number (0 = darkest) or the value in the label image")
+    for key, kind in (("name", str), ("material", str), ("source", str),
+                      ("particles", bool), ("split_touching", bool)):
+        if key in entry and not isinstance(entry[key], kind):
+            raise InputError(f"[[phase]] label {label}: {key} = {entry[key]!r} must be "
+                             + ("text in quotes" if kind is str else "true or false"))
+    if len(entry.get("name", "")) > 80:
+        raise InputError(f"[[phase]] label {label}: name is longer than 80 characters; shorten it")
     overrides = {k: entry[k] for k in PROPERTIES if k in entry}
     for key, value in overrides.items():
-        if not isinstance(value, (int, float)) or isinstance(value, bool):
-            raise InputError(f"[[phase]] label {entry['label']}: {key} must be a number")
+        if not isinstance(value, (int, float)) or isinstance(value, bool) \
+                or not abs(value) <= _PROPERTY_LIMITS[key]:
+            raise InputError(f"[[phase]] label {label}: {key} = {value!r} must be a finite "
+                             f"number of size at most {_PROPERTY_LIMITS[key]:g} "
+                             f"{UNITS[key]}")
     name = entry.get("name")
     if "material" in entry:
         base = get_material(str(entry["material"]))
@@ -303,46 +314,108 @@ def _phase(entry, index):
                        split_touching=bool(entry.get("split_touching", False)))
 
 
+# (section, key): ("num" | "int", lowest, highest, what the number is) or ("bool",); the
+# ranges are wide enough for any real section and narrow enough that no step runs out of memory.
+_VALUES = {
+    ("image", "pixel_size_um"): ("num", 1e-6, 1e5, "micrometres per pixel"),
+    ("image", "slice_spacing_um"): ("num", 1e-6, 1e5, "micrometres between slices"),
+    ("image", "volume"): ("bool",),
+    ("segment", "classes"): ("int", 2, 8, "phases told apart by grey level"),
+    ("segment", "denoise_px"): ("num", 1, 25, "pixels of smoothing radius"),
+    ("segment", "min_feature_px"): ("int", 0, 10 ** 8, "pixels of the smallest feature kept"),
+    ("segment", "color_tolerance"): ("num", 0, 442, "RGB distance"),
+    ("segment", "fields"): ("int", 4, 4096, "fields of the point-count confidence"),
+    ("solve", "tolerance"): ("num", 1e-12, 0.1, "relative solver tolerance"),
+    ("solve", "estimate_3d"): ("bool",),
+    ("solve", "fields"): ("bool",),
+    ("solve", "voxels"): ("int", 16, 1024, "voxels per edge of the 3D estimate's cubes"),
+    ("solve", "realizations"): ("int", 1, 100, "3D reconstructions"),
+    ("service", "strength_MPa"): ("num", 1e-3, 1e5, "MPa of fracture strength"),
+    ("service", "fracture_energy_J_m2"): ("num", 1e-3, 1e6, "J/m² of fracture energy"),
+    ("windows", "study"): ("bool",),
+    ("windows", "target_error"): ("num", 1e-4, 0.99, "relative error at 95 %, e.g. 0.02"),
+}
+# highest sane magnitude of a [[phase]] property override (diamond: ~2000 W/(m·K), ~1100 GPa)
+_PROPERTY_LIMITS = {"conductivity": 1e5, "youngs_modulus": 1e4, "poisson_ratio": 1.0,
+                    "expansion": 1e-2}
+
+
+def _value(value, rule, what, default):
+    """Refuse *value* unless it has the type and range *rule* gives."""
+    if rule[0] == "bool":
+        if not isinstance(value, bool):
+            raise InputError(f"{what} = {value!r}: give true or false (without quotes)")
+        return
+    kind, low, high, unit = rule
+    whole = isinstance(value, int) and not isinstance(value, bool)
+    ok = whole if kind == "int" else (whole or isinstance(value, float))
+    if not ok or not (low <= value <= high):
+        number = "a whole number" if kind == "int" else "a number"
+        usual = "" if default is None else f"; default {default}"
+        raise InputError(f"{what} = {value!r}: give {number} from {low:g} to {high:g} "
+                         f"({unit}{usual})")
+
+
+def validate(cfg: Config) -> None:
+    """Check every key of *cfg* for type, range, finiteness and sane size, raising one
+    `InputError` per problem that names the key and what to give (the run calls it before
+    any work)."""
+    _check(cfg)
+
+
+def check_grey_range(cfg: Config, low: float, high: float) -> list[str]:
+    """Check ``[segment] thresholds`` against the image's grey range [*low*, *high*].
+
+    Raises `InputError` when no threshold falls inside the range (every pixel would land
+    in one class); returns a warning per threshold outside it (a class with no pixels).
+    """
+    t = cfg.segment.thresholds
+    if cfg.segment.method != "thresholds" or not t:
+        return []
+    outside = [x for x in t if not low < x <= high]
+    if len(outside) == len(t):
+        raise InputError(f"[segment] thresholds = {list(t)} all lie outside the image's grey "
+                         f"range {low:g} to {high:g}, so every pixel would be one phase; give "
+                         "thresholds inside that range")
+    return [f"[segment] threshold {x:g} lies outside the image's grey range {low:g} to "
+            f"{high:g}; the class beyond it receives no pixels" for x in outside]
+
+
 def _check(cfg: Config) -> None:
     im, seg, sol = cfg.image, cfg.segment, cfg.solve
+    for (section, key), rule in _VALUES.items():
+        value = getattr(getattr(cfg, section), key)
+        if value is not None:
+            default = dataclasses.fields(type(getattr(cfg, section)))
+            _value(value, rule, f"[{section}] {key}",
+                   next(f.default for f in default if f.name == key))
+    if seg.thresholds is not None:
+        if not 1 <= len(seg.thresholds) <= 7 or not all(
+                isinstance(t, (int, float)) and not isinstance(t, bool) and math.isfinite(t)
+                for t in seg.thresholds) or any(b <= a for a, b in zip(seg.thresholds,
+                                                                       seg.thresholds[1:])):
+            raise InputError(f"[segment] thresholds = {list(seg.thresholds)!r}: give 1 to 7 "
+                             "finite grey levels in increasing order, e.g. [60, 150]")
     names = [p.name for p in cfg.phases]
     if len(set(names)) != len(names):
         twice = sorted({n for n in names if names.count(n) > 1})
         raise InputError(f"two [[phase]] entries share the name {', '.join(twice)}; give each "
                          "phase its own name (e.g. name = \"alumina-fine\")")
     _choice(im.kind, IMAGE_KINDS, "[image] kind")
-    if im.pixel_size_um is not None and not (im.pixel_size_um > 0):
-        raise InputError(f"[image] pixel_size_um = {im.pixel_size_um} must be a positive number "
-                         "of micrometres")
-    if not (im.crop_bottom_px == "auto" or (isinstance(im.crop_bottom_px, int)
-                                            and im.crop_bottom_px >= 0)):
-        raise InputError("[image] crop_bottom_px must be a number of rows ≥ 0 or \"auto\"")
+    if not (im.crop_bottom_px == "auto" or (isinstance(im.crop_bottom_px, int) and not
+                                            isinstance(im.crop_bottom_px, bool)
+                                            and 0 <= im.crop_bottom_px <= 10 ** 6)):
+        raise InputError(f"[image] crop_bottom_px = {im.crop_bottom_px!r}: give a number of "
+                         "rows from 0 to 1000000 or \"auto\"")
     _choice(seg.method, SEGMENT_METHODS, "[segment] method")
     _choice(seg.denoise, DENOISERS, "[segment] denoise")
-    if seg.classes is not None and not (isinstance(seg.classes, int) and 2 <= seg.classes <= 8):
-        raise InputError(f"[segment] classes = {seg.classes}: give an integer from 2 to 8")
     if seg.method == "thresholds" and not seg.thresholds:
         raise InputError("[segment] method = \"thresholds\" needs thresholds = [t1, t2, ...]")
-    if seg.fields < 4:
-        raise InputError("[segment] fields must be at least 4 (16 or more recommended)")
     for prop in sol.properties:
         _choice(prop, SOLVE_PROPERTIES, "[solve] properties entry")
     _choice(sol.method, SOLVE_METHODS, "[solve] method")
     _choice(sol.plane, PLANES, "[solve] plane")
-    if not (0 < sol.tolerance < 1e-1):
-        raise InputError(f"[solve] tolerance = {sol.tolerance}: give a relative tolerance "
-                         "between 0 and 0.1 (default 1e-6)")
-    if isinstance(sol.voxels, bool) or not isinstance(sol.voxels, int) or sol.voxels < 16:
-        raise InputError(f"[solve] voxels = {sol.voxels!r}: give the voxels per edge of the 3D "
-                         "estimate's cubes, a whole number of at least 16 (default 160)")
-    if isinstance(sol.realizations, bool) or not isinstance(sol.realizations, int) \
-            or sol.realizations < 1:
-        raise InputError(f"[solve] realizations = {sol.realizations!r}: give a whole number of "
-                         "3D reconstructions of at least 1 (default 3)")
     _choice(cfg.windows.edges, WINDOW_EDGES, "[windows] edges")
-    if not 0.0 < cfg.windows.target_error < 1.0:
-        raise InputError(f"[windows] target_error = {cfg.windows.target_error!r}: give a "
-                         "fraction between 0 and 1, e.g. 0.02 for 2 %")
     if im.kind == "palette":
         missing = [p.name for p in cfg.phases if p.color is None]
         if missing:
