@@ -267,6 +267,7 @@ class Material:
             value = getattr(self, prop)
             if value is not None and np.isscalar(value):
                 object.__setattr__(self, prop, float(value))
+        object.__setattr__(self, "sources", dict(self.sources))
         object.__setattr__(self, "uncertainty",
                            {k: float(v) for k, v in dict(self.uncertainty).items()})
         object.__setattr__(self, "tables", dict(self.tables))
@@ -554,7 +555,7 @@ def _builtin() -> tuple[tuple[str, Material], ...]:
 
 def library() -> dict[str, Material]:
     """The built-in material library, name → `Material` (values at 20 °C, with tables)."""
-    return dict(_builtin())
+    return {k: dataclasses.replace(m) for k, m in _builtin()}
 
 
 def load_library_file(path) -> dict[str, Material]:
