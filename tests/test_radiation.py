@@ -64,3 +64,13 @@ def test_air_conductivity_rises_with_temperature_and_has_a_range():
 def test_bad_radiation_input(kwargs, words):
     with pytest.raises(InputError, match=words):
         radiation_conductivity(1000.0, **kwargs)
+
+
+def test_pore_phase_carries_gas_plus_radiation():
+    """The pore phase at 1200 °C conducts air (Kadoya et al. 1985) plus Loeb's term, and
+    still carries no load."""
+    from polisect.properties.radiation import pore_phase
+    m = pore_phase(1200.0, 200.0)
+    r = pore_conductivity(1200.0, 200.0)
+    assert m.conductivity == pytest.approx(r.total) and m.is_pore
+    assert m.temperature_C == 1200.0 and "Loeb" in m.sources["conductivity"]

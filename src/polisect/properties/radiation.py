@@ -210,3 +210,23 @@ def pore_conductivity(temperature_C: float, pore_size_um: float,
                 f"{RADIATION_ON_ABOVE_C:g} °C)")
     return PoreConductivity(temperature_C, k_gas, k_r, k_gas + k_r, on, float(pore_size_um),
                             float(emissivity), float(shape_factor), text)
+
+
+def pore_phase(temperature_C: float, pore_size_um: float,
+               emissivity: float = DEFAULT_EMISSIVITY,
+               shape_factor: float = SHAPE_FACTORS["spherical"],
+               radiation: bool | None = None, gas=None):
+    """The pore phase of an image at *temperature_C*: the gas at that temperature with
+    its conductivity raised by radiation across pores of *pore_size_um* (see
+    `pore_conductivity`; the source line says what was done).
+
+    Returns
+    -------
+    Material
+        Plain values at *temperature_C*, no tables.
+    """
+    gas = get_material("air") if gas is None else gas
+    r = pore_conductivity(temperature_C, pore_size_um, emissivity, shape_factor, radiation, gas)
+    hot = gas.at(temperature_C)
+    sources = {**hot.sources, "conductivity": r.source}
+    return hot.replace(conductivity=r.total, sources=sources, tables={}, uncertainty={})
