@@ -276,3 +276,14 @@ def test_missing_lab_file_is_an_input_error(tmp_path):
     from polisect.core.materials import load_library_file
     with pytest.raises(InputError, match="not found"):
         load_library_file(tmp_path / "nope.toml")
+
+
+def test_plain_form_round_trips_with_temperature_and_uncertainty():
+    """to_dict → Material(**...) keeps the values, their temperature and uncertainties (the
+    saved phase map reads materials back this way)."""
+    m = get_material("alumina").at(1000)
+    back = Material(**m.to_dict())
+    for prop in ("conductivity", "youngs_modulus", "poisson_ratio", "expansion",
+                 "mean_expansion", "temperature_C"):
+        assert getattr(back, prop) == getattr(m, prop)
+    assert back.uncertainty == m.uncertainty and back.sources == m.sources
