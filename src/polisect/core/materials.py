@@ -492,7 +492,7 @@ def material_from_entry(name: str, entry: Mapping, origin: str = "the library") 
             u = scalar_unc.get(prop)
             tables[prop] = PropertyTable((REFERENCE_C,), (float(raw),), str(sources[prop]),
                                          None if u is None else (float(u),),
-                                         "given in the [sources] of the entry" if u is not None
+                                         "given in the entry's [uncertainty] table" if u is not None
                                          else "")
         else:
             raise InputError(f"{where}: {prop} must be a number (value at 20 °C) or a table "
