@@ -187,7 +187,7 @@ def expansion_pair(table: PropertyTable, temperature_C: float,
         slopes = np.diff(v) / np.diff(t)
         i = int(np.clip(np.searchsorted(t, temperature_C, side="right") - 1, 0, len(t) - 2))
         slope = slopes[i]
-        on_node = np.isclose(temperature_C, t[1:-1], atol=1e-9)
+        on_node = np.abs(t[1:-1] - temperature_C) <= 1e-9
         if on_node.any():
             j = int(np.flatnonzero(on_node)[0]) + 1
             slope = 0.5 * (slopes[j - 1] + slopes[j])
