@@ -276,18 +276,34 @@ def _run_demo(args) -> int:
 
 
 def _add_materials(sub):
-    p = sub.add_parser("materials", help="list the built-in material library")
+    p = sub.add_parser("materials", help="list the built-in material library",
+                       description="The material library: values at 20 °C, or one "
+                       "material's tables over temperature with their sources.")
     p.add_argument("--json", action="store_true", help="print the library as JSON")
+    p.add_argument("--show", metavar="NAME",
+                   help="print one material's tables over temperature with their sources")
+    p.add_argument("--file", metavar="TOML",
+                   help="a lab's own grades in the library's format, merged over the library")
     p.set_defaults(run=_run_materials)
 
 
 def _run_materials(args) -> int:
-    from ..core.materials import describe_library, library
+    from ..core.materials import (describe_library, describe_material, get_material,
+                                  library, load_library_file)
 
-    if args.json:
-        print(json.dumps({k: m.to_dict() for k, m in library().items()}, indent=2))
+    lib = load_library_file(args.file) if args.file else library()
+    if args.show:
+        material = get_material(args.show, lib)
+        if args.json:
+            print(json.dumps({**material.to_dict(), "tables": material.tables_dict()},
+                             indent=2))
+        else:
+            print(describe_material(material))
+    elif args.json:
+        print(json.dumps({k: {**m.to_dict(), "tables": m.tables_dict()} for k, m in lib.items()},
+                         indent=2))
     else:
-        print(describe_library())
+        print(describe_library(lib))
     return EXIT_OK
 
 
