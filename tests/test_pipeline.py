@@ -185,3 +185,64 @@ def test_volume_with_solve_writes_a_report(tmp_path):
     paths = write_outputs(a, tmp_path, stem="vol", config=cfg)
     html = (tmp_path / paths.report).read_text()
     assert "orthogonal sections" in html and "Effective properties" in html
+
+
+TEMPERATURES = [20.0, 500.0, 1000.0, 1200.0]
+
+
+def _hot_config(phases):
+    return config_from_dict({"image": {"kind": "labels", "pixel_size_um": 1.0},
+                             "phase": phases,
+                             "solve": {"properties": ["conductivity", "elasticity"],
+                                       "temperatures_C": TEMPERATURES, "fields": False}})
+
+
+def test_single_phase_gives_its_own_values_at_every_temperature():
+    """A one-phase image is its phase: k(T) and E(T) of sintered alumina as tabulated
+    (Munro, J. Am. Ceram. Soc. 80 (1997) 1919, E = 416, 390, 364, 354 GPa at 20, 500, 1000,
+    1200 °C), interpolated by the library."""
+    labels = np.zeros((32, 32), dtype=np.int32)
+    r = analyze(labels, _hot_config([{"label": 0, "name": "a", "material": "alumina"}])).result
+    from polisect import get_material
+
+    alumina = get_material("alumina")
+    assert [t.temperature_C for t in r.effective_by_temperature] == TEMPERATURES
+    for t in r.effective_by_temperature:
+        hot = alumina.at(t.temperature_C)
+        assert t.effective.conductivity.mean == pytest.approx(hot.conductivity, rel=1e-6)
+        assert t.effective.elasticity.youngs_modulus == pytest.approx(hot.youngs_modulus,
+                                                                      rel=1e-6)
+    assert [round(t.effective.elasticity.youngs_modulus) for t in
+            r.effective_by_temperature] == [416, 390, 364, 354]
+
+
+def test_laminate_gives_the_wiener_bounds_at_every_temperature():
+    """Layers of alumina and mullite: along the layers the arithmetic, across them the
+    harmonic mean of the phases' conductivities at each temperature (Wiener 1912)."""
+    labels = np.zeros((32, 32), dtype=np.int32)
+    labels[:, 16:] = 1
+    cfg = _hot_config([{"label": 0, "name": "a", "material": "alumina"},
+                       {"label": 1, "name": "m", "material": "mullite"}])
+    r = analyze(labels, cfg).result
+    from polisect import get_material
+
+    for t in r.effective_by_temperature:
+        k1 = get_material("alumina").at(t.temperature_C).conductivity
+        k2 = get_material("mullite").at(t.temperature_C).conductivity
+        k = t.effective.conductivity.tensor
+        assert k[1, 1] == pytest.approx((k1 + k2) / 2, rel=1e-6)       # along (y)
+        assert k[0, 0] == pytest.approx(2 / (1 / k1 + 1 / k2), rel=1e-6)   # across (x)
+
+
+def test_a_temperature_without_data_is_left_out_with_a_warning():
+    """A phase given as single numbers (20 °C only) cannot be solved hot: that temperature is
+    left out with a warning naming the material; the room-temperature result stands (common
+    practice, no source)."""
+    labels = np.zeros((16, 16), dtype=np.int32)
+    cfg = config_from_dict({"image": {"kind": "labels"},
+                            "phase": [{"label": 0, "name": "bond", "conductivity": 2.0}],
+                            "solve": {"properties": ["conductivity"],
+                                      "temperatures_C": [20.0, 800.0]}})
+    r = analyze(labels, cfg).result
+    assert [t.temperature_C for t in r.effective_by_temperature] == [20.0]
+    assert any(w.startswith("not solved at 800 °C") and "bond" in w for w in r.warnings)

@@ -36,7 +36,7 @@ from ..properties.shock import ShockIndices
 from ..read.config import Config, check_grey_range, validate
 from ..read.image import Micrograph, check_slice_spacing, read_image, read_stack, to_grayscale
 from .guard import check_analysis
-from .result import PhaseFraction, Result, SchemeTable, Source
+from .result import AtTemperature, PhaseFraction, Result, SchemeTable, Source
 
 Progress = Callable[[str], None]
 
@@ -136,8 +136,12 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
     if cfg.solve.estimate_3d:
         effective_3d = clock("estimate_3d", _effective_3d, phasemap, cfg, effective, say,
                              warnings, notes)
-    measured = (_measured(cfg, effective, effective_3d, schemes.get(3)) if cfg.measured
-                else ())
+    by_temperature = ()
+    if cfg.solve.temperatures_C and effective is not None:
+        by_temperature = clock("temperatures", _temperatures, phasemap, cfg, effective, say,
+                               warnings, notes)
+    measured = (_measured(cfg, effective, by_temperature, effective_3d, schemes.get(3))
+                if cfg.measured else ())
     windows = None
     if cfg.windows.study:
         windows = clock("windows", _window_study, phasemap, cfg, effective, say)
@@ -148,7 +152,7 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
     two_d_section = phasemap.ndim == 2
     result = Result(source=src, phases=fractions, version=__version__,
                     particles=summaries or None, effective=effective, shock=shock,
-                    effective_3d=effective_3d,
+                    effective_3d=effective_3d, effective_by_temperature=by_temperature,
                     schemes=schemes.get(phasemap.ndim),
                     schemes_3d=schemes.get(3) if two_d_section else None,
                     windows=windows,
@@ -185,14 +189,96 @@ def _effective_3d(phasemap: PhaseMap, cfg: Config, effective: Effective | None, 
     return est.summary()
 
 
-def _measured(cfg: Config, effective: Effective | None, effective_3d, bounds_3d):
-    """The ``[[measured]]`` values beside the computed ones (room temperature) and the
-    bounds of the isotropic 3D composite."""
+def _measured(cfg: Config, effective: Effective | None, by_temperature, effective_3d,
+              bounds_3d):
+    """The ``[[measured]]`` values beside the computed ones (at the solved temperatures) and
+    the bounds of the isotropic 3D composite."""
     from ..trust.measured import ROOM_C, compare_measured
 
-    return compare_measured(cfg.measured, {ROOM_C: effective} if effective else {},
+    solved = {ROOM_C: effective} if effective else {}
+    solved.update({t.temperature_C: t.effective for t in by_temperature})
+    return compare_measured(cfg.measured, solved,
                             effective_3d.effective if effective_3d else None,
                             dict(bounds_3d.bounds) if bounds_3d else None)
+
+
+def _temperatures(phasemap: PhaseMap, cfg: Config, effective: Effective, say: Progress,
+                  warnings: list, notes: list) -> tuple[AtTemperature, ...]:
+    """The section solved with the phase properties at each of ``[solve] temperatures_C``.
+
+    Every phase is evaluated at the temperature from its tables (`Material.at`); a pore
+    phase conducts the gas at that temperature plus radiation across pores of the pore
+    phase's mean intercept length measured on the image (Loeb 1954, on from
+    `radiation.RADIATION_ON_ABOVE_C`); porosity below the pixel is applied after. A
+    temperature a material has no data for is left out with a warning. At the library's
+    own temperature (20 °C) the analysis's solve is the answer and is not repeated.
+    """
+    from ..properties.effective import solve_effective
+    from ..properties.radiation import RADIATION_ON_ABOVE_C, pore_phase
+    from ..trust.measured import ROOM_C
+
+    pore_size = _pore_sizes(phasemap)
+    out = []
+    for t in cfg.solve.temperatures_C:
+        if abs(t - ROOM_C) < 1e-9:
+            out.append(AtTemperature(t, effective, _shock(effective, cfg, [])
+                                     if cfg.service.strength_MPa else None))
+            continue
+        say(f"solving at {t:g} °C")
+        try:
+            phases = []
+            for p in phasemap.phases:
+                pc = cfg.phase(p.label)
+                base = pc.material if pc is not None else p.material
+                if base.is_pore and base.name == "air":
+                    hot = pore_phase(t, pore_size.get(p.label, 0.0),
+                                     radiation=None if pore_size.get(p.label) else False)
+                else:
+                    hot = base.at(t, _needed(cfg.solve.properties))
+                phases.append(Phase(p.label, p.name, hot if pc is None
+                                    else _with_porosity(pc, hot), p.particles))
+        except InputError as exc:
+            warnings.append(f"not solved at {t:g} °C: {exc}")
+            continue
+        pm = PhaseMap(phasemap.labels, tuple(phases), phasemap.voxel_size_um)
+        solved = solve_effective(pm, cfg.solve.properties, method=cfg.solve.method,
+                                 tol=cfg.solve.tolerance, plane=cfg.solve.plane, maps=False)
+        warnings.extend(f"at {t:g} °C: {w}" for w in solved.warnings)
+        warnings.extend(f"at {t:g} °C: effective properties refused: {why}"
+                        for why in solved.refused)
+        out.append(AtTemperature(t, solved.effective,
+                                 _shock(solved.effective, cfg, []) if cfg.service.strength_MPa
+                                 else None))
+    if any(t >= RADIATION_ON_ABOVE_C for t in cfg.solve.temperatures_C) and pore_size:
+        sizes = ", ".join(f"{phasemap.phase(k).name} {v:.3g} µm" for k, v in pore_size.items())
+        notes.append(f"temperatures: radiation across pores from {RADIATION_ON_ABOVE_C:g} °C "
+                     f"(Loeb 1954), pore size = mean intercept length on the image ({sizes})")
+    return tuple(out)
+
+
+def _needed(properties) -> tuple[str, ...]:
+    """The material properties the solves of *properties* need."""
+    need = {"conductivity": ("conductivity",),
+            "elasticity": ("youngs_modulus", "poisson_ratio"),
+            "expansion": ("youngs_modulus", "poisson_ratio", "expansion")}
+    return tuple(dict.fromkeys(p for prop in properties for p in need[prop]))
+
+
+def _pore_sizes(phasemap: PhaseMap) -> dict[int, float]:
+    """Label → mean intercept length (µm) of every gas-filled pore phase, for radiation; empty
+    when the pixel size is unknown (no radiation then)."""
+    from ..measure.stereology import boundary_densities, spacing
+
+    if not phasemap.voxel_size_um:
+        return {}
+    out = {}
+    for p in phasemap.phases:
+        mask = phasemap.labels == p.label
+        if p.material.is_pore and mask.any():
+            length = spacing(boundary_densities(mask, None, phasemap.voxel_size_um)).mean_intercept
+            if np.isfinite(length):
+                out[p.label] = float(length)
+    return out
 
 
 def _window_study(phasemap: PhaseMap, cfg: Config, effective: Effective | None, say: Progress):
@@ -461,6 +547,16 @@ def _labels(micro: Micrograph, cfg: Config):
     return res.labels, tuple(res.thresholds), notes + list(res.notes), warnings
 
 
+def _with_porosity(pc, material: Material, pore_conductivity: float | None = None) -> Material:
+    """A phase's material with its ``porosity`` below the pixel size (`porous`), or as it is."""
+    if not pc.porosity:
+        return material
+    from ..properties.porous import porous
+
+    return porous(material, pc.porosity, pore_shape=pc.pore_shape,
+                  aspect_ratio=pc.pore_aspect_ratio, pore_conductivity=pore_conductivity)
+
+
 def _phase_table(labels: np.ndarray, cfg: Config) -> tuple[Phase, ...]:
     present = np.unique(labels).tolist()
     if cfg.phases:
@@ -470,7 +566,8 @@ def _phase_table(labels: np.ndarray, cfg: Config) -> tuple[Phase, ...]:
             raise InputError(f"the phase map holds labels {missing} that no [[phase]] entry "
                              f"describes (configured labels: {sorted(known)}); add a "
                              "[[phase]] for each, or change [segment] classes")
-        return tuple(Phase(p.label, p.name, p.material, p.particles) for p in cfg.phases)
+        return tuple(Phase(p.label, p.name, _with_porosity(p, p.material), p.particles)
+                     for p in cfg.phases)
     return tuple(Phase(v, f"phase-{v}", Material(name=f"phase-{v}", source="no material given"))
                  for v in present)
 

@@ -70,6 +70,16 @@ class SchemeTable:
 
 
 @dataclass(frozen=True, eq=False)
+class AtTemperature:
+    """The section's effective properties solved with the phase properties at one
+    temperature (°C), and the thermal-shock indices from them."""
+
+    temperature_C: float
+    effective: Effective
+    shock: ShockIndices | None = None
+
+
+@dataclass(frozen=True, eq=False)
 class Result:
     """One analysed section (or volume).
 
@@ -83,6 +93,8 @@ class Result:
         The section solved as it is (2D: a prismatic structure; 3D: the volume).
     effective_3d : Estimate3DRecord or None
         The 3D estimate from the section's statistics.
+    effective_by_temperature : tuple of AtTemperature
+        The section solved at each of ``[solve] temperatures_C``.
     particles : mapping phase name → ParticleSummary or VolumeParticleSummary, or None
     schemes, schemes_3d : SchemeTable or None
         Bounds and estimates for the model solved, and (2D sections) for spheres.
@@ -105,6 +117,7 @@ class Result:
     config_toml: str = ""
     effective: Effective | None = None
     effective_3d: Estimate3DRecord | None = None
+    effective_by_temperature: tuple[AtTemperature, ...] = ()
     particles: Mapping[str, ParticleSummary | VolumeParticleSummary] | None = None
     schemes: SchemeTable | None = None
     schemes_3d: SchemeTable | None = None

@@ -31,7 +31,7 @@ from ..measure.summary import (Correlation, ParticleSummary, SizeQuantiles, Sphe
                                VolumeParticleSummary)
 from ..model3d.summary import (Estimate3DRecord, FamilyRecord, PackingRecord, Versus2D,
                                VolumeRecord)
-from ..pipeline.result import PhaseFraction, Result, SchemeTable, Source
+from ..pipeline.result import AtTemperature, PhaseFraction, Result, SchemeTable, Source
 from ..properties.records import (AxialModuli, ComparableModuli, Conductivity, Effective,
                                   Elasticity, Expansion, Solver, Spread, value_of)
 from ..properties.schemes import Bound, Estimate
@@ -69,6 +69,10 @@ def to_dict(result: Result) -> dict:
                     "inside_particles": p.inside_particles} for p in result.phases],
         "effective": _effective(result.effective) if result.effective else None,
         "effective_3d": _estimate_3d(result.effective_3d) if result.effective_3d else None,
+        "effective_by_temperature": [
+            {"temperature_C": t.temperature_C, **_effective(t.effective),
+             **({"shock": _shock(t.shock)} if t.shock else {})}
+            for t in result.effective_by_temperature],
         "particles": ({n: _particles(s) for n, s in result.particles.items()}
                       if result.particles else None),
         "schemes": _schemes(result.schemes),
@@ -287,13 +291,15 @@ def from_dict(d: dict) -> Result:
         version=d["polisect_version"], config_toml=d.get("config", ""),
         effective=_read_effective(d["effective"]) if d.get("effective") else None,
         effective_3d=_read_3d(d["effective_3d"]) if d.get("effective_3d") else None,
+        effective_by_temperature=tuple(
+            AtTemperature(b["temperature_C"], _read_effective(b),
+                          _read_shock(b["shock"]) if b.get("shock") else None)
+            for b in d.get("effective_by_temperature") or ()),
         particles=({n: _read_particles(b) for n, b in d["particles"].items()}
                    if d.get("particles") else None),
         schemes=_read_schemes(d.get("schemes"), d.get("bounds")),
         schemes_3d=_read_schemes(d.get("schemes_3d"), d.get("bounds_3d")),
-        shock=(ShockIndices(d["shock"]["R_K"], d["shock"]["R_prime_W_m"],
-                            d["shock"]["R_4prime_m"], d["shock"]["caution"],
-                            d["shock"]["model"]) if d.get("shock") else None),
+        shock=_read_shock(d["shock"]) if d.get("shock") else None,
         windows=_read_windows(d["windows"]) if d.get("windows") else None,
         correlation=({n: Correlation(c["correlation_length"], c["units"], c["fraction"])
                       for n, c in d["correlation"].items()} if d.get("correlation") else None),
@@ -303,10 +309,15 @@ def from_dict(d: dict) -> Result:
         timings_s=dict(d.get("timings_s") or {}), created=d.get("created", ""))
 
 
+def _read_shock(s: dict) -> ShockIndices:
+    return ShockIndices(s["R_K"], s["R_prime_W_m"], s["R_4prime_m"], s["caution"], s["model"])
+
+
 def _material(m: dict) -> Material:
     props = {k: m[k] for k in ("conductivity", "youngs_modulus", "poisson_ratio", "expansion",
-                               "stiffness") if k in m}
-    return Material(name=m["name"], source=m["source"], sources=m.get("sources") or {}, **props)
+                               "stiffness", "mean_expansion", "temperature_C") if k in m}
+    return Material(name=m["name"], source=m["source"], sources=m.get("sources") or {},
+                    uncertainty=m.get("uncertainty") or {}, **props)
 
 
 def _read_scalar(block: dict, key: str):

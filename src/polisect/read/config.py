@@ -26,7 +26,7 @@ from dataclasses import dataclass, field
 from ..core.choices import (DENOISERS, IMAGE_KINDS, MEASURED_PROPERTIES, PLANES,
                             SEGMENT_METHODS, SOLVE_METHODS, SOLVE_PROPERTIES, WINDOW_EDGES)
 from ..core.errors import InputError
-from ..core.materials import PROPERTIES, UNITS, Material, get_material
+from ..core.materials import PROPERTIES, UNITS, Material, get_material, load_library_file
 
 try:  # Python >= 3.11
     import tomllib
@@ -69,6 +69,9 @@ class PhaseConfig:
     color: str | None = None
     particles: bool | None = None
     split_touching: bool = False
+    porosity: float = 0.0
+    pore_shape: str = "spherical"
+    pore_aspect_ratio: float | None = None
 
 
 @dataclass(frozen=True)
@@ -83,6 +86,15 @@ class SolveConfig:
     fields: bool = True
     voxels: int = 160
     realizations: int = 3
+    temperatures_C: tuple[float, ...] | None = None
+
+
+@dataclass(frozen=True)
+class MaterialsConfig:
+    """``[materials]``: a lab's own grades in the library's format, merged over the built-in
+    library (a path relative to the configuration file)."""
+
+    file: str | None = None
 
 
 @dataclass(frozen=True)
@@ -123,6 +135,7 @@ class Config:
     solve: SolveConfig = field(default_factory=SolveConfig)
     service: ServiceConfig = field(default_factory=ServiceConfig)
     windows: WindowsConfig = field(default_factory=WindowsConfig)
+    materials: MaterialsConfig = field(default_factory=MaterialsConfig)
     measured: tuple[MeasuredValue, ...] = ()
     source: str = "defaults"
     raw: str = ""
@@ -134,9 +147,10 @@ class Config:
         return None
 
 _SECTIONS = {"image": ImageConfig, "segment": SegmentConfig, "solve": SolveConfig,
-             "service": ServiceConfig, "windows": WindowsConfig}
+             "service": ServiceConfig, "windows": WindowsConfig, "materials": MaterialsConfig}
 _PHASE_KEYS = {"label", "name", "material", "color", "particles", "split_touching",
-               "source"} | set(PROPERTIES)
+               "source", "porosity", "pore_shape", "pore_aspect_ratio"} | set(PROPERTIES)
+PORE_SHAPES = ("spherical", "oblate")
 
 
 def load_config(path: str | os.PathLike) -> Config:
@@ -174,7 +188,8 @@ def config_from_dict(data: dict, *, source: str = "dict", raw: str = "") -> Conf
     entries = data.get("phase", [])
     if not isinstance(entries, list):
         raise InputError("phases are given as [[phase]] tables (double brackets), one per phase")
-    phases = tuple(_phase(entry, i) for i, entry in enumerate(entries))
+    library = _library(sections["materials"], source)
+    phases = tuple(_phase(entry, i, library) for i, entry in enumerate(entries))
     labels = [p.label for p in phases]
     if len(set(labels)) != len(labels):
         raise InputError(f"two [[phase]] entries share a label ({labels}); give each its own")
@@ -221,7 +236,7 @@ def _section(cls, values, name):
         if key not in names:
             _unknown(key, names, f"[{name}]")
     kwargs = dict(values)
-    for key in ("thresholds", "properties"):
+    for key in ("thresholds", "properties", "temperatures_C"):
         if key in kwargs and kwargs[key] is not None:
             if not isinstance(kwargs[key], list):
                 raise InputError(f"[{name}] {key} must be a list, e.g. {key} = [...]")
@@ -270,7 +285,19 @@ def measured_values(entries) -> tuple[MeasuredValue, ...]:
     return tuple(out)
 
 
-def _phase(entry, index):
+def _library(materials: MaterialsConfig, source: str):
+    """The built-in library with the lab's file merged over it, or None (built-in only)."""
+    if materials.file is None:
+        return None
+    if not isinstance(materials.file, str) or not materials.file.strip():
+        raise InputError("[materials] file must be the path of a library file in quotes")
+    path = materials.file
+    if not os.path.isabs(path) and os.path.isfile(source):
+        path = os.path.join(os.path.dirname(os.path.abspath(source)), path)
+    return load_library_file(path)
+
+
+def _phase(entry, index, library=None):
     if not isinstance(entry, dict):
         raise InputError(f"[[phase]] number {index + 1} is not a table")
     for key in entry:
@@ -296,7 +323,7 @@ def _phase(entry, index):
                              f"{UNITS[key]}")
     name = entry.get("name")
     if "material" in entry:
-        base = get_material(str(entry["material"]))
+        base = get_material(str(entry["material"]), library)
         name = name or base.name
         material = base
         if overrides:
@@ -309,9 +336,23 @@ def _phase(entry, index):
     color = entry.get("color")
     if color is not None and not re.fullmatch(r"#[0-9a-fA-F]{6}", str(color)):
         raise InputError(f"[[phase]] {name}: color {color!r} is not '#rrggbb'")
+    porosity = entry.get("porosity", 0.0)
+    if isinstance(porosity, bool) or not isinstance(porosity, (int, float)) \
+            or not 0.0 <= porosity <= 0.9:
+        raise InputError(f"[[phase]] {name}: porosity = {porosity!r} must be a pore volume "
+                         "fraction from 0 to 0.9 inside the phase (e.g. 0.25)")
+    shape = entry.get("pore_shape", "spherical")
+    _choice(shape, PORE_SHAPES, f"[[phase]] {name}: pore_shape")
+    aspect = entry.get("pore_aspect_ratio")
+    if shape == "oblate" and not (isinstance(aspect, (int, float)) and not isinstance(aspect, bool)
+                                  and 0.0 < aspect < 1.0):
+        raise InputError(f"[[phase]] {name}: pore_shape = \"oblate\" needs pore_aspect_ratio, "
+                         "the short over the long axis of the pores, between 0 and 1 (e.g. 0.1)")
     return PhaseConfig(label=entry["label"], name=str(name), material=material, color=color,
                        particles=entry.get("particles"),
-                       split_touching=bool(entry.get("split_touching", False)))
+                       split_touching=bool(entry.get("split_touching", False)),
+                       porosity=float(porosity), pore_shape=shape,
+                       pore_aspect_ratio=None if aspect is None else float(aspect))
 
 
 # (section, key): ("num" | "int", lowest, highest, what the number is) or ("bool",); the
@@ -416,6 +457,14 @@ def _check(cfg: Config) -> None:
     _choice(sol.method, SOLVE_METHODS, "[solve] method")
     _choice(sol.plane, PLANES, "[solve] plane")
     _choice(cfg.windows.edges, WINDOW_EDGES, "[windows] edges")
+    temps = sol.temperatures_C
+    if temps is not None:
+        if not 1 <= len(temps) <= 32 or not all(
+                isinstance(t, (int, float)) and not isinstance(t, bool) and math.isfinite(t)
+                and -273.15 < t <= 3000.0 for t in temps) \
+                or any(b <= a for a, b in zip(temps, temps[1:])):
+            raise InputError(f"[solve] temperatures_C = {list(temps)!r}: give 1 to 32 "
+                             "temperatures in °C in increasing order, e.g. [20, 400, 800, 1200]")
     if im.kind == "palette":
         missing = [p.name for p in cfg.phases if p.color is None]
         if missing:
