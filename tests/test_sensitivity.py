@@ -165,3 +165,17 @@ def test_bad_settings():
     """A tolerance outside (0, 1) is refused with an InputError (common practice)."""
     with pytest.raises(InputError):
         conductivity_sensitivity(three_phase(), MATERIALS, tol=2.0)
+
+
+def test_slabs_give_the_same_sums(monkeypatch):
+    """Summing over many thin slabs gives the same derivatives as one slab (the sums are
+    additive over pixels; exact to rounding)."""
+    import polisect.properties.sensitivity as module
+    labels = three_phase(n=10, dim=3)
+    whole = elasticity_sensitivity(labels, MATERIALS, expansion=True, tol=1e-9)
+    monkeypatch.setattr(module, "SLAB_PIXELS", 150)        # one x-layer per slab
+    sliced = elasticity_sensitivity(labels, MATERIALS, expansion=True, tol=1e-9)
+    for name in ("stiffness", "expansion"):
+        for key, d in whole.tensor_derivatives[name].items():
+            assert np.allclose(sliced.tensor_derivatives[name][key], d, rtol=1e-10,
+                               atol=1e-14 * np.abs(d).max())
