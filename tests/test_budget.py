@@ -9,7 +9,7 @@ from hypothesis import given, strategies as st
 from polisect import InputError, Material
 from polisect.properties.sensitivity import QuantitySensitivity, conductivity_sensitivity
 from polisect.trust.budget import (COMPONENTS, COVERAGE, error_budget, material_term,
-                                   model_2d_3d_term)
+                                   material_terms, model_2d_3d_term)
 from polisect.trust.discretization import richardson
 
 
@@ -98,3 +98,16 @@ def test_bad_uncertainty():
     s = QuantitySensitivity("k", 1.0, {(0, "conductivity"): 1.0})
     with pytest.raises(InputError):
         material_term(s, {0: {"conductivity": -0.1}})
+
+
+def test_material_terms_of_a_sensitivity_result():
+    """Every quantity of a Sensitivities result gets its term; a two-phase laminate's
+    mean conductivity is linear in k_p along and harmonic across, so the term is
+    1.96·√Σ(∂k/∂k_p·u_p)² with the exact shares (Wiener 1912; GUM §5.1.2)."""
+    labels = np.zeros((8, 8), dtype=int)
+    labels[:4] = 1
+    m = {0: Material(conductivity=1.0), 1: Material(conductivity=3.0)}
+    s = conductivity_sensitivity(labels, m, tol=1e-12)
+    terms = material_terms(s, {0: {"conductivity": 0.1}, 1: {"conductivity": 0.3}})
+    expected = COVERAGE * math.hypot(0.8125 * 0.1, 0.3125 * 0.3)
+    assert terms["conductivity"].half_width == pytest.approx(expected, rel=1e-8)

@@ -93,13 +93,6 @@ class QuantitySensitivity:
     value: float
     derivatives: Mapping[tuple[int, str], float]
 
-    def elasticities(self) -> dict[tuple[int, str], float]:
-        """Relative sensitivities ∂ln(value)/∂ln(property) need the property values; this
-        gives ∂value/∂property divided by value (per unit of property), 0 when value is 0."""
-        if self.value == 0.0:
-            return {k: 0.0 for k in self.derivatives}
-        return {k: v / self.value for k, v in self.derivatives.items()}
-
 
 @dataclass(frozen=True, eq=False)
 class Sensitivities:

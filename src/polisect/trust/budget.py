@@ -33,7 +33,7 @@ from dataclasses import dataclass
 from typing import Mapping
 
 from ..core.errors import InputError
-from ..properties.sensitivity import QuantitySensitivity
+from ..properties.sensitivity import QuantitySensitivity, Sensitivities
 from .discretization import DiscretizationEstimate
 
 COMPONENTS = ("sampling", "window", "segmentation", "discretization", "material",
@@ -130,6 +130,27 @@ def material_term(sensitivity: QuantitySensitivity,
     half = math.hypot(*contributions.values())
     largest = max(contributions, key=contributions.get) if contributions and half > 0 else None
     return MaterialTerm(half, contributions, largest, tuple(unassessed))
+
+
+def material_terms(sensitivities, uncertainties: Mapping[int, Mapping[str, float]], *,
+                   coverage: float = COVERAGE) -> dict[str, MaterialTerm]:
+    """`material_term` of every quantity of one or more `Sensitivities` results.
+
+    Parameters
+    ----------
+    sensitivities : Sensitivities or iterable of Sensitivities
+        E.g. the conductivity and the elasticity results of one section.
+    uncertainties : mapping label → mapping property → float
+        Standard uncertainties, as for `material_term`.
+    coverage : float
+
+    Returns
+    -------
+    dict quantity name → MaterialTerm
+    """
+    items = [sensitivities] if isinstance(sensitivities, Sensitivities) else list(sensitivities)
+    return {name: material_term(q, uncertainties, coverage=coverage)
+            for s in items for name, q in s.quantities.items()}
 
 
 def model_2d_3d_term(section_value: float, estimate_3d: float) -> float:
