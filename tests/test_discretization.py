@@ -119,3 +119,21 @@ def test_small_map_uses_one_coarse_level():
     s = discretization_study(labels, lambda L: {"k": conductivity(L, m).mean()})
     assert s.shapes == ((24, 24), (12, 12))
     assert s.estimates["k"].method == "bound" and "one coarse level" in s.estimates["k"].note
+
+
+def test_with_the_window_study_evaluator():
+    """The window study's solver evaluator serves the discretization study as is: every
+    headline key gets an estimate, and the fine values are the evaluator's own (same
+    solver; exact)."""
+    from polisect.core.phasemap import Phase, PhaseMap
+    from polisect.trust.rve import solver_evaluator
+    labels = centred_disc(32, 0.4)
+    m = Material(conductivity=1.0, youngs_modulus=70.0, poisson_ratio=0.3, expansion=2e-5)
+    c = Material(conductivity=10.0, youngs_modulus=400.0, poisson_ratio=0.2, expansion=5e-6)
+    pm = PhaseMap(labels, (Phase(0, "matrix", m), Phase(1, "disc", c)))
+    evaluate = solver_evaluator(pm, ["conductivity", "elasticity", "expansion"])
+    s = discretization_study(pm.labels, evaluate)
+    assert set(s.estimates) == set(evaluate(labels))
+    for name, e in s.estimates.items():
+        assert e.value == pytest.approx(evaluate(labels)[name], rel=1e-12)
+        assert len(e.coarse) == 2 and np.isfinite(e.error)
