@@ -51,6 +51,8 @@ def quantity_keys(row: dict) -> list[str]:
     for k, v in row.items():
         if not isinstance(v, (int, float)) or isinstance(v, bool):
             continue
+        if k.endswith("_u95"):
+            continue
         if (k.startswith("fraction_") and not k.endswith(("_ci95_low", "_ci95_high"))) \
                 or (k.startswith("particles_") and k.endswith("_ecd_d50")) \
                 or k in PROPERTY_WORDS:

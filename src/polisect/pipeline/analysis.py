@@ -26,7 +26,7 @@ from .. import __version__
 from ..core.errors import InputError
 from ..core.materials import Material
 from ..core.phasemap import Phase, PhaseMap
-from ..core.quantities import SOLVED_COLUMNS
+from ..core.quantities import SOLVED_COLUMNS, fraction_column
 from ..measure.morphology import (enclosed_fractions, field_fractions, particle_phases,
                                   phase_particles)
 from ..measure.summary import (summarize_correlation, summarize_particles,
@@ -146,6 +146,11 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
     if cfg.windows.study:
         windows = clock("windows", _window_study, phasemap, cfg, effective, say)
 
+    uncertainty = {}
+    if cfg.uncertainty.budget:
+        uncertainty = clock("uncertainty", _uncertainty, phasemap, cfg, fractions, summaries,
+                            effective, effective_3d, windows, say, warnings)
+
     src = Source(path=micro.path, sha256=micro.sha256, shape=tuple(phasemap.shape),
                  pixel_size_um=micro.pixel_size_um, pixel_size_from=micro.pixel_size_from,
                  cropped_bottom_px=micro.cropped_bottom_px)
@@ -158,7 +163,7 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
                     windows=windows,
                     correlation={name: summarize_correlation(c)
                                  for name, c in correlations.items()} or None,
-                    measured=measured,
+                    measured=measured, uncertainty=uncertainty,
                     config_toml=cfg.raw, warnings=tuple(warnings), notes=tuple(notes),
                     timings_s=clock.timings,
                     created=_dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"))
@@ -187,6 +192,128 @@ def _effective_3d(phasemap: PhaseMap, cfg: Config, effective: Effective | None, 
         return None
     warnings.extend(f"3D estimate: {w}" for w in est.warnings)
     return est.summary()
+
+
+_EFFECTIVE_VALUES = {"conductivity_W_mK": ("conductivity", "mean"),
+                     "youngs_modulus_GPa": ("elasticity", "youngs_modulus"),
+                     "poisson_ratio": ("elasticity", "poisson_ratio"),
+                     "shear_modulus_GPa": ("elasticity", "shear_modulus"),
+                     "bulk_modulus_GPa": ("elasticity", "bulk_modulus"),
+                     "expansion_per_K": ("expansion", "mean")}
+"""Headline column of an effective property → (block, attribute) of `Effective`."""
+
+_SENSITIVITY_NAMES = {"conductivity_W_mK": "conductivity", "youngs_modulus_GPa": "youngs_modulus",
+                      "poisson_ratio": "poisson_ratio", "shear_modulus_GPa": "shear_modulus",
+                      "bulk_modulus_GPa": "bulk_modulus", "expansion_per_K": "expansion"}
+
+
+def _effective_values(effective: Effective | None) -> dict[str, float]:
+    """Headline column → the value of every effective property *effective* holds."""
+    out = {}
+    for key, (block, attr) in _EFFECTIVE_VALUES.items():
+        b = getattr(effective, block) if effective is not None else None
+        if b is not None and value_of(getattr(b, attr)) is not None:
+            out[key] = value_of(getattr(b, attr))
+    return out
+
+
+def _uncertainty(phasemap: PhaseMap, cfg: Config, fractions, summaries, effective,
+                 effective_3d, windows, say: Progress, warnings: list) -> dict:
+    """The error budget of every headline number: sampling (field-to-field interval of the
+    fractions, bootstrap interval of the particle D50), window size (the window study, when
+    it ran), discretization (the map re-solved coarsened by 2 and 4, Richardson), material
+    data (first order, from each phase's share of the stored energy and the stated
+    uncertainties of the phase properties) and 2D versus 3D (when the 3D estimate ran),
+    combined as a root-sum-square (`polisect.trust.budget`). Segmentation is assessed where
+    the phase map reports its uncertainty."""
+    from ..core.quantities import quantity_label
+    from ..trust.budget import error_budget, model_2d_3d_term
+
+    def window(key, value):
+        q = windows.quantities.get(key) if windows is not None else None
+        if q is None or q.supported_error_pct is None:
+            return None
+        return abs(value) * q.supported_error_pct / 100.0
+
+    names = {p.label: p.name for p in phasemap.phases}
+    out = {}
+    for f in fractions:
+        key = fraction_column(f.name)
+        out[key] = error_budget(key, f.fraction, sampling=(f.fraction_ci95[1] - f.fraction_ci95[0])
+                                / 2.0, window=window(key, f.fraction), phase_names=names)
+    for name, s in summaries.items():
+        d50 = getattr(getattr(s, "ecd", None), "d50", None)
+        ci = (getattr(s, "ecd", None) and s.ecd.ci95.get("d50")) or None
+        if d50 is not None:
+            key = f"particles_{name}_ecd_d50"
+            out[key] = error_budget(key, d50, unit=quantity_label(key)[1],
+                                    sampling=(ci[1] - ci[0]) / 2.0 if ci and None not in ci
+                                    else None, phase_names=names)
+    values = _effective_values(effective)
+    if not values:
+        return out
+    discretization = {}
+    if cfg.uncertainty.discretization:
+        say("discretization error: the map re-solved coarsened by 2 and 4")
+        discretization = _discretization(phasemap, cfg, values, warnings)
+    material = {}
+    if cfg.uncertainty.material:
+        say("material data: sensitivity of each property to each phase property")
+        material = _material_terms(phasemap, cfg, warnings)
+    three_d = _effective_values(effective_3d.effective) if effective_3d else {}
+    for key, value in values.items():
+        out[key] = error_budget(
+            key, value, unit=quantity_label(key)[1], window=window(key, value),
+            discretization=discretization.get(key), material=material.get(
+                _SENSITIVITY_NAMES[key]),
+            model_2d_3d=(model_2d_3d_term(value, three_d[key]) if key in three_d else None),
+            phase_names=names)
+    return out
+
+
+def _discretization(phasemap: PhaseMap, cfg: Config, fine: dict, warnings: list) -> dict:
+    """Headline column → `DiscretizationEstimate` of every effective property."""
+    from ..properties.effective import solve_effective
+    from ..trust.discretization import discretization_study
+
+    def evaluate(labels):
+        pm = PhaseMap(np.ascontiguousarray(labels), phasemap.phases, phasemap.voxel_size_um)
+        return _effective_values(solve_effective(
+            pm, cfg.solve.properties, method=cfg.solve.method, tol=cfg.solve.tolerance,
+            plane=cfg.solve.plane, maps=False).effective)
+
+    try:
+        return dict(discretization_study(phasemap.labels, evaluate, fine=fine).estimates)
+    except InputError as exc:
+        warnings.append(f"discretization error not assessed: {exc}")
+        return {}
+
+
+def _material_terms(phasemap: PhaseMap, cfg: Config, warnings: list) -> dict:
+    """Sensitivity name → `MaterialTerm` from the stated uncertainties of the phases."""
+    from ..properties.effective import solver_labels
+    from ..properties.sensitivity import conductivity_sensitivity, elasticity_sensitivity
+    from ..trust.budget import material_terms
+
+    uncertainties = {p.label: dict(p.material.uncertainty) for p in phasemap.phases
+                     if p.material.uncertainty}
+    if not uncertainties:
+        return {}
+    labels, mats = solver_labels(phasemap.labels), phasemap.materials
+    tol = max(cfg.solve.tolerance, 1e-4)   # the shares are energies: quadratic in the error
+    results = []
+    props = cfg.solve.properties
+    try:
+        if "conductivity" in props:
+            results.append(conductivity_sensitivity(labels, mats, tol=tol))
+        if "elasticity" in props or "expansion" in props:
+            plane = cfg.solve.plane if phasemap.ndim == 2 else "generalized-plane-strain"
+            results.append(elasticity_sensitivity(labels, mats, plane=plane, tol=tol,
+                                                  expansion="expansion" in props))
+    except InputError as exc:
+        warnings.append(f"material-data uncertainty not assessed: {exc}")
+        return {}
+    return material_terms(results, uncertainties)
 
 
 def _measured(cfg: Config, effective: Effective | None, by_temperature, effective_3d,

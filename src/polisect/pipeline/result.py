@@ -26,6 +26,7 @@ from ..model3d.summary import Estimate3DRecord
 from ..properties.records import Effective
 from ..properties.schemes import Bound, Estimate
 from ..properties.shock import ShockIndices
+from ..trust.budget import Budget
 from ..trust.measured import MeasuredComparison
 from ..trust.records import WindowRecord
 
@@ -103,6 +104,8 @@ class Result:
     correlation : mapping phase name → Correlation, or None
     measured : tuple of MeasuredComparison
         The lab's ``[[measured]]`` values beside the computed ones.
+    uncertainty : mapping headline column → Budget
+        The error budget of every headline number (``[uncertainty]``).
     warnings, notes : tuple of str
     timings_s : mapping stage → seconds
     config_toml : str
@@ -125,6 +128,7 @@ class Result:
     windows: WindowRecord | None = None
     correlation: Mapping[str, Correlation] | None = None
     measured: tuple[MeasuredComparison, ...] = ()
+    uncertainty: Mapping[str, Budget] = field(default_factory=dict)
     warnings: tuple[str, ...] = ()
     notes: tuple[str, ...] = ()
     timings_s: Mapping[str, float] = field(default_factory=dict)

@@ -36,6 +36,7 @@ from ..properties.records import (AxialModuli, ComparableModuli, Conductivity, E
                                   Elasticity, Expansion, Solver, Spread, value_of)
 from ..properties.schemes import Bound, Estimate
 from ..properties.shock import INDEX_WORDS, ShockIndices
+from ..trust.budget import Budget
 from ..trust.measured import MeasuredComparison
 from ..trust.records import (LevelStats, QuantityFit, WindowLevelRecord,
                              WindowRecord)
@@ -85,6 +86,11 @@ def to_dict(result: Result) -> dict:
                              "fraction": c.fraction} for n, c in result.correlation.items()}
                         if result.correlation else None),
         "measured": [{f: getattr(m, f) for f in _MEASURED_FIELDS} for m in result.measured],
+        "uncertainty": {key: {"value": b.value, "unit": b.unit,
+                              "components": dict(b.components), "combined": b.combined,
+                              "largest": b.largest, "advice": b.advice,
+                              "notes": list(b.notes)}
+                        for key, b in result.uncertainty.items()},
         "warnings": list(result.warnings),
         "notes": list(result.notes),
         "timings_s": dict(result.timings_s),
@@ -305,6 +311,9 @@ def from_dict(d: dict) -> Result:
                       for n, c in d["correlation"].items()} if d.get("correlation") else None),
         measured=tuple(MeasuredComparison(**{f: m[f] for f in _MEASURED_FIELDS})
                        for m in d.get("measured") or ()),
+        uncertainty={key: Budget(key, b["value"], b["unit"], dict(b["components"]),
+                                 b["combined"], b["largest"], b["advice"], tuple(b["notes"]))
+                     for key, b in (d.get("uncertainty") or {}).items()},
         warnings=tuple(d.get("warnings") or ()), notes=tuple(d.get("notes") or ()),
         timings_s=dict(d.get("timings_s") or {}), created=d.get("created", ""))
 
@@ -528,6 +537,9 @@ def headline(result: Result) -> dict[str, Any]:
         value = HEADLINE_VALUES[column](result)
         if value is not None:
             row[column] = value
+    for key, b in result.uncertainty.items():
+        if key in row and b.combined is not None:
+            row[f"{key}_u95"] = b.combined
     row["warnings"] = len(result.warnings)
     return plain(row)
 

@@ -260,7 +260,6 @@ def elasticity_sensitivity(labels, materials: Mapping, *, plane: str = GPS,
     cell = elastic_cell(image, ph)
     nv = 6 if dim == 3 else 3
     loads = [Load(tensors.voigt_to_strain(e)) for e in np.eye(nv)]
-    extra = [np.zeros(nv)]
     if gps:
         loads.append(Load(np.zeros((2, 2)), tau=tensors.voigt_to_stress(ph.axial)))
     n_mech = len(loads)

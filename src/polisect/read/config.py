@@ -98,6 +98,15 @@ class MaterialsConfig:
 
 
 @dataclass(frozen=True)
+class UncertaintyConfig:
+    """``[uncertainty]``: the error budget beside every headline number."""
+
+    budget: bool = True
+    discretization: bool = True
+    material: bool = True
+
+
+@dataclass(frozen=True)
 class WindowsConfig:
     """``[windows]``: the window-size study (is the image big enough?)."""
 
@@ -136,6 +145,7 @@ class Config:
     service: ServiceConfig = field(default_factory=ServiceConfig)
     windows: WindowsConfig = field(default_factory=WindowsConfig)
     materials: MaterialsConfig = field(default_factory=MaterialsConfig)
+    uncertainty: UncertaintyConfig = field(default_factory=UncertaintyConfig)
     measured: tuple[MeasuredValue, ...] = ()
     source: str = "defaults"
     raw: str = ""
@@ -147,7 +157,8 @@ class Config:
         return None
 
 _SECTIONS = {"image": ImageConfig, "segment": SegmentConfig, "solve": SolveConfig,
-             "service": ServiceConfig, "windows": WindowsConfig, "materials": MaterialsConfig}
+             "service": ServiceConfig, "windows": WindowsConfig, "materials": MaterialsConfig,
+             "uncertainty": UncertaintyConfig}
 _PHASE_KEYS = {"label", "name", "material", "color", "particles", "split_touching",
                "source", "porosity", "pore_shape", "pore_aspect_ratio"} | set(PROPERTIES)
 PORE_SHAPES = ("spherical", "oblate")
@@ -374,6 +385,9 @@ _VALUES = {
     ("service", "strength_MPa"): ("num", 1e-3, 1e5, "MPa of fracture strength"),
     ("service", "fracture_energy_J_m2"): ("num", 1e-3, 1e6, "J/m² of fracture energy"),
     ("windows", "study"): ("bool",),
+    ("uncertainty", "budget"): ("bool",),
+    ("uncertainty", "discretization"): ("bool",),
+    ("uncertainty", "material"): ("bool",),
     ("windows", "target_error"): ("num", 1e-4, 0.99, "relative error at 95 %, e.g. 0.02"),
 }
 # highest sane magnitude of a [[phase]] property override (diamond: ~2000 W/(m·K), ~1100 GPa)
