@@ -129,6 +129,8 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
     schemes = clock("schemes", _schemes, phasemap, fractions, summaries, notes)
     solved = clock("solve", _effective, phasemap, cfg, say, warnings, notes)
     effective = solved.effective if solved else None
+    if effective is not None:
+        warnings.extend(clock("resolution", _resolution, phasemap, cfg, notes))
     if effective is not None and schemes.get(phasemap.ndim) is not None:
         warnings.extend(bounds_warnings(effective, schemes[phasemap.ndim]))
     shock = _shock(effective, cfg, notes)
@@ -314,6 +316,33 @@ def _material_terms(phasemap: PhaseMap, cfg: Config, warnings: list) -> dict:
         warnings.append(f"material-data uncertainty not assessed: {exc}")
         return {}
     return material_terms(results, uncertainties)
+
+
+RESOLUTION_WARN_SHARE = 0.10
+"""Small particles holding at least this share of their phase's area are a warning (fewer
+are a note: the discretization estimate of the budget carries their effect)."""
+
+
+def _resolution(phasemap: PhaseMap, cfg: Config, notes: list) -> list[str]:
+    """Warnings for particles resolved by too few pixels and for gaps narrower than two
+    pixels between particles that contrast strongly with the matrix (the property that
+    matters: conductivity, else Young's modulus), each with what to do."""
+    from ..trust.resolution import resolution_check
+
+    prop = "conductivity" if "conductivity" in cfg.solve.properties else "youngs_modulus"
+    values = {p.label: getattr(p.material, prop) for p in phasemap.phases}
+    if any(v is None or np.ndim(v) for v in values.values()):
+        values = None
+    check = resolution_check(phasemap.labels, values,
+                             names={p.label: p.name for p in phasemap.phases},
+                             pixel_size_um=phasemap.voxel_size_um)
+    out = []
+    for w in check.warnings:
+        if w.kind == "small-particles" and w.share < RESOLUTION_WARN_SHARE:
+            notes.append(f"resolution: {w.message}")
+        else:
+            out.append(f"{w.message} {w.advice}")
+    return out
 
 
 def _measured(cfg: Config, effective: Effective | None, by_temperature, effective_3d,
