@@ -123,8 +123,12 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
                         "or --pixel-size, or use a TIFF with resolution tags")
     notes = [n for n in micro.notes if not n.startswith("pixel size unknown")] + seg_notes
 
+    fits = {}
+    if any(p.fit for p in cfg.phases) and cfg.solve.properties:
+        phasemap, fits = clock("fit", _fit, phasemap, cfg, say)
+
     say("measuring phase fractions")
-    fractions = clock("fractions", _fractions, phasemap, cfg)
+    fractions = clock("fractions", _fractions, phasemap, cfg, fits)
     particles, summaries, correlations = clock("particles", _particles, phasemap, cfg, say)
     schemes = clock("schemes", _schemes, phasemap, fractions, summaries, notes)
     solved = clock("solve", _effective, phasemap, cfg, say, warnings, notes)
@@ -528,7 +532,41 @@ def bounds_warnings(effective: Effective, table: SchemeTable, tol: float = 0.01)
     return out
 
 
-def _fractions(phasemap: PhaseMap, cfg: Config) -> tuple[PhaseFraction, ...]:
+def _fit(phasemap: PhaseMap, cfg: Config, say: Progress):
+    """The phase map with each property given as "fit" back-calculated from the matching
+    ``[[measured]]`` value at room temperature (`polisect.properties.fit`), and the fits by
+    label."""
+    from ..properties.effective import model_words, solver_labels
+    from ..properties.fit import FITTABLE, fit_phase_property
+    from ..trust.measured import MATCH_K, ROOM_C
+
+    phases, fits = list(phasemap.phases), {}
+    for i, p in enumerate(phases):
+        pc = cfg.phase(p.label)
+        if pc is None or pc.fit is None:
+            continue
+        m = next((m for m in cfg.measured if m.property in FITTABLE[pc.fit]
+                  and abs(m.temperature_C - ROOM_C) <= MATCH_K), None)
+        if m is None:
+            raise InputError(f"[[phase]] {p.name}: {pc.fit} = \"fit\" needs a [[measured]] "
+                             f"{' or '.join(FITTABLE[pc.fit])} at {ROOM_C:g} °C to fit it to")
+        say(f"fitting the {pc.fit.replace('_', ' ')} of {p.name} to the measured "
+            f"{m.property.replace('_', ' ')}")
+        materials = {q.label: q.material for q in phases}
+        fit = fit_phase_property(solver_labels(phasemap.labels), materials, p.label, pc.fit,
+                                 m.property, m.value, m.uncertainty, plane=cfg.solve.plane,
+                                 model=model_words(phasemap.ndim, cfg.solve.plane),
+                                 tol=min(cfg.solve.tolerance, 1e-6))
+        source = (f"fitted to the measured {m.property.replace('_', ' ')} {m.value:g} "
+                  f"({m.method or 'no method given'}) through the {fit.model}")
+        material = p.material.replace(**{pc.fit: fit.value},
+                                      sources={**p.material.sources, pc.fit: source})
+        phases[i] = Phase(p.label, p.name, material, p.particles)
+        fits[p.label] = fit
+    return PhaseMap(phasemap.labels, tuple(phases), phasemap.voxel_size_um), fits
+
+
+def _fractions(phasemap: PhaseMap, cfg: Config, fits: dict) -> tuple[PhaseFraction, ...]:
     """Fractions with their field-based intervals, and the part of each phase that lies
     inside particles of another phase (internal porosity of hollow particles)."""
     phases = phasemap.phases
@@ -547,7 +585,8 @@ def _fractions(phasemap: PhaseMap, cfg: Config) -> tuple[PhaseFraction, ...]:
             relative_accuracy_pct=(est.relative_accuracy_pct
                                    if np.isfinite(est.relative_accuracy_pct) else None),
             fields=est.n_fields,
-            inside_particles=inside.get(p.label) if hosts else None))
+            inside_particles=inside.get(p.label) if hosts else None,
+            fitted=fits.get(p.label)))
     return tuple(out)
 
 

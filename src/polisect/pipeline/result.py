@@ -23,6 +23,7 @@ from typing import Mapping
 from ..core.materials import Material
 from ..measure.summary import Correlation, ParticleSummary, VolumeParticleSummary
 from ..model3d.summary import Estimate3DRecord
+from ..properties.fit import FitResult
 from ..properties.records import Effective
 from ..properties.schemes import Bound, Estimate
 from ..properties.shock import ShockIndices
@@ -49,7 +50,8 @@ class PhaseFraction:
 
     ``inside_particles`` is the part of the whole image occupied by this phase inside
     particles of another phase (e.g. the cores of hollow spheres), None when no phase
-    forms particles.
+    forms particles. ``fitted`` holds the back-calculation when one of the phase's
+    properties was given as "fit" (the material then carries the fitted value).
     """
 
     label: int
@@ -60,6 +62,7 @@ class PhaseFraction:
     relative_accuracy_pct: float | None = None
     fields: int = 0
     inside_particles: float | None = None
+    fitted: FitResult | None = None
 
 
 @dataclass(frozen=True, eq=False)

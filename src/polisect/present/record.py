@@ -32,6 +32,7 @@ from ..measure.summary import (Correlation, ParticleSummary, SizeQuantiles, Sphe
 from ..model3d.summary import (Estimate3DRecord, FamilyRecord, PackingRecord, Versus2D,
                                VolumeRecord)
 from ..pipeline.result import AtTemperature, PhaseFraction, Result, SchemeTable, Source
+from ..properties.fit import FitResult
 from ..properties.records import (AxialModuli, ComparableModuli, Conductivity, Effective,
                                   Elasticity, Expansion, Solver, Spread, value_of)
 from ..properties.schemes import Bound, Estimate
@@ -67,7 +68,9 @@ def to_dict(result: Result) -> dict:
         "phases": [{"label": p.label, "name": p.name, "material": p.material.to_dict(),
                     "fraction": p.fraction, "fraction_ci95": list(p.fraction_ci95),
                     "relative_accuracy_pct": p.relative_accuracy_pct, "fields": p.fields,
-                    "inside_particles": p.inside_particles} for p in result.phases],
+                    "inside_particles": p.inside_particles,
+                    **({"fitted": {f: getattr(p.fitted, f) for f in _FITTED_FIELDS}}
+                       if p.fitted else {})} for p in result.phases],
         "effective": _effective(result.effective) if result.effective else None,
         "effective_3d": _estimate_3d(result.effective_3d) if result.effective_3d else None,
         "effective_by_temperature": [
@@ -271,6 +274,9 @@ def _windows(w: WindowRecord) -> dict:
             "notes": list(w.notes), "verdict": w.verdict}
 
 
+_FITTED_FIELDS = ("label", "property", "value", "interval", "target", "measured", "uncertainty",
+                  "model", "steps", "derivative")
+
 _MEASURED_FIELDS = ("property", "value", "uncertainty", "temperature_C", "method", "section",
                    "estimate_3d", "lower", "upper", "z_section", "z_3d", "verdict")
 
@@ -293,7 +299,9 @@ def from_dict(d: dict) -> Result:
         phases=tuple(PhaseFraction(p["label"], p["name"], _material(p["material"]),
                                    p["fraction"], tuple(p["fraction_ci95"]),
                                    p.get("relative_accuracy_pct"), p.get("fields", 0),
-                                   p.get("inside_particles")) for p in d["phases"]),
+                                   p.get("inside_particles"),
+                                   _read_fitted(p["fitted"]) if p.get("fitted") else None)
+                     for p in d["phases"]),
         version=d["polisect_version"], config_toml=d.get("config", ""),
         effective=_read_effective(d["effective"]) if d.get("effective") else None,
         effective_3d=_read_3d(d["effective_3d"]) if d.get("effective_3d") else None,
@@ -316,6 +324,10 @@ def from_dict(d: dict) -> Result:
                      for key, b in (d.get("uncertainty") or {}).items()},
         warnings=tuple(d.get("warnings") or ()), notes=tuple(d.get("notes") or ()),
         timings_s=dict(d.get("timings_s") or {}), created=d.get("created", ""))
+
+
+def _read_fitted(f: dict) -> FitResult:
+    return FitResult(**{k: (tuple(f[k]) if k == "interval" else f[k]) for k in _FITTED_FIELDS})
 
 
 def _read_shock(s: dict) -> ShockIndices:

@@ -72,6 +72,7 @@ class PhaseConfig:
     porosity: float = 0.0
     pore_shape: str = "spherical"
     pore_aspect_ratio: float | None = None
+    fit: str | None = None
 
 
 @dataclass(frozen=True)
@@ -325,7 +326,11 @@ def _phase(entry, index, library=None):
                              + ("text in quotes" if kind is str else "true or false"))
     if len(entry.get("name", "")) > 80:
         raise InputError(f"[[phase]] label {label}: name is longer than 80 characters; shorten it")
-    overrides = {k: entry[k] for k in PROPERTIES if k in entry}
+    fits = [k for k in PROPERTIES if entry.get(k) == "fit"]
+    if len(fits) > 1:
+        raise InputError(f"[[phase]] label {label}: only one property can be \"fit\" (one "
+                         f"measured value fits one unknown); got {', '.join(fits)}")
+    overrides = {k: entry[k] for k in PROPERTIES if k in entry and entry[k] != "fit"}
     for key, value in overrides.items():
         if not isinstance(value, (int, float)) or isinstance(value, bool) \
                 or not abs(value) <= _PROPERTY_LIMITS[key]:
@@ -363,7 +368,8 @@ def _phase(entry, index, library=None):
                        particles=entry.get("particles"),
                        split_touching=bool(entry.get("split_touching", False)),
                        porosity=float(porosity), pore_shape=shape,
-                       pore_aspect_ratio=None if aspect is None else float(aspect))
+                       pore_aspect_ratio=None if aspect is None else float(aspect),
+                       fit=fits[0] if fits else None)
 
 
 # (section, key): ("num" | "int", lowest, highest, what the number is) or ("bool",); the
@@ -489,7 +495,7 @@ def _check(cfg: Config) -> None:
              "expansion": ("youngs_modulus", "poisson_ratio", "expansion")}
     for p in cfg.phases:
         for prop in sol.properties:
-            p.material.require(*needs[prop])
+            p.material.require(*(n for n in needs[prop] if n != p.fit))
 
 
 def _choice(value, options, what):
