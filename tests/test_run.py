@@ -80,3 +80,35 @@ def test_stale_staging_folders_are_swept(tmp_path):
     os.utime(stale, (0, 0))
     run.run_section(_labels(), CFG, tmp_path, stem="s")
     assert not stale.exists() and fresh.exists()
+
+
+@pytest.mark.slow
+def test_analyze_killed_at_random_moments_leaves_whole_sets(tmp_path):
+    """`polisect analyze` killed with SIGKILL at random moments, into a folder that holds the
+    previous run's set: every time the folder holds a whole set — every file there, no
+    temporary left beside them, the JSON readable (issue 17; common practice, no source)."""
+    import random
+    import signal
+    import subprocess
+    import sys
+    import time
+
+    import tifffile
+
+    image = tmp_path / "section.tif"
+    tifffile.imwrite(image, (_labels(3) * 200).astype(np.uint8))
+    out = tmp_path / "out"
+    cmd = [sys.executable, "-m", "polisect.apps.cli", "analyze", str(image), "--classes", "2",
+           "--assign", "0=air,1=alumina", "--out", str(out), "--quiet"]
+    subprocess.run(cmd, check=True, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    first = {p.name: p.read_bytes() for p in out.iterdir()}
+    rng = random.Random(7)
+    for _ in range(8):
+        proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+        time.sleep(rng.uniform(0.5, 6.0))
+        proc.send_signal(signal.SIGKILL)
+        proc.wait()
+        files = sorted(p.name for p in out.iterdir() if not p.name.startswith("."))
+        assert files == sorted(first), files
+        result = record.read_result(out / "section.json")
+        assert result.source.shape == (32, 32)

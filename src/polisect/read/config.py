@@ -360,8 +360,11 @@ def _phase(entry, index, library=None):
     shape = entry.get("pore_shape", "spherical")
     _choice(shape, PORE_SHAPES, f"[[phase]] {name}: pore_shape")
     aspect = entry.get("pore_aspect_ratio")
-    if shape == "oblate" and not (isinstance(aspect, (int, float)) and not isinstance(aspect, bool)
-                                  and 0.0 < aspect < 1.0):
+    if aspect is not None and not (isinstance(aspect, (int, float))
+                                   and not isinstance(aspect, bool) and 0.0 < aspect < 1.0):
+        raise InputError(f"[[phase]] {name}: pore_aspect_ratio = {aspect!r} must be a number "
+                         "between 0 and 1 (the short over the long axis of the pores)")
+    if shape == "oblate" and aspect is None:
         raise InputError(f"[[phase]] {name}: pore_shape = \"oblate\" needs pore_aspect_ratio, "
                          "the short over the long axis of the pores, between 0 and 1 (e.g. 0.1)")
     return PhaseConfig(label=entry["label"], name=str(name), material=material, color=color,
