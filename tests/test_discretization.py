@@ -126,7 +126,7 @@ def test_with_the_window_study_evaluator():
     headline key gets an estimate, and the fine values are the evaluator's own (same
     solver; exact)."""
     from polisect.core.phasemap import Phase, PhaseMap
-    from polisect.trust.rve import solver_evaluator
+    from polisect.trust.windows import solver_evaluator
     labels = centred_disc(32, 0.4)
     m = Material(conductivity=1.0, youngs_modulus=70.0, poisson_ratio=0.3, expansion=2e-5)
     c = Material(conductivity=10.0, youngs_modulus=400.0, poisson_ratio=0.2, expansion=5e-6)

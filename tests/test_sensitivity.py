@@ -179,3 +179,17 @@ def test_slabs_give_the_same_sums(monkeypatch):
         for key, d in whole.tensor_derivatives[name].items():
             assert np.allclose(sliced.tensor_derivatives[name][key], d, rtol=1e-10,
                                atol=1e-14 * np.abs(d).max())
+
+
+def test_labels_that_are_not_0_to_n():
+    """A label image whose labels skip values (0 and 3): the derivatives are keyed by the
+    labels and equal those of the same map labelled 0 and 1 (common practice, no source)."""
+    layers = np.zeros((8, 8), dtype=int)
+    layers[:4] = 3
+    a = conductivity_sensitivity(layers, {0: Material(conductivity=1.0),
+                                          3: Material(conductivity=3.0)})
+    b = conductivity_sensitivity(np.where(layers == 3, 1, 0),
+                                 {0: Material(conductivity=1.0), 1: Material(conductivity=3.0)})
+    da, db = a.quantities["conductivity"].derivatives, b.quantities["conductivity"].derivatives
+    assert da[(3, "conductivity")] == pytest.approx(db[(1, "conductivity")])
+    assert da[(0, "conductivity")] == pytest.approx(db[(0, "conductivity")])

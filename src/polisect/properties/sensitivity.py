@@ -190,7 +190,7 @@ def conductivity_sensitivity(labels, materials: Mapping, *, tol: float = 1e-8,
     k_eff = sums.mean_flux(base.centre)
     derivs = {}
     for key, d in _phase_derivatives(image, data, ("conductivity",)).items():
-        derivs[key] = sums.energy(key[0], d, range(dim), range(dim))
+        derivs[key] = sums.energy(image.keys.index(key[0]), d, range(dim), range(dim))
     mean = _Derived("conductivity", lambda k: np.trace(k) / dim)
     return Sensitivities("conductivity", None, {"conductivity": k_eff},
                          {"conductivity": derivs},
@@ -280,10 +280,10 @@ def elasticity_sensitivity(labels, materials: Mapping, *, plane: str = GPS,
         _check_load_bearing(C)
         alpha = np.linalg.solve(C, beta_eff)
     for key, d in _phase_derivatives(image, data, props).items():
-        dC[key] = sums.energy(key[0], d, mech, mech)
+        dC[key] = sums.energy(image.keys.index(key[0]), d, mech, mech)
         if expansion:
             dbeta = sums.phase_mean_dot(d.beta, mech, phase=key[0]) - \
-                sums.energy(key[0], d, mech, [n_mech])[:, 0]
+                sums.energy(image.keys.index(key[0]), d, mech, [n_mech])[:, 0]
             dalpha[key] = np.linalg.solve(C, dbeta - dC[key] @ alpha)
     tensors_out = {"stiffness": C}
     derivs = {"stiffness": dC}
