@@ -272,9 +272,8 @@ def rsa_pack(radii, box: float, *, seed, gap: float = 0.0,
 
     References
     ----------
-    .. [1] Widom, B. (1966). Random sequential addition of hard spheres to a volume.
-       J. Chem. Phys. 44, 3888-3894.
-    .. [2] Feder, J. (1980). Random sequential adsorption. J. Theor. Biol. 87, 237-254.
+    .. [1] Widom, B. (1966). J. Chem. Phys. 44, 3888-3894.
+    .. [2] Feder, J. (1980). J. Theor. Biol. 87, 237-254.
 
     Examples
     --------

@@ -162,14 +162,13 @@ def compose(shape: Sequence[int], inclusions: Sequence[Inclusions], *, seed,
     Notes
     -----
     Centres are continuous; two particles keep the mean of their families' gaps between
-    their surfaces. A radius for which none of *max_trials* uniform positions is free is
-    drawn again, which favours small particles only near jamming.
+    their surfaces. A radius for which none of 20 000 uniform positions is free is drawn
+    again, which favours small particles only near jamming.
 
     References
     ----------
-    .. [1] Widom, B. (1966). Random sequential addition of hard spheres to a volume.
-       J. Chem. Phys. 44, 3888-3894.
-    .. [2] Feder, J. (1980). Random sequential adsorption. J. Theor. Biol. 87, 237-254.
+    .. [1] Widom, B. (1966). J. Chem. Phys. 44, 3888-3894.
+    .. [2] Feder, J. (1980). J. Theor. Biol. 87, 237-254.
 
     Examples
     --------
