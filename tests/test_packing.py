@@ -173,7 +173,9 @@ def test_packing_invariants(n, fraction, cv, seed):
 def test_sequential_addition_in_a_periodic_rectangle():
     """The one RSA engine in 2D, a rectangular box, exclusion radii of two sizes: no two
     exclusion discs overlap (minimum image) and the centres of a dilute packing are uniform
-    along both edges (Widom 1966; Kolmogorov–Smirnov, common practice, no source)."""
+    along both edges (Widom 1966; Kolmogorov–Smirnov, common practice, no source); a full
+    box says so; the grid search near jamming still places only on free positions
+    (construction)."""
     box = np.array([60.0, 90.0])
     rsa = SequentialAddition(box, seed=4)
     reach = np.where(np.arange(300) % 3 == 0, 1.5, 0.8)
@@ -192,3 +194,14 @@ def test_sequential_addition_in_a_periodic_rectangle():
     full = SequentialAddition((4.0, 4.0), seed=0)
     full.add(np.array([2.0, 2.0]), 1.9)
     assert full.find(1.9, max_trials=500) == (None, 500)
+    grid = SequentialAddition((16, 16), seed=1, max_reach=3.0)
+    grid.add(np.array([8.0, 8.0]), 7.0)
+    reach = [7.0]
+    c, _ = grid.find(2.0, max_trials=0)      # no random trial: the grid search alone
+    while c is not None:
+        d = (c - grid.centres) - 16 * np.round((c - grid.centres) / 16)
+        assert np.all(np.hypot(d[:, 0], d[:, 1]) >= 2.0 + np.array(reach) - 1e-12)
+        grid.add(c, 2.0)
+        reach.append(2.0)
+        c, _ = grid.find(2.0, max_trials=0)
+    assert grid.count >= 3

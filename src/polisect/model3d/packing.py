@@ -140,11 +140,21 @@ class SequentialAddition:
     stays below half the shortest box edge. Spheres placed since the last rebuild are
     checked one by one, the others through a periodic `scipy.spatial.cKDTree`.
 
+    Near jamming the free region is too small for a random stream to hit. With
+    *max_reach* given, a position that the stream misses is then looked for on the grid of
+    integer coordinates (the pixel indices of a cell of whole pixels): a map of every grid
+    point's distance to the nearest exclusion surface, built once and updated at every
+    addition, gives all free grid points; one of them is drawn uniformly and moved by a
+    uniform sub-unit offset when that keeps it free.
+
     Parameters
     ----------
     box : sequence of float
-        Box edge along each axis (its length is the dimension).
+        Box edge along each axis (its length is the dimension); whole numbers when
+        *max_reach* is given.
     seed : int or numpy.random.Generator
+    max_reach : float, optional
+        Largest exclusion radius that will be asked for; enables the grid search.
 
     References
     ----------
@@ -160,11 +170,15 @@ class SequentialAddition:
     1
     """
 
-    def __init__(self, box, *, seed):
+    def __init__(self, box, *, seed, max_reach: float | None = None):
         self.box = np.asarray(box, float).ravel()
         if self.box.size not in (2, 3) or not np.all(self.box > 0):
             raise InputError(f"a periodic box needs 2 or 3 positive edges, got {tuple(box)}")
+        if max_reach is not None and not np.array_equal(self.box, np.round(self.box)):
+            raise InputError("the grid search near jamming needs a box of whole units")
         self.rng = np.random.default_rng(seed)
+        self._max_reach = max_reach
+        self._clearance = None
         self._centres = np.empty((64, self.box.size))
         self._reach = np.empty(64)
         self.count = 0
@@ -185,7 +199,7 @@ class SequentialAddition:
             of positions tried.
         """
         tried, batch = 0, _BATCH
-        while tried < max_trials:
+        while tried < max_trials and self._clearance is None:
             b = min(batch, max_trials - tried)
             cand = self.rng.uniform(0.0, 1.0, (b, self.box.size)) * self.box
             ok = self._free(cand, reach)
@@ -194,7 +208,28 @@ class SequentialAddition:
                 return cand[hit[0]], tried + int(hit[0]) + 1
             tried += b
             batch = min(2 * batch, _MAX_BATCH)
-        return None, tried
+        if self._max_reach is None:
+            return None, tried
+        return self._on_grid(reach), tried + 1
+
+    def _on_grid(self, reach: float):
+        """A free position near a uniformly drawn free grid point, or None."""
+        if self._clearance is None:
+            self._clearance = np.full(tuple(int(b) for b in self.box), np.inf)
+            for c, e in zip(self.centres, self._reach[:self.count]):
+                self._carve(c, e)
+        free = np.flatnonzero(self._clearance >= reach)
+        if free.size == 0:
+            return None
+        point = np.array(np.unravel_index(free[self.rng.integers(free.size)],
+                                          self._clearance.shape), float)
+        moved = np.mod(point + self.rng.uniform(-0.5, 0.5, point.size), self.box)
+        return moved if self._free(moved[None, :], reach)[0] else point
+
+    def _carve(self, centre, reach: float) -> None:
+        """Lower the grid's clearance map around a sphere added at *centre*."""
+        index, dist = window(centre, reach + self._max_reach, self._clearance.shape)
+        self._clearance[index] = np.minimum(self._clearance[index], dist - reach)
 
     def add(self, centre, reach: float) -> None:
         """Place an exclusion sphere of radius *reach* at *centre* (from `find`)."""
@@ -204,6 +239,8 @@ class SequentialAddition:
         self._centres[self.count] = np.mod(centre, self.box)
         self._reach[self.count] = reach
         self.count += 1
+        if self._clearance is not None:
+            self._carve(self._centres[self.count - 1], reach)
         if self.count - self._indexed >= _REBUILD:
             self._indexed = self.count
             self._tree = cKDTree(self._centres[:self.count], boxsize=self.box)
