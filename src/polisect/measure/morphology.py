@@ -471,8 +471,8 @@ def phase_particles(phasemap: PhaseMap, phase: int | str, *, split_touching: boo
                     split_depth_px: float = 1.0, min_hole_area_px: int = 1,
                     n_boot: int = 1000, seed: int = 0,
                     saltykov_classes: int = UNFOLD_CLASSES, class_layout: str = "geometric",
-                    class_ratio: float = UNFOLD_RATIO,
-                    exclude: np.ndarray | None = None) -> PhaseParticles:
+                    class_ratio: float = UNFOLD_RATIO, exclude: np.ndarray | None = None,
+                    labelled: np.ndarray | None = None) -> PhaseParticles:
     """Find, measure and summarise the particles of one phase of a 2D section.
 
     The one particle path of the package: the report's particle statistics, the schemes'
@@ -497,6 +497,9 @@ def phase_particles(phasemap: PhaseMap, phase: int | str, *, split_touching: boo
     exclude : ndarray of bool, optional
         Pixels of the phase that are not its particles (e.g. the cores of another phase's
         hollow particles).
+    labelled : ndarray of int, optional
+        The phase's particles already numbered by `phase_particle_labels` with the same
+        splitting (and *exclude* applied), to save labelling them again.
 
     Returns
     -------
@@ -525,7 +528,8 @@ def phase_particles(phasemap: PhaseMap, phase: int | str, *, split_touching: boo
     mask = phasemap.labels == ph.label
     if exclude is not None:
         mask &= ~np.asarray(exclude, bool)
-    particle_labels = phase_particle_labels(mask, split_touching, split_depth_px)
+    particle_labels = (phase_particle_labels(mask, split_touching, split_depth_px)
+                       if labelled is None else np.asarray(labelled))
     table = measure_particles(particle_labels, phasemap.voxel_size_um, min_hole_area_px)
     size = size_statistics(table, n_boot=n_boot, seed=seed)
     spheres = saltykov(table.ecd, table.weight, table.window_area, n_classes=saltykov_classes,

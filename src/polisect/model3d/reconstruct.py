@@ -242,7 +242,8 @@ def section_statistics(labels: np.ndarray, pixel_size_um: float | None = None, *
         for q in others:
             if q != p:
                 foreign |= holes[q]
-        fam = _family(phasemap, p, foreign, holes[p] & ~foreign, warnings)
+        fam = _family(phasemap, p, foreign, holes[p] & ~foreign, warnings,
+                      None if (foreign & (labels == p)).any() else particles[p])
         if fam is not None:
             families.append(fam)
     families.sort(key=lambda f: -f.fraction)
@@ -253,12 +254,14 @@ def section_statistics(labels: np.ndarray, pixel_size_um: float | None = None, *
 
 
 def _family(phasemap: PhaseMap, p: int, foreign: np.ndarray, holes: np.ndarray,
-            warnings: list) -> FamilyStatistics | None:
+            warnings: list, labelled: np.ndarray | None) -> FamilyStatistics | None:
     """One phase's sphere family from its particles (`phase_particles`, the cores of other
-    phases' particles *foreign* left out) and its cores *holes* (see `section_statistics`);
-    None when it has no particles of its own (only cores, or a few open cores at the
-    border). Appends the reasons spheres misrepresent it to *warnings*."""
-    pp = phase_particles(phasemap, p, split_touching=True, n_boot=0, exclude=foreign)
+    phases' particles *foreign* left out; *labelled* when that leaves them as they were)
+    and its cores *holes* (see `section_statistics`); None when it has no particles of its
+    own (only cores, or a few open cores at the border). Appends the reasons spheres
+    misrepresent it to *warnings*."""
+    pp = phase_particles(phasemap, p, split_touching=True, n_boot=0, exclude=foreign,
+                         labelled=labelled)
     table, name = pp.table, pp.name
     if table.count == 0:
         return None
