@@ -97,7 +97,8 @@ def test_enclosed_pores_are_kept_apart():
 
 
 from polisect import Material
-from polisect.measure.morphology import PhaseParticles, particle_phases, phase_particles
+from polisect.measure.morphology import (PhaseParticles, particle_holes, particle_phases,
+                                         phase_particle_labels, phase_particles)
 from polisect.measure.summary import summarize_particles
 from polisect.core.phasemap import Phase, PhaseMap
 from polisect.model3d.synth import Inclusions, compose
@@ -188,3 +189,41 @@ def test_pixel_units_and_errors():
     pm3 = PhaseMap(np.zeros((8, 8, 8), np.int32), (Phase(0, "m", M),))
     with pytest.raises(InputError, match="2D"):
         phase_particles(pm3, 0)
+
+
+def test_hollow_model_of_the_particles(mixture):
+    """The hollow-sphere model of the particles reads the same sections as the summary: its
+    section share n is the summary's hollow fraction, its core share A the weighted hole
+    area over the weighted filled area (construction of `hollow_particles`); the core phase
+    is the pore. Discs are not sphere sections, so η and q are only checked to be a
+    consistent inversion, n = ηq and A = ηq³ (Wicksell 1925 reasoning; `hollow_spheres`).
+    """
+    _, pm = mixture
+    res = phase_particles(pm, "SiC", n_boot=0)
+    t, h = res.table, res.hollow
+    used = t.weight > 0
+    w = t.weight[used]
+    assert h.section_share == res.size.hollow_fraction.value
+    assert h.core_share == pytest.approx(w @ t.hole_area[used] / (w @ t.area_filled[used]))
+    assert h.share * h.ratio == pytest.approx(h.section_share)
+    assert h.share * h.ratio ** 3 == pytest.approx(h.core_share)
+    assert res.core_label == 2 and np.all(pm.labels[res.holes] == 2)
+    assert phase_particles(pm, "pore", n_boot=0).hollow.ratio is None
+
+
+def test_split_rings_stay_whole_and_exclude():
+    """Touching hollow discs split into two whole rings (the watershed runs on the filled
+    outlines), not into pieces of ring; excluded pixels are no particles; each particle's
+    hole is its own (construction; common practice, no source)."""
+    yy, xx = np.mgrid[:48, :72]
+    ring = lambda cx: (np.hypot(yy - 24, xx - cx) < 12) & (np.hypot(yy - 24, xx - cx) >= 6)
+    mask = ring(22) | ring(44)
+    lab = phase_particle_labels(mask, split_touching=True)
+    assert lab.max() == 2 and np.array_equal(lab > 0, mask)
+    for i in (1, 2):
+        assert len(np.unique(lab[np.hypot(yy - 24, xx - (22 if i == 1 else 44)) < 8])) == 2
+    assert particle_holes(lab).sum() == np.sum(np.hypot(yy - 24, xx - 22) < 6) * 2
+    labels = mask.astype(np.int32)
+    pm = PhaseMap(labels, (Phase(0, "m", M), Phase(1, "p", M)))
+    only = phase_particles(pm, 1, split_touching=True, n_boot=0, exclude=xx >= 33)
+    assert only.table.count == 1 and only.particle_labels[:, 33:].max() == 0

@@ -124,6 +124,26 @@ def test_pores_inside_particles_are_cores_not_pores(spheres):
     assert fams[PORE].fraction / total == pytest.approx(share, abs=0.06)
 
 
+def test_families_are_the_reports_particles():
+    """One particle path: the 3D estimate's family is `phase_particles` of the report with
+    touching particles split — the same sphere classes and weights, the same sections, the
+    same hollow-sphere model (construction; common practice, no source)."""
+    from polisect.measure.morphology import phase_particles
+
+    lab = compose((192, 192), [Inclusions(SHELL, 0.2, 7.0, 1.5, hollow_ratio=0.5,
+                                          core_label=PORE)], seed=4, matrix_label=MATRIX).labels
+    m = Material(conductivity=1.0)
+    pm = PhaseMap(lab, (Phase(MATRIX, "m", m), Phase(SHELL, "s", m), Phase(PORE, "p", m)), 0.5)
+    (fam,) = section_statistics(lab, 0.5, matrix_label=MATRIX).families
+    pp = phase_particles(pm, SHELL, split_touching=True, n_boot=0)
+    keep = pp.spheres.number_density > 0
+    assert np.array_equal(fam.diameters, pp.spheres.diameters[keep])
+    assert np.array_equal(fam.weights, pp.spheres.number_density[keep])
+    assert fam.sections == pp.size.count_measured
+    assert (fam.hollow_share, fam.hollow_ratio) == (pp.hollow.share, pp.hollow.ratio)
+    assert fam.core_label == pp.core_label == PORE
+
+
 def test_warnings_for_phases_that_are_not_spheres():
     """A band crossing the section and elongated particles are no spheres: the statistics
     say so (the model's limits, stated in docs/methods.md); a phase with no section inside

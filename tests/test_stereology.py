@@ -10,8 +10,9 @@ from scipy.optimize import brentq
 
 from polisect.core.errors import InputError
 from polisect.measure.particles import label_particles, measure_particles
-from polisect.measure.stereology import (LineDensities, boundary_densities, nearest_neighbour, saltykov,
-                                 saltykov_matrix, spacing, two_point_correlation)
+from polisect.measure.stereology import (ALL_HOLLOW, LineDensities, boundary_densities,
+                                         hollow_spheres, nearest_neighbour, saltykov,
+                                         saltykov_matrix, spacing, two_point_correlation)
 from polisect.model3d.synth import Inclusions, compose, rsa_discs, rsa_spheres
 
 
@@ -310,3 +311,26 @@ def test_s2_equals_brute_force_pair_counts(seed, periodic):
             counts[ring] += 1
     assert np.allclose(c.s2, sums / counts, atol=1e-12)
     assert c.s2[0] == pytest.approx(m.mean())
+
+
+@pytest.mark.parametrize("share, ratio", [(0.5, 0.6), (0.2, 0.4), (0.8, 0.7)])
+def test_hollow_spheres_inverts_the_section_shares(share, ratio):
+    """A share η of spheres hollow with inner/outer ratio q: a random plane shows a hole in
+    a share n = ηq of the sections and the cores fill A = ηq³ of the area (Wicksell 1925:
+    section heights uniform over the diameter; Delesse 1847); the model recovers η and q."""
+    h = hollow_spheres(share * ratio, share * ratio ** 3)
+    assert h.share == pytest.approx(share) and h.ratio == pytest.approx(ratio)
+
+
+def test_hollow_spheres_all_hollow_and_solid():
+    """Above ALL_HOLLOW every sphere is hollow with q = A^(1/3) (the area estimate alone);
+    without holed sections or with a negligible core area the particles are solid; shares
+    outside [0, 1] are refused (construction of the model; Delesse 1847)."""
+    h = hollow_spheres(0.5, 0.125)                  # η = 1, q = 0.5: n = 0.5, A = 0.125
+    assert h.share == 1.0 and h.ratio == pytest.approx(0.5)
+    h = hollow_spheres(0.48, 0.125)                 # holes missed in small sections: η = 0.94
+    assert h.share == 1.0 and h.ratio == pytest.approx(0.5) and ALL_HOLLOW < 1
+    assert hollow_spheres(0.0, 0.1).ratio is None
+    assert hollow_spheres(0.3, 0.001).share == 0.0
+    with pytest.raises(InputError):
+        hollow_spheres(1.2, 0.1)

@@ -5,7 +5,9 @@
   porosity kept apart from the rest).
 * `particle_phases`, `phase_particles`: which phases have particles, and everything about
   them (`PhaseParticles`), combining `polisect.measure.particles`, `polisect.measure.sizestats` and
-  `polisect.measure.stereology`.
+  `polisect.measure.stereology`: the one particle path of the package (the report, the
+  schemes and the 3D estimate all read it).
+* `phase_particle_labels`, `particle_holes`: the particles of a phase mask and their holes.
 
 A section is cut into a grid of equal fields; the spread of a phase's fraction over the
 fields gives its 95 % confidence interval with Student's t for n − 1 degrees of freedom, as
@@ -30,12 +32,14 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import ndimage as ndi
 from scipy import stats
+from skimage.segmentation import relabel_sequential
 
 from ..core.errors import InputError
 from .particles import ParticleTable, label_particles, measure_particles
 from ..core.phasemap import Phase, PhaseMap
 from .sizestats import SizeStatistics, size_statistics
-from .stereology import (NearestNeighbour, SphereDistribution, Spacing, boundary_densities,
+from .stereology import (UNFOLD_CLASSES, UNFOLD_RATIO, HollowSpheres, NearestNeighbour,
+                         SphereDistribution, Spacing, boundary_densities, hollow_spheres,
                          nearest_neighbour, saltykov, spacing)
 
 MIN_FIELD_EDGE_PX = 4
@@ -306,6 +310,75 @@ def particle_phases(phasemap: PhaseMap) -> tuple[Phase, ...]:
                  if p.particles or (p.particles is None and p.label != matrix))
 
 
+def phase_particle_labels(mask: np.ndarray, split_touching: bool = False,
+                          split_depth_px: float = 1.0) -> np.ndarray:
+    """Number the particles of a phase mask, each particle's holes its own.
+
+    Without splitting, the particles are the 8-connected regions of *mask*
+    (`polisect.measure.particles.label_particles`). With splitting, the watershed runs on the
+    mask with its holes filled and the result is then reduced to the mask's own pixels: a
+    hollow particle (a ring in the section) is split like the disc it outlines, not cut
+    into pieces along its ring, and a pocket enclosed by a ring of touching particles
+    stays outside all of them.
+
+    Parameters
+    ----------
+    mask : ndarray of bool, 2D
+        Pixels of the phase.
+    split_touching : bool
+        Split touching particles.
+    split_depth_px : float
+        Smallest neck depth that splits (see `label_particles`).
+
+    Returns
+    -------
+    ndarray of int32
+        0 outside the particles, particles numbered 1..n.
+
+    Examples
+    --------
+    >>> yy, xx = np.mgrid[:40, :60]
+    >>> ring = lambda cx: (np.hypot(yy - 20, xx - cx) < 10) & (np.hypot(yy - 20, xx - cx) >= 5)
+    >>> int(phase_particle_labels(ring(20) | ring(37), split_touching=True).max())
+    2
+    """
+    mask = np.asarray(mask, bool)
+    if not split_touching:
+        return label_particles(mask)
+    labels = label_particles(ndi.binary_fill_holes(mask), True, split_depth_px)
+    labels[~mask] = 0
+    return relabel_sequential(labels)[0].astype(np.int32, copy=False)
+
+
+def particle_holes(particle_labels: np.ndarray) -> np.ndarray:
+    """Pixels enclosed by single particles (each particle's own holes).
+
+    A pocket enclosed only by several touching particles together is no particle's hole.
+
+    Parameters
+    ----------
+    particle_labels : ndarray of int, 2D
+        Particles numbered 1..n, 0 elsewhere.
+
+    Returns
+    -------
+    ndarray of bool
+
+    Examples
+    --------
+    >>> lab = np.zeros((9, 9), np.int32); lab[1:8, 1:8] = 1; lab[3:6, 3:6] = 0
+    >>> int(particle_holes(lab).sum())
+    9
+    """
+    out = np.zeros(particle_labels.shape, bool)
+    for i, sl in enumerate(ndi.find_objects(particle_labels)):
+        if sl is None:
+            continue
+        own = particle_labels[sl] == i + 1
+        out[sl] |= ndi.binary_fill_holes(own) & ~own
+    return out
+
+
 @dataclass(frozen=True, eq=False)
 class PhaseParticles:
     """Particles of one phase and every statistic derived from them.
@@ -329,6 +402,14 @@ class PhaseParticles:
     neighbours : NearestNeighbour
         Nearest-neighbour distances between particle centroids.
     split_touching : bool
+    hollow : HollowSpheres
+        The particles as (hollow) spheres: the share that is hollow and the inner/outer
+        ratio (`polisect.measure.stereology.hollow_spheres`). Its section share is
+        ``size.hollow_fraction``.
+    core_label : int or None
+        The phase filling most of the particles' holes (None without holes).
+    holes : ndarray of bool
+        The particles' own holes (`particle_holes`).
     """
 
     label: int
@@ -340,6 +421,9 @@ class PhaseParticles:
     spacing: Spacing
     neighbours: NearestNeighbour
     split_touching: bool
+    hollow: HollowSpheres
+    core_label: int | None
+    holes: np.ndarray
 
     @property
     def units(self) -> str:
@@ -350,11 +434,49 @@ class PhaseParticles:
         return [{"phase": self.name, **row} for row in self.table.rows()]
 
 
+def hollow_particles(table: ParticleTable) -> HollowSpheres:
+    """The hollow-sphere model of a phase's measured particles.
+
+    The section share n is the Miles–Lantuéjoul-weighted share of the particles not cut by
+    the border that enclose a hole (``SizeStatistics.hollow_fraction``); the core share A
+    is the weighted hole area over the weighted filled area of the same particles (area
+    weights w·A are unbiased for area shares, and particles cut by the border, whose cores
+    may be open, are left out). `polisect.measure.stereology.hollow_spheres` turns (n, A)
+    into the share of hollow spheres and their inner/outer ratio.
+
+    Parameters
+    ----------
+    table : ParticleTable
+
+    Returns
+    -------
+    HollowSpheres
+
+    References
+    ----------
+    Miles, R. E. (1974). In Stochastic Geometry (Harding & Kendall, eds.), Wiley, 228–247.
+    Wicksell, S. D. (1925). Biometrika 17, 84–99.
+    """
+    used = table.weight > 0
+    w = table.weight[used]
+    if w.size == 0:
+        return hollow_spheres(0.0, 0.0)
+    n = float(w @ table.hollow[used] / w.sum())
+    filled = float(w @ table.area_filled[used])
+    a = float(w @ table.hole_area[used] / filled) if filled > 0 else 0.0
+    return hollow_spheres(n, a)
+
+
 def phase_particles(phasemap: PhaseMap, phase: int | str, *, split_touching: bool = False,
                     split_depth_px: float = 1.0, min_hole_area_px: int = 1,
-                    n_boot: int = 1000, seed: int = 0, saltykov_classes: int = 12,
-                    class_layout: str = "geometric") -> PhaseParticles:
+                    n_boot: int = 1000, seed: int = 0,
+                    saltykov_classes: int = UNFOLD_CLASSES, class_layout: str = "geometric",
+                    class_ratio: float = UNFOLD_RATIO, exclude: np.ndarray | None = None,
+                    labelled: np.ndarray | None = None) -> PhaseParticles:
     """Find, measure and summarise the particles of one phase of a 2D section.
+
+    The one particle path of the package: the report's particle statistics, the schemes'
+    hollow particles and the 3D estimate's sphere families are all read from its result.
 
     Parameters
     ----------
@@ -363,13 +485,21 @@ def phase_particles(phasemap: PhaseMap, phase: int | str, *, split_touching: boo
     phase : int or str
         Label or name of the phase.
     split_touching : bool
-        Split touching particles (`polisect.measure.particles.label_particles`).
+        Split touching particles (`phase_particle_labels`).
     split_depth_px, min_hole_area_px : float, int
         Splitting depth and smallest hole (see `label_particles`, `measure_particles`).
     n_boot, seed : int
         Bootstrap resamples and seed (`polisect.measure.sizestats.size_statistics`).
-    saltykov_classes, class_layout : int, str
-        Classes of the Saltykov unfolding (`polisect.measure.stereology.saltykov`).
+    saltykov_classes, class_layout, class_ratio : int, str, float
+        Classes of the Saltykov unfolding (`polisect.measure.stereology.saltykov`); by
+        default `polisect.measure.stereology.UNFOLD_CLASSES` geometric classes of ratio
+        `polisect.measure.stereology.UNFOLD_RATIO`.
+    exclude : ndarray of bool, optional
+        Pixels of the phase that are not its particles (e.g. the cores of another phase's
+        hollow particles).
+    labelled : ndarray of int, optional
+        The phase's particles already numbered by `phase_particle_labels` with the same
+        splitting (and *exclude* applied), to save labelling them again.
 
     Returns
     -------
@@ -387,8 +517,8 @@ def phase_particles(phasemap: PhaseMap, phase: int | str, *, split_touching: boo
     >>> m = Material(conductivity=1.0)
     >>> pm = PhaseMap(p.labels, (Phase(0, "matrix", m), Phase(1, "SiC", m)), voxel_size_um=0.5)
     >>> res = phase_particles(pm, "SiC", n_boot=100)
-    >>> res.units, round(res.size.ecd_d50.value, 1)
-    ('um', 6.0)
+    >>> res.units, round(res.size.ecd_d50.value, 1), res.hollow.share
+    ('um', 6.0, 0.0)
     """
     try:
         ph = phasemap.phase(phase)
@@ -396,19 +526,26 @@ def phase_particles(phasemap: PhaseMap, phase: int | str, *, split_touching: boo
         raise InputError(f"no phase {phase!r} in the phase table (phases: "
                          f"{[p.name for p in phasemap.phases]})") from None
     mask = phasemap.labels == ph.label
-    particle_labels = label_particles(mask, split_touching, split_depth_px)
+    if exclude is not None:
+        mask &= ~np.asarray(exclude, bool)
+    particle_labels = (phase_particle_labels(mask, split_touching, split_depth_px)
+                       if labelled is None else np.asarray(labelled))
     table = measure_particles(particle_labels, phasemap.voxel_size_um, min_hole_area_px)
     size = size_statistics(table, n_boot=n_boot, seed=seed)
     spheres = saltykov(table.ecd, table.weight, table.window_area, n_classes=saltykov_classes,
-                       classes=class_layout, units=table.units)
+                       classes=class_layout, ratio=class_ratio, units=table.units)
     densities = boundary_densities(mask, particle_labels if split_touching else None,
                                    phasemap.voxel_size_um)
     scale = phasemap.voxel_size_um or 1.0
     window = (phasemap.shape[1] * scale, phasemap.shape[0] * scale)
     centres = np.stack([table.centroid_x, table.centroid_y], axis=1)
     neighbours = nearest_neighbour(centres, window, units=table.units)
+    holes = particle_holes(particle_labels)
+    values, counts = np.unique(phasemap.labels[holes], return_counts=True)
+    core_label = int(values[np.argmax(counts)]) if values.size else None
     return PhaseParticles(ph.label, ph.name, particle_labels, table, size, spheres,
-                          spacing(densities), neighbours, split_touching)
+                          spacing(densities), neighbours, split_touching,
+                          hollow_particles(table), core_label, holes)
 
 
 def benchmark_morphology(size: int = 2048, radius: float = 9.0, fraction: float = 0.3,

@@ -72,9 +72,12 @@ class SizeStatistics:
     aspect_ratio_mean, circularity_mean, solidity_mean : SampleEstimate
         Number-weighted means of the shape measures.
     hollow_fraction : SampleEstimate
-        Number fraction of particles that enclose another phase.
+        Number fraction of particles that enclose another phase: the section share n of
+        the hollow-sphere model (`polisect.measure.morphology.hollow_particles`).
     inner_outer_ratio_mean : SampleEstimate
-        Mean inner/outer equivalent-diameter ratio of the hollow particles (NaN if none).
+        Mean inner/outer equivalent-diameter ratio of the hollow particles' sections (NaN
+        if none); smaller than the spheres' ratio q of the hollow-sphere model, since a
+        plane off the centre cuts the core in a smaller share of the section.
     units : str
     """
 

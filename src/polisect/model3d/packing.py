@@ -5,11 +5,13 @@
   energy (fractions up to 0.60 and a little beyond).
 * `pack_spheres`: picks one of the two from the fraction.
 * `rasterize`: the voxel image of a packing (solid or hollow spheres, a label each).
+* `SequentialAddition`, `window`, `paint`: the one random-sequential-addition engine (any
+  dimension, periodic box) and the one painter, shared with `polisect.model3d.synth`.
 
-Unlike `polisect.model3d.synth.compose`, which draws lognormal radii and places them on the voxel
-grid, the radii here are given (drawn by the caller from any distribution, e.g. an
-unfolded Saltykov histogram) and never changed: the packing moves centres only, so the
-size distribution of the packed spheres is exactly the requested one.
+The radii here are given (drawn by the caller from any distribution, e.g. an unfolded
+Saltykov histogram) and never changed: the packing moves centres only, so the size
+distribution of the packed spheres is exactly the requested one. `polisect.model3d.synth.compose`
+draws lognormal radii family by family and places them with the same engine.
 
 Lengths are in any unit used consistently (the reconstruction uses voxels).
 
@@ -34,8 +36,8 @@ from scipy.spatial import cKDTree
 
 from ..core.errors import InputError
 
-__all__ = ["SpherePacking", "pack_spheres", "rsa_pack", "collective_pack", "rasterize",
-           "RSA_LIMIT", "MAX_FRACTION"]
+__all__ = ["SpherePacking", "SequentialAddition", "pack_spheres", "rsa_pack",
+           "collective_pack", "rasterize", "window", "paint", "RSA_LIMIT", "MAX_FRACTION"]
 
 #: Largest total fraction `pack_spheres` gives to random sequential addition; above it the
 #: collective rearrangement is used (RSA of equal spheres jams near 0.38, Widom 1966;
@@ -122,15 +124,164 @@ def _check(radii, box, gap) -> tuple[np.ndarray, float]:
     return radii, float(fraction)
 
 
+class SequentialAddition:
+    """Random sequential addition of hard spheres in a periodic box of any dimension.
+
+    The one placement engine of the package: `rsa_pack` (given radii in a cube) and
+    `polisect.model3d.synth.compose` (discs and spheres drawn family by family, placed
+    until a pixel count is reached) both add their spheres through it. A sphere goes to the
+    first of a stream of positions drawn uniformly over the box at which it overlaps no
+    sphere already placed, and is never moved again [1]_, [2]_; the first acceptable point
+    of a uniform stream is uniformly distributed over the free region, as the method
+    requires. Spheres here are exclusion spheres: a minimum gap g between particles is an
+    exclusion radius r + g/2.
+
+    Distances are minimum-image distances, exact while every exclusion diameter pair sum
+    stays below half the shortest box edge. Spheres placed since the last rebuild are
+    checked one by one, the others through a periodic `scipy.spatial.cKDTree`.
+
+    Near jamming the free region is too small for a random stream to hit. With
+    *max_reach* given, a position that the stream misses is then looked for on the grid of
+    integer coordinates (the pixel indices of a cell of whole pixels): a map of every grid
+    point's distance to the nearest exclusion surface, built once and updated at every
+    addition, gives all free grid points; one of them is drawn uniformly and moved by a
+    uniform sub-unit offset when that keeps it free.
+
+    Parameters
+    ----------
+    box : sequence of float
+        Box edge along each axis (its length is the dimension); whole numbers when
+        *max_reach* is given.
+    seed : int or numpy.random.Generator
+    max_reach : float, optional
+        Largest exclusion radius that will be asked for; enables the grid search.
+
+    References
+    ----------
+    .. [1] Widom, B. (1966). Random sequential addition of hard spheres to a volume.
+       J. Chem. Phys. 44, 3888-3894.
+    .. [2] Feder, J. (1980). Random sequential adsorption. J. Theor. Biol. 87, 237-254.
+
+    Examples
+    --------
+    >>> rsa = SequentialAddition((10.0, 10.0), seed=0)
+    >>> c, tried = rsa.find(2.0)
+    >>> rsa.add(c, 2.0); rsa.count
+    1
+    """
+
+    def __init__(self, box, *, seed, max_reach: float | None = None):
+        self.box = np.asarray(box, float).ravel()
+        if self.box.size not in (2, 3) or not np.all(self.box > 0):
+            raise InputError(f"a periodic box needs 2 or 3 positive edges, got {tuple(box)}")
+        if max_reach is not None and not np.array_equal(self.box, np.round(self.box)):
+            raise InputError("the grid search near jamming needs a box of whole units")
+        self.rng = np.random.default_rng(seed)
+        self._max_reach = max_reach
+        self._clearance = None
+        self._centres = np.empty((64, self.box.size))
+        self._reach = np.empty(64)
+        self.count = 0
+        self._tree, self._indexed = None, 0
+
+    @property
+    def centres(self) -> np.ndarray:
+        """Centres placed so far, in order of addition, shape (count, dimension)."""
+        return self._centres[:self.count]
+
+    def find(self, reach: float, max_trials: int = 200_000):
+        """A uniformly random free position for an exclusion sphere of radius *reach*.
+
+        Returns
+        -------
+        (ndarray or None, int)
+            The position (None when *max_trials* positions were all taken) and the number
+            of positions tried.
+        """
+        tried, batch = 0, _BATCH
+        while tried < max_trials and self._clearance is None:
+            b = min(batch, max_trials - tried)
+            cand = self.rng.uniform(0.0, 1.0, (b, self.box.size)) * self.box
+            ok = self._free(cand, reach)
+            hit = np.flatnonzero(ok)
+            if hit.size:
+                return cand[hit[0]], tried + int(hit[0]) + 1
+            tried += b
+            batch = min(2 * batch, _MAX_BATCH)
+        if self._max_reach is None:
+            return None, tried
+        return self._on_grid(reach), tried + 1
+
+    def _on_grid(self, reach: float):
+        """A free position near a uniformly drawn free grid point, or None."""
+        if self._clearance is None:
+            self._clearance = np.full(tuple(int(b) for b in self.box), np.inf)
+            for c, e in zip(self.centres, self._reach[:self.count]):
+                self._carve(c, e)
+        free = np.flatnonzero(self._clearance >= reach)
+        if free.size == 0:
+            return None
+        point = np.array(np.unravel_index(free[self.rng.integers(free.size)],
+                                          self._clearance.shape), float)
+        moved = np.mod(point + self.rng.uniform(-0.5, 0.5, point.size), self.box)
+        return moved if self._free(moved[None, :], reach)[0] else point
+
+    def _carve(self, centre, reach: float) -> None:
+        """Lower the grid's clearance map around a sphere added at *centre*."""
+        index, dist = window(centre, reach + self._max_reach, self._clearance.shape)
+        self._clearance[index] = np.minimum(self._clearance[index], dist - reach)
+
+    def add(self, centre, reach: float) -> None:
+        """Place an exclusion sphere of radius *reach* at *centre* (from `find`)."""
+        if self.count == self._reach.size:
+            self._centres = np.concatenate([self._centres, np.empty_like(self._centres)])
+            self._reach = np.concatenate([self._reach, np.empty_like(self._reach)])
+        self._centres[self.count] = np.mod(centre, self.box)
+        self._reach[self.count] = reach
+        self.count += 1
+        if self._clearance is not None:
+            self._carve(self._centres[self.count - 1], reach)
+        if self.count - self._indexed >= _REBUILD:
+            self._indexed = self.count
+            self._tree = cKDTree(self._centres[:self.count], boxsize=self.box)
+
+    def _free(self, cand: np.ndarray, reach: float) -> np.ndarray:
+        ok = self._clear(cand, reach, np.arange(self._indexed, self.count))
+        if self._tree is not None and ok.any():
+            ok[ok] = self._clear_indexed(cand[ok], reach)
+        return ok
+
+    def _clear(self, cand, reach, others) -> np.ndarray:
+        """Candidates clear of the spheres *others* (checked against each of them)."""
+        if others.size == 0:
+            return np.ones(len(cand), bool)
+        d = _separation(cand[:, None, :], self._centres[others][None, :, :], self.box)
+        need = reach + self._reach[others]
+        return np.all((d * d).sum(-1) >= need * need, axis=1)
+
+    def _clear_indexed(self, cand, reach) -> np.ndarray:
+        """Candidates clear of the spheres in the tree (the first ``_indexed``)."""
+        radii = self._reach[:self._indexed]
+        far = reach + radii.max()
+        k = min(_NEIGHBOURS, self._indexed)
+        dist, nb = self._tree.query(cand, k=k, distance_upper_bound=far)
+        dist, nb = dist.reshape(len(cand), k), nb.reshape(len(cand), k)
+        found = nb < self._indexed
+        rj = radii[np.where(found, nb, 0)]
+        ok = ~np.any(found & (dist < reach + rj), axis=1)
+        for c in np.flatnonzero(ok & found[:, -1]):
+            near = np.asarray(self._tree.query_ball_point(cand[c], far), int)
+            ok[c] = self._clear(cand[c:c + 1], reach, near)[0]
+        return ok
+
+
 def rsa_pack(radii, box: float, *, seed, gap: float = 0.0,
              max_trials: int = 200_000) -> SpherePacking:
     """Random sequential addition of spheres of given radii in a periodic cube.
 
     The spheres are added one by one in order of decreasing radius (common practice for
-    polydisperse RSA, no source); each goes to the first of a stream of uniformly random
-    positions at which it keeps at least *gap* from every sphere already placed, and is
-    never moved again [1]_, [2]_. The first acceptable point of a uniform stream is
-    uniformly distributed over the free region, as the method requires.
+    polydisperse RSA, no source) by `SequentialAddition`, each keeping at least *gap* from
+    every sphere already placed [1]_, [2]_.
 
     Parameters
     ----------
@@ -158,9 +309,8 @@ def rsa_pack(radii, box: float, *, seed, gap: float = 0.0,
 
     References
     ----------
-    .. [1] Widom, B. (1966). Random sequential addition of hard spheres to a volume.
-       J. Chem. Phys. 44, 3888-3894.
-    .. [2] Feder, J. (1980). Random sequential adsorption. J. Theor. Biol. 87, 237-254.
+    .. [1] Widom, B. (1966). J. Chem. Phys. 44, 3888-3894.
+    .. [2] Feder, J. (1980). J. Theor. Biol. 87, 237-254.
 
     Examples
     --------
@@ -169,63 +319,28 @@ def rsa_pack(radii, box: float, *, seed, gap: float = 0.0,
     (0.209, True)
     """
     radii, _ = _check(radii, box, gap)
-    rng = np.random.default_rng(seed)
+    rsa = SequentialAddition((box,) * 3, seed=seed)
     order = np.argsort(-radii, kind="stable")
-    n = radii.size
-    centres = np.empty((n, 3))
-    tree, indexed = None, 0
+    centres = np.empty((radii.size, 3))
     trials = 0
     for k, i in enumerate(order):
-        if k - indexed >= _REBUILD:
-            tree, indexed = cKDTree(centres[order[:k]], boxsize=box), k
-        tried = 0
-        while True:
-            cand = rng.uniform(0.0, box, (_BATCH, 3))
-            ok = _free(cand, radii[i], order[indexed:k], centres, radii, box, gap)
-            if tree is not None and ok.any():
-                ok[ok] = _free_indexed(cand[ok], radii[i], tree, order[:indexed], centres,
-                                       radii, box, gap)
-            hit = np.flatnonzero(ok)
-            if hit.size:
-                centres[i] = cand[hit[0]]
-                tried += hit[0] + 1
-                break
-            tried += _BATCH
-            if tried >= max_trials:
-                raise InputError(
-                    f"random sequential addition jammed at a fraction of "
-                    f"{4 / 3 * np.pi * np.sum(radii[order[:k]] ** 3) / box ** 3:.3f} "
-                    f"({k} of {n} spheres placed); use the collective rearrangement "
-                    "(collective_pack) for this fraction")
+        centre, tried = rsa.find(radii[i] + gap / 2, max_trials)
         trials += tried
+        if centre is None:
+            raise InputError(
+                f"random sequential addition jammed at a fraction of "
+                f"{4 / 3 * np.pi * np.sum(radii[order[:k]] ** 3) / box ** 3:.3f} "
+                f"({k} of {radii.size} spheres placed); use the collective rearrangement "
+                "(collective_pack) for this fraction")
+        rsa.add(centre, radii[i] + gap / 2)
+        centres[i] = rsa.centres[-1]
     return SpherePacking(centres, radii.copy(), float(box), "rsa", int(trials))
 
 
-#: RSA: candidate positions drawn at a time, spheres placed between rebuilds of the tree,
-#: and neighbours asked of the tree per candidate before looking at all within reach.
-_BATCH, _REBUILD, _NEIGHBOURS = 64, 64, 16
-
-
-def _free(cand, r, others, centres, radii, box, gap) -> np.ndarray:
-    """Candidates clear of the spheres *others* (checked against each of them)."""
-    if others.size == 0:
-        return np.ones(len(cand), bool)
-    d = _separation(cand[:, None, :], centres[others][None, :, :], box)
-    need = r + radii[others] + gap
-    return np.all((d * d).sum(-1) >= need * need, axis=1)
-
-
-def _free_indexed(cand, r, tree, indexed, centres, radii, box, gap) -> np.ndarray:
-    """Candidates clear of the spheres in *tree* (built on ``centres[indexed]``)."""
-    reach = r + radii[indexed].max() + gap
-    dist, nb = tree.query(cand, k=_NEIGHBOURS, distance_upper_bound=reach)
-    found = nb < indexed.size
-    rj = radii[indexed[np.where(found, nb, 0)]]
-    ok = ~np.any(found & (dist < r + rj + gap), axis=1)
-    for c in np.flatnonzero(ok & found[:, -1]):
-        near = indexed[np.asarray(tree.query_ball_point(cand[c], reach), int)]
-        ok[c] = _free(cand[c:c + 1], r, near, centres, radii, box, gap)[0]
-    return ok
+#: RSA: first batch of candidate positions (doubled on every miss up to the largest),
+#: spheres placed between rebuilds of the tree, and neighbours asked of the tree per
+#: candidate before looking at all within reach.
+_BATCH, _MAX_BATCH, _REBUILD, _NEIGHBOURS = 64, 4096, 64, 16
 
 
 def _close_pairs(x: np.ndarray, radii: np.ndarray, margin: float, box: float):
@@ -452,23 +567,28 @@ def rasterize(packing: SpherePacking, n: int, labels, *, matrix_label: int,
                                        np.int32), (count,))
     h = packing.box / n
     out = np.full((n, n, n), matrix_label, dtype=np.int32)
-    centres = packing.centres / h - 0.5
-    radii = packing.radii / h
-    inner_v = inner / h
-    for c, r, ri, lab, core in zip(centres, radii, inner_v, labels, cores):
-        index, dist = _window(c, r, n)
-        block = out[index]
-        block[dist < r] = lab
-        if ri > 0:
-            block[dist < ri] = core
-        out[index] = block
+    for c, r, ri, lab, core in zip(packing.centres / h - 0.5, packing.radii / h, inner / h,
+                                   labels, cores):
+        index, dist = window(c, r, out.shape)
+        paint(out, index, dist, r, lab, ri, core)
     return out
 
 
-def _window(centre, radius, n):
-    """Wrapped voxel indices within *radius* of *centre* (voxel-centre coordinates)."""
+def paint(out: np.ndarray, index, dist: np.ndarray, radius: float, label: int,
+          inner: float = 0.0, core: int = 0) -> None:
+    """Write a (hollow) sphere into *out* over the `window` (*index*, *dist*) of its centre."""
+    block = out[index]
+    block[dist < radius] = label
+    if inner > 0:
+        block[dist < inner] = core
+    out[index] = block
+
+
+def window(centre, radius: float, shape):
+    """Wrapped indices of the pixels (voxels) within *radius* of *centre*, and their periodic
+    distances to it; coordinates are pixel indices (pixel m at m along each axis)."""
     idx, off = [], []
-    for c in centre:
+    for c, n in zip(centre, shape):
         lo, hi = int(np.ceil(c - radius)), int(np.floor(c + radius))
         k = np.arange(lo, hi + 1)
         if k.size > n:

@@ -36,23 +36,17 @@ from dataclasses import dataclass
 
 import numpy as np
 from scipy import ndimage as ndi
-from skimage.segmentation import relabel_sequential
 
 from ..core.errors import InputError
 from ..core.memory import PeakRSS
 from .packing import SpherePacking, pack_spheres, rasterize
-from ..measure.particles import label_particles, measure_particles
+from ..core.materials import Material
 from ..core.phasemap import Phase, PhaseMap
-from ..measure.stereology import saltykov
+from ..measure.morphology import particle_holes, phase_particle_labels, phase_particles
 from ..properties.records import (Conductivity, Effective, Elasticity, Expansion, Solver, Spread,
                                   value_of)
 from .summary import (Estimate3DRecord, FamilyRecord, PackingRecord, Versus2D, VolumeRecord)
 
-#: Diameter classes of the unfolding: 20 geometric classes, each limit 10^-0.06 times the
-#: next (1.2 decades; finer than Saltykov's 10^-0.1 so that the class-limit diameters the
-#: packing uses quantise the sizes by 15 %, not 26 %).
-N_CLASSES = 20
-CLASS_RATIO = 10.0 ** -0.06
 #: Resolution rule: the volume-weighted D10 sphere spans at least this many voxels ...
 MIN_D10_VOXELS = 6.0
 #: ... and the box edge is at least this many volume-weighted D90 diameters.
@@ -63,14 +57,9 @@ MIN_SOLIDITY = 0.85
 #: weights keep the few-pixel sections, whose digitised outlines look elongated, from
 #: deciding).
 MAX_ASPECT = 1.5
-#: A phase's hollowness is ignored when its cores hold less than this share of its particles.
-MIN_CORE_SHARE = 0.005
 #: Largest area fraction of a phase left out when none of its sections can be measured
 #: (e.g. the open cores of hollow particles cut by the image border).
 MIN_UNMEASURED = 0.005
-#: Above this estimated share of hollow particles every particle is taken as hollow.
-ALL_HOLLOW = 0.9
-
 
 @dataclass(frozen=True, eq=False)
 class FamilyStatistics:
@@ -169,25 +158,24 @@ def section_statistics(labels: np.ndarray, pixel_size_um: float | None = None, *
                        ) -> SectionStatistics:
     """Measure a section's phases as families of (possibly hollow) spheres.
 
-    For every phase other than the matrix:
+    Every phase other than the matrix, pores included, is measured by the package's one
+    particle path, `polisect.measure.morphology.phase_particles`, with touching particles
+    split; so the 3D estimate and the report read the same particles, size classes and
+    hollow-particle model. On top of it:
 
-    * particles: the phase's 8-connected regions with their holes filled, split where
-      they touch by the distance-transform watershed (`polisect.measure.particles.label_particles`),
-      then reduced to the phase's own pixels, so that each particle's holes are its own
-      (a pocket enclosed by a ring of touching particles is no hole);
     * cores: the holes of particles of another phase are the cores of hollow particles;
-      regions of the phase that lie in such holes are cores, not particles of their own;
-    * size: Saltykov unfolding (`polisect.measure.stereology.saltykov`, `N_CLASSES` geometric
-      classes of ratio `CLASS_RATIO`) of the filled-outline equivalent circle diameters,
-      with the Miles–Lantuéjoul edge weights;
+      regions of the phase that lie in such holes are cores, not particles of their own
+      (``exclude``), and so are the regions at the image border that one particle of
+      another phase surrounds everywhere else (the open cores of hollow particles cut by
+      the border);
+    * size: the Saltykov unfolding of `phase_particles` (Miles–Lantuéjoul weights,
+      `polisect.measure.stereology.UNFOLD_CLASSES` geometric classes), classes with
+      spheres only;
     * fraction: the area fraction of the filled outlines, cores included (Delesse 1847);
-    * hollow particles: for spheres of which a share η is hollow with inner/outer ratio
-      q, a random plane shows a hole in a share n = ηq of the sections (a plane cutting a
-      sphere of radius R cuts its core of radius qR with probability q, whatever R), and
-      the cores fill a share A = ηq³ of the particles' area (Delesse within the
-      particles). So q = √(A/n), η = n/q; when η ≥ `ALL_HOLLOW` every sphere is taken as
-      hollow with q = A^(1/3) (the area estimate alone, which small undetected holes do not
-      bias). The core phase is the one filling most of the hole area.
+    * hollow particles: `PhaseParticles.hollow`, the hollow-sphere model of
+      `polisect.measure.stereology.hollow_spheres` (a share η of the spheres hollow with
+      inner/outer ratio q), with the phase filling most of the holes as the core;
+    * warnings: phases whose sections are irregular, elongated, or cross the section.
 
     Parameters
     ----------
@@ -240,9 +228,11 @@ def section_statistics(labels: np.ndarray, pixel_size_um: float | None = None, *
     if len(fractions) < 2:
         raise InputError("the section holds a single phase; there are no particles to "
                          "reconstruct in 3D")
+    phasemap = PhaseMap(labels, tuple(Phase(v, names.get(v, f"label {v}"), Material())
+                                      for v in fractions), pixel_size_um)
     others = [v for v in fractions if v != matrix_label]
-    particles = {p: _phase_particles(labels == p) for p in others}
-    holes = {p: _holes(plab) for p, plab in particles.items()}
+    particles = {p: phase_particle_labels(labels == p, split_touching=True) for p in others}
+    holes = {p: particle_holes(plab) for p, plab in particles.items()}
     for q in others:
         _add_open_cores(labels == q, particles, holes, q)
     warnings: list[str] = []
@@ -252,10 +242,8 @@ def section_statistics(labels: np.ndarray, pixel_size_um: float | None = None, *
         for q in others:
             if q != p:
                 foreign |= holes[q]
-        plab = particles[p]
-        plab[foreign] = 0
-        fam = _family(labels, int(p), relabel_sequential(plab)[0], holes[p] & ~foreign,
-                      pixel_size_um, names.get(p, f"label {p}"), warnings)
+        fam = _family(phasemap, p, foreign, holes[p] & ~foreign, warnings,
+                      None if (foreign & (labels == p)).any() else particles[p])
         if fam is not None:
             families.append(fam)
     families.sort(key=lambda f: -f.fraction)
@@ -265,15 +253,21 @@ def section_statistics(labels: np.ndarray, pixel_size_um: float | None = None, *
                              "um" if pixel_size_um else "px", tuple(warnings))
 
 
-def _family(labels, p, plab, holes, pixel_size_um, name, warnings) -> FamilyStatistics | None:
-    """One phase's sphere family from its particles *plab* and their cores *holes* (see
-    `section_statistics`); None when it has no particles of its own (only cores, or a few
-    open cores at the border). Appends the reasons spheres misrepresent it to *warnings*."""
-    if plab.max() == 0:
+def _family(phasemap: PhaseMap, p: int, foreign: np.ndarray, holes: np.ndarray,
+            warnings: list, labelled: np.ndarray | None) -> FamilyStatistics | None:
+    """One phase's sphere family from its particles (`phase_particles`, the cores of other
+    phases' particles *foreign* left out; *labelled* when that leaves them as they were)
+    and its cores *holes* (see `section_statistics`); None when it has no particles of its
+    own (only cores, or a few open cores at the border). Appends the reasons spheres
+    misrepresent it to *warnings*."""
+    pp = phase_particles(phasemap, p, split_touching=True, n_boot=0, exclude=foreign,
+                         labelled=labelled)
+    table, name = pp.table, pp.name
+    if table.count == 0:
         return None
-    table = measure_particles(plab, pixel_size_um)
     used = table.weight > 0
-    shell = np.count_nonzero(plab) / labels.size
+    size = phasemap.labels.size
+    shell = np.count_nonzero(pp.particle_labels) / size
     if not used.any():
         if shell < MIN_UNMEASURED:
             return None
@@ -281,11 +275,8 @@ def _family(labels, p, plab, holes, pixel_size_um, name, warnings) -> FamilyStat
                          "no particle size can be measured; the phase is interconnected "
                          "or its particles are as large as the image — spheres cannot "
                          "stand for it (use a larger image, or a real volume)")
-    dist = saltykov(table.ecd, table.weight, table.window_area, n_classes=N_CLASSES,
-                    ratio=CLASS_RATIO, units=table.units)
-    keep = dist.number_density > 0
-    core = np.count_nonzero(holes) / labels.size
-    share, ratio, core_label = _hollow(table, shell, core, labels[holes])
+    keep = pp.spheres.number_density > 0
+    core = np.count_nonzero(holes) / size
     wa = table.weight[used] * table.area_filled[used]
     aspect = float(wa @ table.aspect_ratio[used] / wa.sum())
     solidity = float(wa @ table.solidity[used] / wa.sum())
@@ -296,32 +287,18 @@ def _family(labels, p, plab, holes, pixel_size_um, name, warnings) -> FamilyStat
     if aspect > MAX_ASPECT:
         warnings.append(f"phase {name}: elongated sections (mean aspect ratio "
                         f"{aspect:.2f}); spheres misrepresent elongated particles")
-    if _spans(plab):
+    if _spans(pp.particle_labels):
         warnings.append(f"phase {name}: a single region crosses the whole section; the "
                         "phase looks interconnected and spheres misrepresent it — a real "
                         "volume (a voxel stack) is needed")
-    return FamilyStatistics(label=p, fraction=shell + core, diameters=dist.diameters[keep],
-                            weights=dist.number_density[keep], sections=int(used.sum()),
-                            hollow_share=share, hollow_ratio=ratio, core_label=core_label,
+    hollow = pp.hollow
+    return FamilyStatistics(label=p, fraction=shell + core,
+                            diameters=pp.spheres.diameters[keep],
+                            weights=pp.spheres.number_density[keep],
+                            sections=pp.size.count_measured, hollow_share=hollow.share,
+                            hollow_ratio=hollow.ratio,
+                            core_label=pp.core_label if hollow.ratio is not None else None,
                             aspect_ratio=aspect, solidity=solidity)
-
-
-def _phase_particles(mask: np.ndarray) -> np.ndarray:
-    """Split particles of a phase, holes filled for the split, then only the phase's pixels."""
-    plab = label_particles(ndi.binary_fill_holes(mask), split_touching=True)
-    plab[~mask] = 0
-    return relabel_sequential(plab)[0]
-
-
-def _holes(plab: np.ndarray) -> np.ndarray:
-    """Pixels enclosed by single particles (each particle's own holes)."""
-    out = np.zeros(plab.shape, bool)
-    for i, sl in enumerate(ndi.find_objects(plab)):
-        if sl is None:
-            continue
-        own = plab[sl] == i + 1
-        out[sl] |= ndi.binary_fill_holes(own) & ~own
-    return out
 
 
 def _add_open_cores(mask: np.ndarray, particles: dict, holes: dict, phase: int) -> None:
@@ -340,23 +317,6 @@ def _add_open_cores(mask: np.ndarray, particles: dict, holes: dict, phase: int) 
             if host != phase and ids.size == 1 and ids[0] > 0:
                 holes[host][sl] |= own
                 break
-
-
-def _hollow(table, shell: float, core: float, core_pixels: np.ndarray):
-    """(hollow share η, inner/outer ratio q, core label) from the section; see
-    `section_statistics`."""
-    area_share = core / (shell + core) if shell + core > 0 else 0.0
-    used = table.weight > 0
-    w = table.weight[used]
-    n = float(w @ table.hollow[used] / w.sum())
-    if area_share < MIN_CORE_SHARE or n == 0 or core_pixels.size == 0:
-        return 0.0, None, None
-    q = math.sqrt(area_share / n)
-    share = n / q
-    if share >= ALL_HOLLOW or q >= 1:
-        share, q = 1.0, area_share ** (1 / 3)
-    values, counts = np.unique(core_pixels, return_counts=True)
-    return share, q, int(values[np.argmax(counts)])
 
 
 def _spans(plab: np.ndarray) -> bool:
