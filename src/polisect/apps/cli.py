@@ -60,7 +60,12 @@ def _add_analyze(sub):
     p.add_argument("--assign", help="materials per class, e.g. 0=air,1=alumina,2=zirconia")
     p.add_argument("--pixel-size", type=float, metavar="UM", help="pixel size in µm")
     p.add_argument("--kind", choices=("grayscale", "labels", "palette"), help="[image] kind")
-    p.add_argument("--quiet", action="store_true", help="no progress messages")
+    p.add_argument("--quiet", action="store_true",
+                   help="no progress messages while it runs; the result summary (fractions, "
+                        "properties, warnings, where the outputs are) is still printed")
+    p.add_argument("--verify", action="store_true",
+                   help="solve again with the second method (fe for fft) and state their "
+                        "largest relative difference ([solve] verify)")
     _add_window_options(p)
     _add_3d_options(p)
     p.set_defaults(run=_run_analyze)
@@ -99,7 +104,8 @@ def _with_3d_options(cfg, args):
                              "is not a folder (give a multi-page TIFF without --stack)")
         cfg = dataclasses.replace(cfg, image=dataclasses.replace(cfg.image, volume=True))
     given = {"estimate_3d": True if args.estimate_3d else None, "voxels": args.voxels,
-             "realizations": args.realizations}
+             "realizations": args.realizations,
+             "verify": True if getattr(args, "verify", False) else None}
     given = {k: v for k, v in given.items() if v is not None}
     if given:
         cfg = dataclasses.replace(cfg, solve=dataclasses.replace(cfg.solve, **given))
@@ -164,8 +170,7 @@ def _run_analyze(args) -> int:
             raise
         raise InputError(f"{args.image}: {exc}") from None
     _emit_json(args.json, to_json(analysis.result))
-    if not args.quiet:
-        _summary(analysis.result, paths)
+    _summary(analysis.result, paths)
     return EXIT_OK
 
 
@@ -180,12 +185,34 @@ def _config(args):
 
 
 def _summary(result, paths) -> None:
+    """The result in a few lines on stderr (printed with and without --quiet)."""
+    from ..present.figures import field_size
+    from ..present.units import number
+
     src = result.source
-    lines = [f"{src.path}: {' × '.join(map(str, src.shape))} px"]
+    lines = [f"{src.path}: {' × '.join(map(str, src.shape))} px, "
+             f"{field_size(src.shape, src.pixel_size_um)}"]
+    if src.cropped_bottom_px:
+        lines.append(f"  information band: {src.cropped_bottom_px} rows cut at the bottom "
+                     "before the analysis")
     for p in result.phases:
         lo, hi = p.fraction_ci95
         lines.append(f"  {p.name:<18} fraction {p.fraction:.4f}  (95 % {lo:.4f}–{hi:.4f})")
+        if p.inside_particles:
+            lines.append(f"  {'':<18}   of which {p.inside_particles:.4f} inside particles "
+                         f"(cores), {max(0.0, p.fraction - p.inside_particles):.4f} open")
     lines += _summary_model(result.effective, "")
+    if result.effective is None:
+        skipped = [n for n in result.notes if n.startswith("no materials assigned")]
+        if skipped:
+            lines.append("  properties: skipped, no materials assigned to the phases; give "
+                         "--assign LABEL=MATERIAL,... (e.g. --assign 0=air,1=alumina) or "
+                         "[[phase]] entries in --config")
+    v = result.verification
+    if v is not None:
+        where = "whole map" if v.crop is None else f"{' × '.join(map(str, v.crop))} crop"
+        lines.append(f"  second solver ({v.second_method} vs {v.method}, {where}): largest "
+                     f"relative difference {number(v.max_relative_difference, 2)}")
     if result.effective_3d:
         lines += _summary_model(result.effective_3d.effective, "3D ")
     for w in result.warnings:
@@ -240,19 +267,25 @@ def _add_demo(sub):
     p = sub.add_parser("demo", help="run the built-in demo sections",
                        description="Analyse the built-in demo sections (a fictional supplier's "
                        "two product lines) and write their reports.")
-    p.add_argument("--out", default="polisect-demo", help="output folder (default: polisect-demo)")
-    p.add_argument("--quiet", action="store_true")
+    p.add_argument("--out", default="polisect-demo",
+                   help="output folder (default: polisect-demo in the current folder; the "
+                        "full path is printed first)")
+    p.add_argument("--quiet", action="store_true",
+                   help="no progress messages; the summary is still printed")
     p.set_defaults(run=_run_demo)
 
 
 def _run_demo(args) -> int:
     from ..present.record import headline
+    from ..present.units import show
     from ..read.config import load_config
     from .run import run_section
     from .samples import demo_sections
 
     progress = _Progress(args.quiet)
     written = []
+    print(f"Writing the demo into {os.path.abspath(args.out)} (choose with --out)",
+          file=sys.stderr, flush=True)
     for section in demo_sections():
         progress(f"demo: {section.title}")
         cfg = load_config(section.config)
@@ -266,11 +299,12 @@ def _run_demo(args) -> int:
                               if k.startswith("fraction_") and not k.endswith(("_low", "_high")))
         print(f"  {title}")
         print(f"    fractions: {fractions}")
-        print(f"    k = {row.get('conductivity_W_mK', float('nan')):#.4g} W/(m·K),  "
-              f"E = {row.get('youngs_modulus_GPa', float('nan')):#.4g} GPa,  "
-              f"alpha = {row.get('expansion_per_K', float('nan')) * 1e6:#.4g} ×10⁻⁶/K")
+        print(f"    k = {show(row.get('conductivity_W_mK'), 'conductivity')},  "
+              f"E = {show(row.get('youngs_modulus_GPa'), 'modulus')},  "
+              f"α = {show(row.get('expansion_per_K'), 'expansion')}")
         print(f"    report: {os.path.abspath(report)}")
-    print("\nEstimates for screening and comparison, not design values; verify by measurement.")
+    print(f"\nAll outputs: {os.path.abspath(args.out)}")
+    print("Estimates for screening and comparison, not design values; verify by measurement.")
     return EXIT_OK
 
 
@@ -315,10 +349,30 @@ def _run_estimate(args) -> int:
     return EXIT_OK
 
 
+BENCH_COLUMNS = """\
+columns of the table:
+  method     fft = FFT-preconditioned conjugate gradients on the pixel-element system;
+             fe  = the same system assembled, algebraic-multigrid-preconditioned CG;
+             ms  = Moulinec-Suquet basic scheme (a reference; refuses pores)
+  iter       iterations to the tolerance; s/iter seconds per iteration
+  fft floor  time of the FFTs one iteration needs (the least an FFT method can take);
+             ratio = s/iter over that floor
+  peak MB    peak traced Python memory; RSS MB the process's resident set
+  conv       'yes' when the solver reached its tolerance; 'no' when it stopped at an
+             iteration cap: the ms rows run a fixed budget of iterations on purpose (the
+             basic scheme converges slowly at high contrast), so 'no' there is expected
+  N^x        on the last scaling row (case f): seconds grow as (pixel count)^x over the
+             sizes; first-call compile time inflates the smallest size and lowers x
+--quick runs small sizes (a smoke run; expect a minute or two on two cores)."""
+"""The bench table's columns in words (``polisect bench --help``)."""
+
+
 def _add_bench(sub):
     p = sub.add_parser("bench", help="measure solver and analysis speed",
+                       formatter_class=argparse.RawDescriptionHelpFormatter,
                        description="Benchmarks: prints a table of iterations, seconds, the FFT "
-                       "floor and peak memory per case.")
+                       "floor and peak memory per case.",
+                       epilog=BENCH_COLUMNS)
     p.add_argument("--json", metavar="FILE", help="write the figures as JSON")
     p.add_argument("--quick", action="store_true", help="small sizes (a smoke run)")
     p.add_argument("--cases", metavar="LETTERS",

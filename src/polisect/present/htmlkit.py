@@ -8,9 +8,9 @@ matplotlib backend.
 Examples
 --------
 >>> grid(("Batch", "Sections"), [("A", 3)])
-'<table class="grid"><thead><tr><th>Batch</th><th>Sections</th></tr></thead><tbody><tr><td>A</td><td>3</td></tr></tbody></table>'
+'<div class="tablewrap"><table class="grid"><thead><tr><th>Batch</th><th>Sections</th></tr></thead><tbody><tr><td>A</td><td>3</td></tr></tbody></table></div>'
 >>> kv_table([("Pixel size", "0.5 µm")])
-'<table class="kv"><tr><th>Pixel size</th><td>0.5 µm</td></tr></table>'
+'<div class="tablewrap"><table class="kv"><tr><th>Pixel size</th><td>0.5 µm</td></tr></table></div>'
 """
 
 from __future__ import annotations
@@ -31,6 +31,12 @@ CAUTION = (
 CAUTION_SECTION = (f'<section class="caution"><strong>Caution.</strong> {html.escape(CAUTION)}'
                    "</section>")
 """`CAUTION` as the first section of a page."""
+
+CSP = ('<meta http-equiv="Content-Security-Policy" content="default-src \'none\'; '
+       "style-src 'unsafe-inline'; img-src data:; base-uri 'none'; form-action 'none'\">")
+"""The content security policy of every standalone page we write: inline styles and
+``data:`` images only — no scripts, no fetches, no forms (a phase name that smuggles in
+markup is escaped anyway; this is the second wall)."""
 
 PALETTE = ("#20304f", "#e0a030", "#3f9e74", "#c8553d", "#7b68b5", "#4fb0c6", "#d98cb3",
            "#8c8c6a")
@@ -55,6 +61,7 @@ def page(title: str, meta: str, body: str) -> str:
     """
     t = html.escape(title)
     return (f'<!DOCTYPE html>\n<html lang="en"><head><meta charset="utf-8"><title>{t}</title>'
+            f"{CSP}"
             f'<meta name="viewport" content="width=device-width, initial-scale=1">'
             f"<style>{CSS}</style></head><body><header><h1>{t}</h1>"
             f'<p class="meta">{meta}</p></header><main>{body}</main></body></html>\n')
@@ -64,7 +71,7 @@ def kv_table(rows) -> str:
     """A two-column table of (name, value) rows, both escaped."""
     body = "".join(f"<tr><th>{html.escape(str(k))}</th><td>{html.escape(str(v))}</td></tr>"
                    for k, v in rows)
-    return f'<table class="kv">{body}</table>'
+    return f'<div class="tablewrap"><table class="kv">{body}</table></div>'
 
 
 def grid(head, rows, raw: bool = False) -> str:
@@ -86,7 +93,8 @@ def grid(head, rows, raw: bool = False) -> str:
     esc = (lambda s: s) if raw else (lambda s: html.escape(str(s)))
     h = "".join(f"<th>{html.escape(c)}</th>" for c in head)
     b = "".join("<tr>" + "".join(f"<td>{esc(c)}</td>" for c in r) + "</tr>" for r in rows)
-    return f'<table class="grid"><thead><tr>{h}</tr></thead><tbody>{b}</tbody></table>'
+    return (f'<div class="tablewrap"><table class="grid"><thead><tr>{h}</tr></thead>'
+            f"<tbody>{b}</tbody></table></div>")
 
 
 def new_axes(figsize: tuple[float, float], nrows: int = 1, ncols: int = 1, **kwargs):
@@ -117,17 +125,22 @@ h3{font-size:1rem;margin:14px 0 6px}
 .warn{background:#fdecea;border-color:#e3a39a}
 table{border-collapse:collapse;font-size:.92rem;margin:6px 0}
 .kv th{text-align:left;padding:3px 14px 3px 0;color:#4a5560;font-weight:500;vertical-align:top}
-.kv td{padding:3px 0;word-break:break-all}
+.kv td{padding:3px 0;overflow-wrap:anywhere}
 .grid th,.grid td{border-bottom:1px solid #e6e3da;padding:4px 10px;text-align:right}
 .grid th:first-child,.grid td:first-child{text-align:left}
 .grid thead th{background:#eef1ee}
 .figs{display:flex;flex-wrap:wrap;gap:16px}
 figure{margin:0}
+figure{max-width:100%}
 figure img{max-width:480px;width:100%;border:1px solid #dedbd2}
 figure.wide{width:100%}
 figure.wide img{max-width:100%;width:auto}
-section{overflow-x:auto}
+section{min-width:0}
+.tablewrap{max-width:100%;overflow-x:auto}
+.grid th{vertical-align:bottom;min-width:3.5em}
 .grid td{white-space:nowrap}
+.grid td:first-child{white-space:normal;min-width:10em}
+code{background:#f3f2ee;padding:0 3px;border-radius:3px}
 figcaption{font-size:.85rem;color:#4a5560}
 .swatch{display:inline-block;width:.9em;height:.9em;border-radius:2px;margin-right:6px;
 vertical-align:-1px;border:1px solid #0003}

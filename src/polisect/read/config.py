@@ -78,6 +78,7 @@ class SolveConfig:
     fields: bool = True
     voxels: int = 160
     realizations: int = 3
+    verify: bool = False
 
 @dataclass(frozen=True)
 class WindowsConfig:
@@ -260,6 +261,8 @@ def _check(cfg: Config) -> None:
     for prop in sol.properties:
         _choice(prop, SOLVE_PROPERTIES, "[solve] properties entry")
     _choice(sol.method, SOLVE_METHODS, "[solve] method")
+    if not isinstance(sol.verify, bool):
+        raise InputError(f"[solve] verify = {sol.verify!r}: give true or false")
     _choice(sol.plane, PLANES, "[solve] plane")
     if not (0 < sol.tolerance < 1e-1):
         raise InputError(f"[solve] tolerance = {sol.tolerance}: give a relative tolerance "
