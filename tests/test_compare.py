@@ -108,5 +108,5 @@ def test_cli_compare(tmp_path, capsys):
     d = json.loads(out.out)
     assert d["batches"] == {"A": ["s0.json", "s1.json", "s2.json"],
                             "B": ["s0.json", "s1.json", "s2.json"]}
-    assert "batch B's conductivity is" in out.err and "higher than batch A's" in out.err
+    assert "batch B's conductivity is" in out.err and "higher (relative) than batch A's" in out.err
     assert main(["compare", str(tmp_path / "missing")]) == 2

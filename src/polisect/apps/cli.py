@@ -472,22 +472,39 @@ def _add_compare(sub):
                    help="HTML page to write (default: comparison.html)")
     p.add_argument("--json", metavar="FILE", help="also write the comparison as JSON "
                    "('-' = stdout)")
-    p.add_argument("--quiet", action="store_true", help="do not print the findings")
+    p.add_argument("--spec", action="append", default=[], metavar="LIMIT",
+                   help="a specification limit checked per batch and section, e.g. "
+                        "--spec 'porosity<=0.22' --spec 'k>=1.8' (names: porosity, a phase "
+                        "name, k, E, nu, K, G, alpha in 10⁻⁶/K, or a summary.csv column; "
+                        "fractions as 0.22 or 22%%); repeat for more")
+    p.add_argument("--quiet", action="store_true",
+                   help="print only the batch means, the specification verdicts and where "
+                        "the page is, not the findings")
     p.set_defaults(run=_run_compare)
 
 
 def _run_compare(args) -> int:
-    from .compare import compare, load_sections, write_html
+    from .compare import compare, load_sections, means_lines, spec_lines, write_html
 
-    comparison = compare(load_sections(args.dirs, args.group_by))
+    comparison = compare(load_sections(args.dirs, args.group_by), specs=args.spec)
     write_html(comparison, args.out)
     _emit_json(args.json, comparison.to_json())
+    lines = [f"{len(comparison.sections)} sections in {len(comparison.batches)} batch(es): "
+             + ", ".join(comparison.batches),
+             "batch means (± = 95 % interval of the mean):"]
+    lines += [f"  {s}" for s in means_lines(comparison)]
+    if comparison.specs:
+        lines.append("specification limits (pass: the whole interval meets the limit):")
+        lines += [f"  {s}" for s in spec_lines(comparison)]
     if not args.quiet:
-        lines = [f"{len(comparison.sections)} sections in {len(comparison.batches)} batch(es): "
-                 + ", ".join(comparison.batches)]
-        lines += [f"  {s}" for s in comparison.sentences()]
-        lines.append(f"  report: {args.out}")
-        print("\n".join(lines), file=sys.stderr)
+        lines.append("findings (fractions in percentage points, other quantities in % of the "
+                     "first batch; ± = 95 % interval), significant first:")
+        for q in comparison.grouped():
+            mark = "significant" if q.significant else "no significant difference"
+            lines.append(f"  {q.label} — {mark}")
+            lines += [f"    {s}" for s in q.sentences]
+    lines.append(f"page: {os.path.abspath(args.out)}")
+    print("\n".join(lines), file=sys.stderr)
     return EXIT_OK
 
 

@@ -18,6 +18,7 @@ from __future__ import annotations
 import base64
 import html
 import io
+import re
 
 from matplotlib.figure import Figure
 
@@ -31,6 +32,18 @@ CAUTION = (
 CAUTION_SECTION = (f'<section class="caution"><strong>Caution.</strong> {html.escape(CAUTION)}'
                    "</section>")
 """`CAUTION` as the first section of a page."""
+
+CAUTION_MANY = (
+    "These numbers are estimates computed from images of polished sections, each section one "
+    "sample of its batch. They are meant for screening, ranking and comparing materials and "
+    "batches, not as design values. Verify them by measurement on the material itself, and "
+    "follow local codes, applicable standards and licensed engineering practice for any "
+    "design or qualification decision."
+)
+
+CAUTION_MANY_SECTION = (f'<section class="caution"><strong>Caution.</strong> '
+                        f"{html.escape(CAUTION_MANY)}</section>")
+"""The caution of a page over many sections (batch index, comparison)."""
 
 CSP = ('<meta http-equiv="Content-Security-Policy" content="default-src \'none\'; '
        "style-src 'unsafe-inline'; img-src data:; base-uri 'none'; form-action 'none'\">")
@@ -92,9 +105,18 @@ def grid(head, rows, raw: bool = False) -> str:
     """
     esc = (lambda s: s) if raw else (lambda s: html.escape(str(s)))
     h = "".join(f"<th>{html.escape(c)}</th>" for c in head)
-    b = "".join("<tr>" + "".join(f"<td>{esc(c)}</td>" for c in r) + "</tr>" for r in rows)
+    b = "".join("<tr>" + "".join(_cell(esc(c)) for c in r) + "</tr>" for r in rows)
     return (f'<div class="tablewrap"><table class="grid"><thead><tr>{h}</tr></thead>'
             f"<tbody>{b}</tbody></table></div>")
+
+
+_NUMERIC = re.compile(r"^(<[^>]*>)*[-+−–±0-9.]")
+
+
+def _cell(text: str) -> str:
+    """A body cell: numbers right-aligned (the default), words left-aligned."""
+    return f"<td>{text}</td>" if _NUMERIC.match(text) or not text else \
+        f'<td class="txt">{text}</td>'
 
 
 def new_axes(figsize: tuple[float, float], nrows: int = 1, ncols: int = 1, **kwargs):
@@ -139,7 +161,13 @@ section{min-width:0}
 .tablewrap{max-width:100%;overflow-x:auto}
 .grid th{vertical-align:bottom;min-width:3.5em}
 .grid td{white-space:nowrap}
-.grid td:first-child{white-space:normal;min-width:10em}
+.grid td:first-child{white-space:normal;min-width:8em}
+.grid td.txt{text-align:left;white-space:normal}
+.matrix td:first-child{min-width:0;text-align:right}
+.sig{font-size:.75rem;background:#fdecea;color:#8a2a1d;border-radius:3px;padding:1px 6px;
+font-weight:500}
+.nsig{font-size:.75rem;background:#eef1ee;color:#4a5560;border-radius:3px;padding:1px 6px;
+font-weight:400}
 code{background:#f3f2ee;padding:0 3px;border-radius:3px}
 figcaption{font-size:.85rem;color:#4a5560}
 .swatch{display:inline-block;width:.9em;height:.9em;border-radius:2px;margin-right:6px;

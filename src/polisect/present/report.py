@@ -203,7 +203,7 @@ def _materials(analysis, r, colors) -> str:
     return ("<section><h2>Materials used</h2>" + grid(head, rows)
             + "<h3>Sources of the values</h3>" + kv_table(sources)
             + '<p class="note">The values each phase was given in the solve. Library values '
-            "are typical room-temperature figures (`polisect materials`); a grade, a "
+            "are typical room-temperature figures (<code>polisect materials</code>); a grade, a "
             "porosity below the pixel size or a temperature may change them by tens of per "
             "cent: check them against data for your material.</p></section>")
 
@@ -277,7 +277,7 @@ def _particles(analysis, r, colors) -> str:
         return ""
     if analysis.phasemap.ndim == 3:
         return _particles_3d(parts)
-    rows = []
+    rows, stereo = [], []
     units = {"um" if q.units == "um" else "px" for q in parts.values()}
     unit = "µm" if units == {"um"} else "px"
     for name, q in parts.items():
@@ -285,12 +285,14 @@ def _particles(analysis, r, colors) -> str:
         rows.append((name, q.count, _n(q.count_per_mm2), _n(ecd.mean), _n(ecd.std),
                      f"{_n(ecd.d10)} / {_n(ecd.d50)} / {_n(ecd.d90)}",
                      _n(q.aspect_ratio_mean), _pct(q.hollow_fraction),
-                     _n(q.inner_outer_ratio_mean), _n(q.spheres.mean if q.spheres else None),
-                     _n(q.number_per_mm3), _n(q.mean_free_path), _n(q.contiguity)))
+                     _n(q.inner_outer_ratio_mean)))
+        stereo.append((name, _n(q.spheres.mean if q.spheres else None),
+                       _n(q.number_per_mm3), _n(q.mean_free_path), _n(q.contiguity)))
     head = ("Phase", "Count", "Number per mm²", f"ECD mean ({unit})", f"ECD sd ({unit})",
             f"ECD D10 / D50 / D90 ({unit})", "Aspect ratio", "Hollow particles",
-            "Inner / outer diameter", f"Sphere diameter, mean ({unit})", "Number per mm³",
-            f"Mean free path ({unit})", "Contiguity")
+            "Inner / outer diameter")
+    head_3d = ("Phase", f"Sphere diameter, mean ({unit})", "Number per mm³",
+               f"Mean free path ({unit})", "Contiguity")
     names = ", ".join(f"{pp.name} ({c})" for pp, c in zip(
         analysis.particles, ("yellow", "cyan", "magenta", "green") * 4))
     figs = [(f"Particle outlines: {names}", figure_png(figures.outlines(
@@ -305,7 +307,9 @@ def _particles(analysis, r, colors) -> str:
     dists = "".join(f'<figure class="wide"><img alt="sizes of {html.escape(pp.name)}" '
                     f'src="{figure_png(figures.size_distributions(pp))}"></figure>'
                     for pp in analysis.particles)
-    return ("<section><h2>Particles and stereology</h2>" + grid(head, rows)
+    return ("<section><h2>Particles and stereology</h2><h3>Sections (2D)</h3>"
+            + grid(head, rows) + "<h3>Stereology (3D from the sections)</h3>"
+            + grid(head_3d, stereo)
             + '<p class="note">ECD: equivalent circle diameter of the sections; D10/D50/D90 by '
             "number, particles cut by the image edge weighted by the Miles–Lantuéjoul rule. "
             "Sphere diameters and number per mm³ come from the Saltykov area method (sections "

@@ -186,6 +186,8 @@ def with_uncertainty(value, half_width, scale: float = 1.0) -> str:
     if half_width is None or not math.isfinite(half_width) or half_width <= 0:
         return number(value * scale)
     v, u = value * scale, half_width * scale
+    if u <= 1e-9 * abs(v):
+        return number(v)
     place = 1 - int(math.floor(math.log10(u)))
     if place <= 0:
         return f"{number(round(v, place))} ± {number(round(u, place))}"
