@@ -22,7 +22,7 @@ def bar_length(field: float) -> float:
     Examples
     --------
     >>> bar_length(512.0), bar_length(64.0), bar_length(0.9)
-    (100.0, 10.0, 0.2)
+    (100.0, 10.0, 0.1)
     """
     target = field / 5.0
     power = 10.0 ** math.floor(math.log10(target))

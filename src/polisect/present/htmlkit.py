@@ -8,7 +8,7 @@ matplotlib backend.
 Examples
 --------
 >>> grid(("Batch", "Sections"), [("A", 3)])
-'<div class="tablewrap"><table class="grid"><thead><tr><th>Batch</th><th>Sections</th></tr></thead><tbody><tr><td>A</td><td>3</td></tr></tbody></table></div>'
+'<div class="tablewrap"><table class="grid"><thead><tr><th>Batch</th><th>Sections</th></tr></thead><tbody><tr><td class="txt">A</td><td>3</td></tr></tbody></table></div>'
 >>> kv_table([("Pixel size", "0.5 µm")])
 '<div class="tablewrap"><table class="kv"><tr><th>Pixel size</th><td>0.5 µm</td></tr></table></div>'
 """
@@ -104,8 +104,11 @@ def grid(head, rows, raw: bool = False) -> str:
     str
     """
     esc = (lambda s: s) if raw else (lambda s: html.escape(str(s)))
-    h = "".join(f"<th>{html.escape(c)}</th>" for c in head)
-    b = "".join("<tr>" + "".join(_cell(esc(c)) for c in r) + "</tr>" for r in rows)
+    body = [[_cell(esc(c)) for c in r] for r in rows]
+    words = [i for i, c in enumerate(body[0]) if 'class="txt"' in c] if body else []
+    h = "".join(f'<th class="txt">{html.escape(c)}</th>' if i in words and i
+                else f"<th>{html.escape(c)}</th>" for i, c in enumerate(head))
+    b = "".join("<tr>" + "".join(r) + "</tr>" for r in body)
     return (f'<div class="tablewrap"><table class="grid"><thead><tr>{h}</tr></thead>'
             f"<tbody>{b}</tbody></table></div>")
 
@@ -162,7 +165,7 @@ section{min-width:0}
 .grid th{vertical-align:bottom;min-width:3.5em}
 .grid td{white-space:nowrap}
 .grid td:first-child{white-space:normal;min-width:8em}
-.grid td.txt{text-align:left;white-space:normal}
+.grid td.txt,.grid th.txt{text-align:left;white-space:normal}
 .matrix td:first-child{min-width:0;text-align:right}
 .sig{font-size:.75rem;background:#fdecea;color:#8a2a1d;border-radius:3px;padding:1px 6px;
 font-weight:500}

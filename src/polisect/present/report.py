@@ -193,10 +193,15 @@ def _materials(analysis, r, colors) -> str:
                      + (" (full stiffness given)" if m.stiffness is not None else ""),
                      _material_value(m.poisson_ratio, "poisson"),
                      _material_value(m.expansion, "expansion"), origin))
-        if m.sources:
-            for prop, text in m.sources.items():
-                sources.append((f"{p.name}: {prop.replace('_', ' ')}", text))
+        by_text: dict[str, list[str]] = {}
+        for prop, text in (m.sources or {}).items():
+            by_text.setdefault(text, []).append(prop.replace("_", " "))
+        if len(by_text) == 1 and len(next(iter(by_text.values()))) > 1:
+            sources.append((f"{p.name}: all values", next(iter(by_text))))
         else:
+            sources += [(f"{p.name}: {', '.join(props)}", text)
+                        for text, props in by_text.items()]
+        if not by_text:
             sources.append((p.name, m.source))
     head = ("Phase", "Material", heading("k", "conductivity"), heading("E", "modulus"), "ν",
             heading("α", "expansion"), "Values from")
@@ -490,7 +495,7 @@ def _property_rows(eff) -> list[tuple[str, str, str]]:
     """(quantity, value, what it is) rows of the solved properties."""
     c, e, x = eff.conductivity, eff.elasticity, eff.expansion
     two_d = eff.dimension == 2
-    plane = "in-plane, " if two_d else ""
+    plane = "in-plane " if two_d else ""
     rows = []
     if c:
         rows.append(("Thermal conductivity", show(value_of(c.mean), "conductivity"),
