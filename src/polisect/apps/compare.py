@@ -39,7 +39,8 @@ from ..core.errors import InputError
 from ..present.htmlkit import CAUTION_MANY_SECTION, PALETTE, figure_png, grid, new_axes, page
 from ..core.quantities import fraction_column, quantity_keys
 from ..present.record import SCHEMA, headline, plain, read_result, whole_image_variances
-from ..present.units import column_words, kind_of, number, scale_of, with_uncertainty
+from ..present.units import (column_words, kind_of, number, scale_of, with_uncertainty,
+                             with_unit)
 from ..trust.sectionstats import (ALPHA, Grubbs, difference, gitman_chi2, grubbs, holm, json_number,
                            one_way_anova, p_text, section_spread, sig, summarize, welch_anova,
                            welch_t)
@@ -316,15 +317,14 @@ def _difference_sentence(key, label, unit, scale, ref, other, x, y, d) -> str:
         return d.sentence
     p = p_text(d.p_adjusted)
     direction = "higher" if my > mx else "lower"
-    means = f"{number(my * scale)} against {number(mx * scale)}" + (f" {unit}" if unit else "")
+    means = f"{number(my * scale)} against {with_unit(number(mx * scale), unit)}"
     if key.startswith("fraction_"):
         diff_pp = abs(my - mx) * 100.0
         half_pp = d.ci95_pct / 100.0 * abs(mx) * 100.0
-        return (f"batch {other}'s {label} is {number(diff_pp, 2)} ± {number(half_pp, 2)} "
-                f"percentage points {direction} than batch {ref}'s ({means}), {p}")
-    return (f"batch {other}'s {label} is {number(abs(d.relative_pct), 2)} ± "
-            f"{number(d.ci95_pct, 2)} % {direction} (relative) than batch {ref}'s ({means}), "
-            f"{p}")
+        return (f"batch {other}'s {label} is {with_uncertainty(diff_pp, half_pp)} percentage "
+                f"points {direction} than batch {ref}'s ({means}), {p}")
+    return (f"batch {other}'s {label} is {with_uncertainty(abs(d.relative_pct), d.ci95_pct)}"
+            f" % {direction} (relative) than batch {ref}'s ({means}), {p}")
 
 
 def _compare_quantity(sections, batches, key, alpha) -> QuantityComparison:
@@ -344,9 +344,9 @@ def _compare_quantity(sections, batches, key, alpha) -> QuantityComparison:
                 outliers.append(Outlier(sec.name, b, key, g.value, float(v.mean()), g))
                 sentences.append(f"section {sec.name} stands out in batch {b} on {label} "
                                  f"({number(g.value * scale)} against a batch mean of "
-                                 f"{number(float(v.mean()) * scale)}"
-                                 f"{' ' + unit if unit else ''}; Grubbs G = "
-                                 f"{g.statistic:.3f} > {g.critical:.3f} at n = {g.n}, "
+                                 f"{with_unit(number(float(v.mean()) * scale), unit)}; "
+                                 f"Grubbs G = {g.statistic:.3f} > {g.critical:.3f} at n = "
+                                 f"{g.n}, "
                                  f"α = {alpha})")
     testable = [b for b, v in values.items() if v.size >= 2]
     tests, diffs = [], []
@@ -562,12 +562,12 @@ def spec_lines(c: Comparison) -> list[str]:
 
 def _html_overview(c: Comparison) -> str:
     rows = [(b, str(sum(s.batch == b for s in c.sections))) for b in c.batches]
-    head = ("Quantity",) + tuple(f"{b} (n, mean ± 95 %)" for b in c.batches)
+    head = ("Quantity",) + tuple(f"{b}: mean ± 95 % (n)" for b in c.batches)
     means = []
     for q in c.quantities:
         unit = f" ({q.unit})" if q.unit else ""
         means.append((q.label[:1].upper() + q.label[1:] + unit,) + tuple(
-            "–" if b not in q.summaries else f"{q.summaries[b].n}: {mean_text(q, b)}"
+            "–" if b not in q.summaries else f"{mean_text(q, b)} ({q.summaries[b].n})"
             for b in c.batches))
     return ("<section><h2>Batches</h2>" + grid(("Batch", "Sections"), rows)
             + "<h3>Batch means</h3>" + grid(head, means)
@@ -582,11 +582,11 @@ def _html_specs(c: Comparison) -> str:
     for r in c.specs:
         label, unit, scale = column_words(r.spec.key)
         for b, (mean, half, verdict) in r.batches.items():
-            rows.append((r.spec.text, b, with_uncertainty(mean, half, scale)
-                         + (f" {unit}" if unit else ""), verdict))
+            rows.append((r.spec.text, b, with_unit(with_uncertainty(mean, half, scale), unit),
+                         verdict))
         for name, (b, value, ok) in r.sections.items():
-            secs.append((r.spec.text, b, name, number(value * scale)
-                         + (f" {unit}" if unit else ""), "pass" if ok else "FAIL"))
+            secs.append((r.spec.text, b, name, with_unit(number(value * scale), unit),
+                         "pass" if ok else "FAIL"))
     return ("<section><h2>Specification limits</h2>"
             + grid(("Limit", "Batch", "Mean ± 95 %", "Verdict"), rows)
             + '<p class="note">pass: the whole 95 % interval of the batch mean meets the limit; '

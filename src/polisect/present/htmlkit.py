@@ -117,9 +117,13 @@ _NUMERIC = re.compile(r"^(<[^>]*>)*[-+−–±0-9.]")
 
 
 def _cell(text: str) -> str:
-    """A body cell: numbers right-aligned (the default), words left-aligned."""
-    return f"<td>{text}</td>" if _NUMERIC.match(text) or not text else \
-        f'<td class="txt">{text}</td>'
+    """A body cell: numbers right-aligned (the default), words left-aligned; a list or range
+    of numbers (``a / b / c``, ``a – b``) may wrap at its separators in a narrow frame."""
+    if text and not _NUMERIC.match(text):
+        return f'<td class="txt">{text}</td>'
+    if " / " in text or " – " in text:
+        return f'<td class="wrap">{text}</td>'
+    return f"<td>{text}</td>"
 
 
 def new_axes(figsize: tuple[float, float], nrows: int = 1, ncols: int = 1, **kwargs):
@@ -151,13 +155,13 @@ h3{font-size:1rem;margin:14px 0 6px}
 table{border-collapse:collapse;font-size:.92rem;margin:6px 0}
 .kv th{text-align:left;padding:3px 14px 3px 0;color:#4a5560;font-weight:500;vertical-align:top}
 .kv td{padding:3px 0;overflow-wrap:anywhere}
-.grid th,.grid td{border-bottom:1px solid #e6e3da;padding:4px 10px;text-align:right}
+.grid th,.grid td{border-bottom:1px solid #e6e3da;padding:4px 7px;text-align:right}
 .grid th:first-child,.grid td:first-child{text-align:left}
 .grid thead th{background:#eef1ee}
 .figs{display:flex;flex-wrap:wrap;gap:16px}
 figure{margin:0}
 figure{max-width:100%}
-figure img{max-width:480px;width:100%;border:1px solid #dedbd2}
+figure img{max-width:480px;width:100%;border:1px solid #dedbd2;box-sizing:border-box}
 figure.wide{width:100%}
 figure.wide img{max-width:100%;width:auto}
 section{min-width:0}
@@ -166,6 +170,7 @@ section{min-width:0}
 .grid td{white-space:nowrap}
 .grid td:first-child{white-space:normal;min-width:8em}
 .grid td.txt,.grid th.txt{text-align:left;white-space:normal}
+.grid td.wrap{white-space:normal;min-width:4.5em}
 .matrix td:first-child{min-width:0;text-align:right}
 .sig{font-size:.75rem;background:#fdecea;color:#8a2a1d;border-radius:3px;padding:1px 6px;
 font-weight:500}

@@ -205,8 +205,18 @@ def show(value, kind: str, digits: int = DIGITS) -> str:
     """
     if value is None:
         return "–"
-    unit = unit_text(kind)
-    text = number(value * scale_of(kind), digits)
+    return with_unit(number(value * scale_of(kind), digits), unit_text(kind))
+
+
+def with_unit(text: str, unit: str) -> str:
+    """A formatted number and its unit: ``7.2 × 10⁻⁶/K`` for a power-of-ten unit, else
+    ``7.2 GPa`` (the number alone when the unit is empty).
+
+    Examples
+    --------
+    >>> with_unit("5.6", "10⁻⁶/K"), with_unit("12", "GPa"), with_unit("0.2", "")
+    ('5.6 × 10⁻⁶/K', '12 GPa', '0.2')
+    """
     if not unit:
         return text
     return f"{text} × {unit}" if unit.startswith("10") else f"{text} {unit}"
