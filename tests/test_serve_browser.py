@@ -271,7 +271,8 @@ def test_report_at_1280_px_fits_its_cards(browser, tmp_path):
                      resolution=(1e4 / 2.0, 1e4 / 2.0), resolutionunit="CENTIMETER")
     _, paths = run_section(str(cut), load_config(os.path.join(samples, "castable.toml")),
                            str(tmp_path / "out"))
-    text = open(paths.report, encoding="utf-8").read()
+    with open(paths.report, encoding="utf-8") as f:
+        text = f.read()
     for words in ("Materials used", "Second solver: not run", "Grey-level histogram",
                   "Mori–Tanaka", "inside particles", "Content-Security-Policy"):
         assert words in text, words
@@ -292,7 +293,8 @@ def test_comparison_and_batch_index_at_1280_px_fit(browser, tmp_path):
             sections.append(Section(f"{batch}/section_{i:02d}.tif", batch, {
                 "fraction_pore": pore + rng.normal(0, 0.005),
                 "fraction_mullite": 0.65 + rng.normal(0, 0.01),
-                "fraction_alumina": 0.35 - pore + rng.normal(0, 0.01), "conductivity_W_mK": k + rng.normal(0, 0.03),
+                "fraction_alumina": 0.35 - pore + rng.normal(0, 0.01),
+                "conductivity_W_mK": k + rng.normal(0, 0.03),
                 "youngs_modulus_GPa": 90 + rng.normal(0, 2), "poisson_ratio": 0.25,
                 "bulk_modulus_GPa": 60 + rng.normal(0, 1.5),
                 "shear_modulus_GPa": 36 + rng.normal(0, 1),

@@ -785,8 +785,8 @@ def index_html(manifest: dict, rows: list[dict], failures: list[dict]) -> str:
                 CAUTION_MANY_SECTION + '<section><p><a href="summary.csv">summary.csv</a> · '
                 '<a href="failures.csv">failures.csv</a> · <a href="manifest.json">'
                 "manifest.json</a> · compare the batches with <code>polisect compare "
-                "THIS_FOLDER</code></p><p class=\"note\">Numbers in the units shown in each heading "
-                "(expansion in 10⁻⁶/K; summary.csv keeps SI units, named in its column "
+                "THIS_FOLDER</code></p><p class=\"note\">Numbers in the units shown in each "
+                "heading (expansion in 10⁻⁶/K; summary.csv keeps SI units, named in its column "
                 "headers).</p></section>" + "".join(parts))
 
 

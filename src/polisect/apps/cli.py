@@ -227,27 +227,30 @@ def _summary(result, paths) -> None:
 def _summary_model(eff, prefix: str) -> list[str]:
     """Lines for one model's effective properties, with the 95 % interval over the
     realizations of a 3D estimate."""
+    from ..present.units import number, scale_of, unit_text, with_unit
     from ..properties.records import Spread, value_of
 
     if eff is None:
         return []
 
-    def show(x, scale=1.0):
-        value = f"{value_of(x) * scale:#.4g}"
+    def show(x, kind):
+        sc = scale_of(kind)
+        value = number(value_of(x) * sc)
         if isinstance(x, Spread) and x.ci95:
-            value += f" (95 % {x.ci95[0] * scale:#.4g}–{x.ci95[1] * scale:#.4g})"
-        return value
+            value += f" (95 % {number(x.ci95[0] * sc)}–{number(x.ci95[1] * sc)})"
+        return with_unit(value, unit_text(kind))
 
     lines = []
     if eff.conductivity:
-        lines.append(f"  {prefix + 'conductivity':<17} {show(eff.conductivity.mean)} W/(m·K)")
+        k = show(eff.conductivity.mean, "conductivity")
+        lines.append(f"  {prefix + 'conductivity':<17} {k}")
     if eff.elasticity:
         el = eff.elasticity
         label = prefix + "Young's modulus"
-        lines.append(f"  {label:<17} {show(el.youngs_modulus)} GPa, "
+        lines.append(f"  {label:<17} {show(el.youngs_modulus, 'modulus')}, "
                      f"Poisson's ratio {value_of(el.poisson_ratio):.3f}")
     if eff.expansion:
-        lines.append(f"  {prefix + 'expansion':<17} {show(eff.expansion.mean, 1e6)} ×10⁻⁶/K")
+        lines.append(f"  {prefix + 'expansion':<17} {show(eff.expansion.mean, 'expansion')}")
     if lines:
         lines.append(f"  ({eff.model})")
     return lines

@@ -478,21 +478,21 @@ class SpecResult:
 
     ``batches``: batch → (mean, 95 % half-width or None, verdict) with the verdict
     ``"pass"`` (the whole interval meets the limit), ``"fail"`` (the mean does not) or
-    ``"marginal"`` (the mean meets it, the interval crosses it); ``sections``: section →
-    (batch, value, passed).
+    ``"marginal"`` (the mean meets it, the interval crosses it); ``sections``: one
+    (section, batch, value, passed) per section (names may repeat across batches).
     """
 
     spec: Spec
     batches: dict
-    sections: dict
+    sections: tuple
 
     def to_dict(self) -> dict:
         return {"spec": self.spec.text, "key": self.spec.key, "op": self.spec.op,
                 "limit": self.spec.limit,
                 "batches": {b: {"mean": json_number(m), "ci95": json_number(h),
                                 "verdict": v} for b, (m, h, v) in self.batches.items()},
-                "sections": {s: {"batch": b, "value": json_number(v), "passed": ok}
-                             for s, (b, v, ok) in self.sections.items()}}
+                "sections": [{"section": s, "batch": b, "value": json_number(v), "passed": ok}
+                             for s, b, v, ok in self.sections]}
 
 
 def check_spec(spec: Spec, sections, summaries: dict) -> SpecResult:
@@ -508,8 +508,8 @@ def check_spec(spec: Spec, sections, summaries: dict) -> SpecResult:
         else:
             verdict = "pass"
         batches[b] = (s.mean, half, verdict)
-    rows = {x.name: (x.batch, x.values[spec.key], spec.passes(x.values[spec.key]))
-            for x in sections if _finite(x.values.get(spec.key))}
+    rows = tuple((x.name, x.batch, x.values[spec.key], spec.passes(x.values[spec.key]))
+                 for x in sections if _finite(x.values.get(spec.key)))
     return SpecResult(spec, batches, rows)
 
 
@@ -552,7 +552,7 @@ def spec_lines(c: Comparison) -> list[str]:
     lines = []
     for r in c.specs:
         verdicts = ", ".join(f"{b} {v.upper()}" for b, (_, _, v) in r.batches.items())
-        failed = [s for s, (_, _, ok) in r.sections.items() if not ok]
+        failed = [f"{b}: {s}" for s, b, _, ok in r.sections if not ok]
         passed = len(r.sections) - len(failed)
         lines.append(f"spec {r.spec.text}: {verdicts}; sections {passed} of "
                      f"{len(r.sections)} pass" + (f" (fail: {', '.join(failed)})"
@@ -580,11 +580,11 @@ def _html_specs(c: Comparison) -> str:
         return ""
     rows, secs = [], []
     for r in c.specs:
-        label, unit, scale = column_words(r.spec.key)
+        _, unit, scale = column_words(r.spec.key)
         for b, (mean, half, verdict) in r.batches.items():
             rows.append((r.spec.text, b, with_unit(with_uncertainty(mean, half, scale), unit),
                          verdict))
-        for name, (b, value, ok) in r.sections.items():
+        for name, b, value, ok in r.sections:
             secs.append((r.spec.text, b, name, with_unit(number(value * scale), unit),
                          "pass" if ok else "FAIL"))
     return ("<section><h2>Specification limits</h2>"
@@ -668,7 +668,8 @@ def _plot(q: QuantityComparison, c: Comparison) -> str:
             ax.scatter(xs[bad], ys[bad], s=80, facecolors="none", edgecolors="#c8553d",
                        linewidths=1.5, zorder=4, label="Grubbs outlier")
         if s.n >= 2:
-            ax.errorbar(i + 0.32, s.mean * q.scale, yerr=s.ci95 * q.scale, fmt="s", color="#1d232b", capsize=4,
+            ax.errorbar(i + 0.32, s.mean * q.scale, yerr=s.ci95 * q.scale, fmt="s",
+                        color="#1d232b", capsize=4,
                         markersize=5, zorder=5)
     ax.set_xticks(range(len(q.summaries)), list(q.summaries))
     ax.set_xlim(-0.6, len(q.summaries) - 0.4)

@@ -192,7 +192,7 @@ def _verify(phasemap: PhaseMap, cfg: Config, effective: Effective, say: Progress
     props = tuple(p for p in cfg.solve.properties if getattr(effective, p) is not None)
     first = getattr(effective, props[0]).solver.method
     second = "fft" if first == "fe" else "fe"
-    kw = dict(tol=cfg.solve.tolerance, plane=cfg.solve.plane, maps=False)
+    kw = {"tol": cfg.solve.tolerance, "plane": cfg.solve.plane, "maps": False}
     tick = time.perf_counter()
     crop = None
     if phasemap.labels.size > VERIFY_MAX_CELLS[phasemap.ndim]:

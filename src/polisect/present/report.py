@@ -156,8 +156,9 @@ def _fractions(analysis, r, colors) -> str:
                       "particles.")
     return ("<section><h2>Phase fractions</h2>" + grid(head, rows, raw=True)
             + f"<p class=\"note\">Area fraction estimates volume fraction (Delesse, 1847). "
-            f"Interval from the field-to-field variation over {n} fields with Student t and n − 1 "
-            f"degrees of freedom, as ASTM E562 does for point counts.{split_note}</p></section>")
+            f"Interval from the field-to-field variation over {n} fields with Student t and "
+            f"n − 1 degrees of freedom, as ASTM E562 does for point counts.{split_note}</p>"
+            "</section>")
 
 
 def _value_origin(material) -> str:
