@@ -503,7 +503,10 @@ def _run_compare(args) -> int:
         lines.append("findings (fractions in percentage points, other quantities in % of the "
                      "first batch; ± = 95 % interval), significant first:")
         for q in comparison.grouped():
-            mark = "significant" if q.significant else "no significant difference"
+            mark = ("differs between batches" if q.significant
+                    else "no significant difference between batches")
+            if q.outliers:
+                mark += f", {len(q.outliers)} outlier section(s)"
             lines.append(f"  {q.label} — {mark}")
             lines += [f"    {s}" for s in q.sentences]
     lines.append(f"page: {os.path.abspath(args.out)}")

@@ -202,7 +202,8 @@ class QuantityComparison:
     sentences : tuple of str
         The findings in plain words, significant ones first.
     significant : bool
-        A difference between batches, or an outlier, at the significance level.
+        A difference between batches at the significance level (outliers are in
+        ``outliers``).
     scale : float
         Factor from the stored value to the unit shown (`unit`; expansion 10⁻⁶/K).
     """
@@ -261,9 +262,10 @@ class Comparison:
         return [s for q in self.grouped() for s in q.sentences]
 
     def grouped(self) -> list[QuantityComparison]:
-        """The quantities with findings, significant ones first (stable otherwise)."""
+        """The quantities with findings: those that differ significantly between batches
+        first, then those with an outlier section, then the rest (stable otherwise)."""
         with_findings = [q for q in self.quantities if q.sentences]
-        return sorted(with_findings, key=lambda q: not q.significant)
+        return sorted(with_findings, key=lambda q: (not q.significant, not q.outliers))
 
 
 def compare(sections, quantities=None, alpha: float = ALPHA, specs=()) -> Comparison:
@@ -350,7 +352,7 @@ def _compare_quantity(sections, batches, key, alpha) -> QuantityComparison:
                                  f"α = {alpha})")
     testable = [b for b, v in values.items() if v.size >= 2]
     tests, diffs = [], []
-    significant = bool(outliers)
+    significant = False
     first, later = sentences, []
     if len(testable) >= 2:
         groups = [values[b] for b in testable]
@@ -602,16 +604,18 @@ def _html_findings(c: Comparison) -> str:
         return ""
     parts = []
     for q in groups:
-        tag = (' <span class="sig">significant</span>' if q.significant
+        tag = (' <span class="sig">differs between batches</span>' if q.significant
                else ' <span class="nsig">no significant difference</span>')
+        if q.outliers:
+            tag += f' <span class="nsig">{len(q.outliers)} outlier section(s)</span>'
         items = "".join(f"<li>{html.escape(x)}</li>" for x in q.sentences)
         parts.append(f"<h3>{html.escape(q.label[:1].upper() + q.label[1:])}{tag}</h3>"
                      f"<ul>{items}</ul>")
     return ("<section><h2>Findings</h2>" + "".join(parts)
-            + '<p class="note">Grouped by quantity, significant ones first (α = '
-            f"{c.alpha}). Fractions differ in percentage points, other quantities in per cent "
-            "of the first batch's mean (relative); ± is the 95 % interval of the "
-            "difference.</p></section>")
+            + '<p class="note">Grouped by quantity: significant differences between batches '
+            f"first, then quantities with an outlier section (α = {c.alpha}). Fractions "
+            "differ in percentage points, other quantities in per cent of the first batch's "
+            "mean (relative); ± is the 95 % interval of the difference.</p></section>")
 
 
 def _html_outliers(c: Comparison) -> str:
