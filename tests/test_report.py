@@ -44,9 +44,10 @@ def test_uncertainty_sets_the_digits():
 
 def test_expansion_is_shown_in_ppm_per_kelvin():
     """Expansion reads in 10⁻⁶/K wherever a person reads it (stored in 1/K) — DESIGN.md."""
-    assert show(7.1e-6, "expansion") == "7.1 × 10⁻⁶/K"
+    assert show(7.1e-6, "expansion") == "7.100 × 10⁻⁶/K"
+    assert show(7.1e-6, "expansion", trim=True) == "7.1 × 10⁻⁶/K"
     assert with_unit("5.6", "10⁻⁶/K") == "5.6 × 10⁻⁶/K"
-    assert show(33.0, "conductivity") == "33 W/(m·K)"
+    assert show(33.0, "conductivity", trim=True) == "33 W/(m·K)"
 
 
 def test_tensor_noise_is_zero_and_one_resolution_per_tensor():

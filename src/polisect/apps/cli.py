@@ -235,9 +235,10 @@ def _summary_model(eff, prefix: str) -> list[str]:
 
     def show(x, kind):
         sc = scale_of(kind)
-        value = number(value_of(x) * sc)
+        value = number(value_of(x) * sc, trim=False)
         if isinstance(x, Spread) and x.ci95:
-            value += f" (95 % {number(x.ci95[0] * sc)}–{number(x.ci95[1] * sc)})"
+            value += (f" (95 % {number(x.ci95[0] * sc, trim=False)}–"
+                      f"{number(x.ci95[1] * sc, trim=False)})")
         return with_unit(value, unit_text(kind))
 
     lines = []

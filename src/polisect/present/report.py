@@ -411,7 +411,7 @@ def _bound_cell(bound, side: str, key: str, kind: str) -> str:
     value = getattr(bound, side)
     if value is None:
         return "–"
-    return number(value * scale_of(kind))
+    return number(value * scale_of(kind), trim=False)
 
 
 def _schemes_table(table, computed, title, computed_label):
@@ -419,7 +419,7 @@ def _schemes_table(table, computed, title, computed_label):
     rows = []
 
     def cell(value, kind):
-        return "–" if value is None else number(value * scale_of(kind))
+        return "–" if value is None else number(value * scale_of(kind), trim=False)
 
     if computed:
         rows.append((f"<strong>{html.escape(computed_label)}</strong>",) + tuple(
@@ -504,7 +504,7 @@ def _property_rows(eff) -> list[tuple[str, str, str]]:
     if e:
         rows += [("Young's modulus", show(value_of(e.youngs_modulus), "modulus"),
                   f"isotropic part of the {plane}stiffness below"),
-                 ("Poisson's ratio", number(value_of(e.poisson_ratio), 3),
+                 ("Poisson's ratio", number(value_of(e.poisson_ratio), 3, trim=False),
                   f"isotropic part of the {plane}stiffness below")]
         if two_d:
             rows.append(("Bulk modulus, areal K_A", show(value_of(e.bulk_modulus), "modulus"),

@@ -23,7 +23,7 @@ Examples
 >>> with_uncertainty(0.20137, 0.0123)
 '0.201 ± 0.012'
 >>> show(7.2e-6, "expansion")
-'7.2 × 10⁻⁶/K'
+'7.200 × 10⁻⁶/K'
 >>> tensor_cells([[100.0, 0.005822], [0.005822, 80.0]], digits=4)
 [['100.0', '0'], ['0', '80.0']]
 """
@@ -141,15 +141,19 @@ def _decimals_for(value: float, digits: int) -> int:
     return max(0, digits - 1 - int(math.floor(math.log10(abs(value)))))
 
 
-def number(value, digits: int = DIGITS) -> str:
+def number(value, digits: int = DIGITS, trim: bool = True) -> str:
     """*value* to *digits* significant digits, plain decimals between 10⁻³ and 10⁶.
 
-    None and non-finite values show as an en dash.
+    None and non-finite values show as an en dash. *trim* drops trailing zeros (values as
+    given, e.g. a material's 33 W/(m·K)); ``trim=False`` keeps them, so a computed value
+    shows all its digits (192.0, not 192).
 
     Examples
     --------
     >>> number(1.0), number(75.3149), number(-0.00012345), number(None)
     ('1', '75.31', '-1.234 × 10⁻⁴', '–')
+    >>> number(191.97, trim=False), number(191.97)
+    ('192.0', '192')
     """
     if value is None or isinstance(value, bool):
         return "–"
@@ -164,11 +168,13 @@ def number(value, digits: int = DIGITS) -> str:
     magnitude = abs(rounded)
     if 1e-3 <= magnitude < 1e6:
         text = f"{rounded:.{_decimals_for(rounded, digits)}f}"
-        if "." in text:
+        if "." in text and trim:
             text = text.rstrip("0").rstrip(".")
         return _group(text)
     exponent = int(math.floor(math.log10(magnitude)))
-    mantissa = f"{rounded / 10 ** exponent:.{digits - 1}f}".rstrip("0").rstrip(".")
+    mantissa = f"{rounded / 10 ** exponent:.{digits - 1}f}"
+    if trim:
+        mantissa = mantissa.rstrip("0").rstrip(".")
     return f"{mantissa} × {_power(exponent)}"
 
 
@@ -194,18 +200,18 @@ def with_uncertainty(value, half_width, scale: float = 1.0) -> str:
     return f"{_group(f'{v:.{place}f}')} ± {u:.{place}f}"
 
 
-def show(value, kind: str, digits: int = DIGITS) -> str:
+def show(value, kind: str, digits: int = DIGITS, trim: bool = False) -> str:
     """A stored (SI) value with the unit people read (expansion 7.2e-6 1/K →
-    ``7.2 × 10⁻⁶/K``).
+    ``7.200 × 10⁻⁶/K``); all *digits* shown unless *trim* (a computed value).
 
     Examples
     --------
     >>> show(18.04, "conductivity"), show(0.21, "poisson"), show(None, "modulus")
-    ('18.04 W/(m·K)', '0.21', '–')
+    ('18.04 W/(m·K)', '0.2100', '–')
     """
     if value is None:
         return "–"
-    return with_unit(number(value * scale_of(kind), digits), unit_text(kind))
+    return with_unit(number(value * scale_of(kind), digits, trim), unit_text(kind))
 
 
 def with_unit(text: str, unit: str) -> str:
