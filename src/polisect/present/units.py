@@ -171,8 +171,8 @@ def number(value, digits: int = DIGITS, trim: bool = True) -> str:
         if "." in text and trim:
             text = text.rstrip("0").rstrip(".")
         return _group(text)
-    exponent = int(math.floor(math.log10(magnitude)))
-    mantissa = f"{rounded / 10 ** exponent:.{digits - 1}f}"
+    mantissa, _, power = f"{v:.{digits - 1}e}".partition("e")
+    exponent = int(power)
     if trim:
         mantissa = mantissa.rstrip("0").rstrip(".")
     return f"{mantissa} × {_power(exponent)}"
