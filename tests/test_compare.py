@@ -108,5 +108,78 @@ def test_cli_compare(tmp_path, capsys):
     d = json.loads(out.out)
     assert d["batches"] == {"A": ["s0.json", "s1.json", "s2.json"],
                             "B": ["s0.json", "s1.json", "s2.json"]}
-    assert "batch B's conductivity is" in out.err and "higher than batch A's" in out.err
+    assert "batch B's conductivity is" in out.err and "higher (relative) than batch A's" in out.err
     assert main(["compare", str(tmp_path / "missing")]) == 2
+
+
+def _lots():
+    rng = np.random.default_rng(7)
+    out = []
+    for batch, pore, k in (("A", 0.20, 1.90), ("B", 0.24, 1.70), ("C", 0.201, 1.91)):
+        for i in range(5):
+            out.append(Section(f"{batch}/s{i}.tif", batch, {
+                "fraction_pore": pore + rng.normal(0, 0.004),
+                "conductivity_W_mK": k + rng.normal(0, 0.02),
+                "expansion_per_K": 5.6e-6 + rng.normal(0, 2e-8)}))
+    return out
+
+
+def test_differences_in_points_and_per_cent_significant_first():
+    """Fractions differ in percentage points, properties in per cent of the first batch
+    (relative); ± is the 95 % Welch interval; quantities with a significant finding come
+    first (issue 18). Welch (1947), Holm (1979)."""
+    c = compare(_lots())
+    order = [q.key for q in c.grouped()]
+    assert order.index("expansion_per_K") > max(order.index("fraction_pore"),
+                                                order.index("conductivity_W_mK"))
+    pore = next(q for q in c.quantities if q.key == "fraction_pore")
+    assert pore.significant
+    b = next(s for s in pore.sentences if s.startswith("batch B's"))
+    mean_a = np.mean([s.values["fraction_pore"] for s in _lots() if s.batch == "A"])
+    mean_b = np.mean([s.values["fraction_pore"] for s in _lots() if s.batch == "B"])
+    shown = float(b.split(" is ")[1].split(" ±")[0])
+    assert "percentage points higher" in b and shown == pytest.approx((mean_b - mean_a) * 100,
+                                                                      abs=0.06)
+    k = next(q for q in c.quantities if q.key == "conductivity_W_mK")
+    assert any("% lower (relative)" in s and "W/(m·K)" in s for s in k.sentences)
+    x = next(q for q in c.quantities if q.key == "expansion_per_K")
+    assert x.unit == "10⁻⁶/K" and x.scale == 1e6
+
+
+def test_specification_limits_per_batch_and_section(tmp_path, capsys):
+    """--spec 'porosity<=0.22' --spec 'k>=1.8': pass, marginal or fail per batch (the whole
+    95 % interval, the mean), pass/fail per section; JSON, console and page (issue 18) —
+    common practice (no source)."""
+    c = compare(_lots(), specs=["porosity<=0.22", "k>=1.8", "alpha<=5.7"])
+    pore, k, alpha = c.specs
+    assert pore.spec.key == "fraction_pore" and alpha.spec.limit == pytest.approx(5.7e-6)
+    assert pore.batches["A"][2] == "pass" and pore.batches["B"][2] == "fail"
+    assert k.batches["B"][2] == "fail" and k.batches["C"][2] == "pass"
+    assert all(not ok for _, b, _, ok in k.sections if b == "B")
+    page = html_comparison(c)
+    assert "Specification limits" in page and "marginal" in page or "pass" in page
+    with pytest.raises(InputError, match="not a quantity"):
+        compare(_lots(), specs=["hardness>=3"])
+    with pytest.raises(InputError, match="NAME<=LIMIT"):
+        compare(_lots(), specs=["porosity about 0.2"])
+    for folder, pore_f, cond in (("A", 0.2, 1.9), ("B", 0.25, 1.6)):
+        (tmp_path / folder).mkdir()
+        for i in range(3):
+            _write_result(tmp_path / folder / f"s{i}.json", f"s{i}.tif", pore_f + 0.001 * i,
+                          cond + 0.01 * i)
+    code = main(["compare", str(tmp_path / "A"), str(tmp_path / "B"), "--out",
+                 str(tmp_path / "c.html"), "--spec", "SiC<=0.22", "--spec", "k>=1.8"])
+    err = capsys.readouterr().err
+    assert code == 0
+    assert "batch means (± = 95 % interval of the mean):" in err
+    assert "spec SiC<=0.22: A PASS, B FAIL; sections 3 of 6 pass" in err
+    assert "spec k>=1.8: A PASS, B FAIL" in err
+
+
+def test_outliers_are_listed_on_the_page():
+    """Grubbs' outliers have their own table on the page (Grubbs 1969)."""
+    secs = _lots()
+    secs[2] = Section("A/s2.tif", "A", {**secs[2].values, "conductivity_W_mK": 2.6})
+    page = html_comparison(compare(secs))
+    table = page.split("<h2>Outliers</h2>")[1].split("</section>")[0]
+    assert "A/s2.tif" in table and "2.6" in table

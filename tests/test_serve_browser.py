@@ -201,3 +201,148 @@ def test_damaged_file_shows_its_message_and_the_page_stays_usable(page, site):
     page.wait_for_selector("#step-map:not([hidden])")
     assert message.is_hidden()
     assert page.locator("#f-name").inner_text() == os.path.basename(image)
+
+
+# ------------------------------------------------------------ screens at 1280 px (issue 18)
+
+OVERFLOW_JS = """() => {
+    const out = [];
+    const docW = document.documentElement.scrollWidth, winW = window.innerWidth;
+    if (docW > winW + 1) out.push(`page ${docW} px wide in a ${winW} px window`);
+    for (const t of document.querySelectorAll('table')) {
+        if (t.closest('details:not([open])')) continue;
+        const box = (t.parentElement || document.body).getBoundingClientRect();
+        const r = t.getBoundingClientRect();
+        if (r.right > box.right + 1) out.push(`table ${t.className}#${t.id} in ${t.parentElement.tagName}.${t.parentElement.className} ("${t.innerText.slice(0, 30)}"): ${Math.round(r.width)} px in ${Math.round(box.width)} px`);
+    }
+    for (const c of document.querySelectorAll('section, .card, figure')) {
+        if (c.scrollWidth > c.clientWidth + 1) out.push(`card ${c.tagName}.${c.className} ${c.scrollWidth} > ${c.clientWidth}`);
+        const host = c.parentElement.getBoundingClientRect(), r = c.getBoundingClientRect();
+        if (r.right > host.right + 1) out.push(`card ${c.tagName}.${c.className} sticks out by ${Math.round(r.right - host.right)} px`);
+    }
+    return out;
+}"""
+"""Every table inside its container, every card inside its parent, nothing wider than the
+window (common practice, no source: a filed page must print and read without sideways
+scrolling)."""
+
+
+def _screen(browser, url, path):
+    """Open *url* at 1280 × 900, save a full-page screenshot, return the overflow list."""
+    context = browser.new_context(viewport={"width": 1280, "height": 900})
+    pg = context.new_page()
+    pg.goto(url)
+    pg.screenshot(path=str(path), full_page=True)
+    _keep(path)
+    problems = pg.evaluate(OVERFLOW_JS)
+    context.close()
+    return problems
+
+
+def _keep(path):
+    """Copy a screenshot to $POLISECT_SCREENS (to look at it), when set."""
+    folder = os.environ.get("POLISECT_SCREENS")
+    if folder:
+        import shutil
+
+        os.makedirs(folder, exist_ok=True)
+        shutil.copy(path, os.path.join(folder, os.path.basename(str(path))))
+
+
+@pytest.fixture
+def browser(site):
+    """The module's Chromium (one Playwright per process)."""
+    return site[0]
+
+
+def test_report_at_1280_px_fits_its_cards(browser, tmp_path):
+    """The report of a hollow-sphere castable section (every section of the report: images
+    with scale bars, histogram, materials, properties, schemes, particles) has no table or
+    card wider than its place at 1280 px — common practice (no source). The second solver
+    did not run, and the report says so."""
+    import tifffile
+
+    from polisect.apps.run import run_section
+    from polisect.read.config import load_config
+
+    samples = os.path.join(os.path.dirname(__file__), os.pardir, "sample_images")
+    cut = tmp_path / "castable_cut.tif"
+    tifffile.imwrite(cut, tifffile.imread(os.path.join(samples, "castable_b1_s1.tif"))[:200, :200],
+                     resolution=(1e4 / 2.0, 1e4 / 2.0), resolutionunit="CENTIMETER")
+    _, paths = run_section(str(cut), load_config(os.path.join(samples, "castable.toml")),
+                           str(tmp_path / "out"))
+    with open(paths.report, encoding="utf-8") as f:
+        text = f.read()
+    for words in ("Materials used", "Second solver: not run", "Grey-level histogram",
+                  "Mori–Tanaka", "inside particles", "Content-Security-Policy"):
+        assert words in text, words
+    assert _screen(browser, f"file://{paths.report}", tmp_path / "report_1280.png") == []
+
+
+def test_comparison_and_batch_index_at_1280_px_fit(browser, tmp_path):
+    """A comparison page of three batches with limits and an outlier, and a batch index,
+    fit at 1280 px — common practice (no source)."""
+    from polisect.apps.batch import index_html
+    from polisect.apps.compare import Section, compare, html_comparison
+
+    rng = np.random.default_rng(3)
+    sections = []
+    for batch, k, pore in (("lot-2026-041", 1.9, 0.20), ("lot-2026-052", 1.7, 0.23),
+                           ("lot-2026-060", 1.95, 0.19)):
+        for i in range(5):
+            sections.append(Section(f"{batch}/section_{i:02d}.tif", batch, {
+                "fraction_pore": pore + rng.normal(0, 0.005),
+                "fraction_mullite": 0.65 + rng.normal(0, 0.01),
+                "fraction_alumina": 0.35 - pore + rng.normal(0, 0.01),
+                "conductivity_W_mK": k + rng.normal(0, 0.03),
+                "youngs_modulus_GPa": 90 + rng.normal(0, 2), "poisson_ratio": 0.25,
+                "bulk_modulus_GPa": 60 + rng.normal(0, 1.5),
+                "shear_modulus_GPa": 36 + rng.normal(0, 1),
+                "expansion_per_K": 5.6e-6 + rng.normal(0, 5e-8)}))
+    sections[3] = Section(sections[3].name, sections[3].batch,
+                          {**sections[3].values, "conductivity_W_mK": 2.6})
+    c = compare(sections, specs=["porosity<=0.22", "k>=1.8"])
+    page_path = tmp_path / "comparison.html"
+    page_path.write_text(html_comparison(c), encoding="utf-8")
+    text = page_path.read_text(encoding="utf-8")
+    assert "Outliers" in text and sections[3].name in text and "Specification limits" in text
+    assert _screen(browser, f"file://{page_path}", tmp_path / "comparison_1280.png") == []
+
+    rows = [{"image": s.name, "batch": s.batch, **s.values} for s in sections]
+    manifest = {"folder": "/data/<kestrel>", "pattern": "*.tif",
+                "entries": {s.name: {"outputs": {"json": s.name + ".json",
+                                                 "report": s.name + "_report.html"}}
+                            for s in sections}}
+    index = tmp_path / "index.html"
+    index.write_text(index_html(manifest, rows, []), encoding="utf-8")
+    assert "&lt;kestrel&gt;" in index.read_text(encoding="utf-8")
+    assert _screen(browser, f"file://{index}", tmp_path / "batch_index_1280.png") == []
+
+
+def test_page_with_second_solver_at_1280_px(page, site):
+    """The page runs with the second-solver box ticked; the embedded report says the check
+    ran and fills its frame; neither the page nor the report overflows at 1280 px — common
+    practice (no source)."""
+    _, _, tmp = site
+    _drop(page, _demo_image(str(tmp)))
+    page.wait_for_selector("#step-map:not([hidden])")
+    for label, typed in ((0, "air"), (1, "silicon"), (2, "aluminium")):
+        _pick_material(page, label, typed)
+    for box in page.locator("#props input").all():
+        if box.get_attribute("value") != "conductivity":
+            box.uncheck()
+    page.check("#verify")
+    page.click("#run")
+    page.wait_for_selector("#result:not([hidden])", timeout=120000)
+    frame = page.frame_locator("#report")
+    frame.locator("h1").wait_for()
+    assert "largest relative difference" in frame.locator("body").inner_text().lower()
+    shot = os.path.join(str(tmp), "page_1280.png")
+    page.screenshot(path=shot, full_page=True)
+    _keep(shot)
+    assert page.evaluate(OVERFLOW_JS) == []
+    inner = page.frame(name=None, url=lambda u: "report" in u) or page.frames[-1]
+    assert inner.evaluate(OVERFLOW_JS) == []
+    frame_w = page.locator("#report").bounding_box()["width"]
+    main_w = inner.evaluate("document.querySelector('main').getBoundingClientRect().width")
+    assert main_w >= 0.9 * (frame_w - 20)

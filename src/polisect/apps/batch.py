@@ -53,11 +53,11 @@ from .. import __version__
 from ..core.atomic import atomic_write_text
 from ..read.config import Config, config_from_dict
 from ..core.errors import InputError
-from ..present.htmlkit import CAUTION_SECTION, page
-from ..core.quantities import quantity_keys, quantity_label
+from ..present.htmlkit import CAUTION_MANY_SECTION, grid, page
+from ..present.units import column_words, number
+from ..core.quantities import quantity_keys
 from ..present.record import csv_text, headline, read_result
 from .run import run_section
-from ..trust.sectionstats import sig
 from ..model3d.synth import rsa_discs
 
 MANIFEST = "manifest.json"
@@ -802,41 +802,55 @@ def write_tables(out: str, manifest: dict) -> tuple[str, str, str]:
 
 
 def index_html(manifest: dict, rows: list[dict], failures: list[dict]) -> str:
-    """The batch's index page: every section with its headline numbers and report link."""
+    """The batch's index page: every section with its headline numbers (in the units people
+    read, `polisect.present.units`), each batch's mean, and the report links."""
     entries = manifest["entries"]
     keys = list(dict.fromkeys(k for r in rows for k in quantity_keys(r)))
+    words = {k: column_words(k) for k in keys}
     head = "".join(f"<th>{html.escape(_column(k))}</th>" for k in keys)
     groups = list(dict.fromkeys(r["batch"] for r in rows))
     parts = []
     for g in groups:
         body = []
-        for r in (r for r in rows if r["batch"] == g):
+        members = [r for r in rows if r["batch"] == g]
+        for r in members:
             outs = entries[r["image"]]["outputs"]
             link = (f'<a href="{html.escape(outs["report"])}">{html.escape(r["image"])}</a>'
                     if outs.get("report") else html.escape(r["image"]))
-            cells = "".join(f"<td>{sig(r[k], 4) if isinstance(r.get(k), float) else '–'}</td>"
+            cells = "".join(f"<td>{number(r[k] * words[k][2])}</td>"
+                            if isinstance(r.get(k), (int, float)) else "<td>–</td>"
                             for k in keys)
-            body.append(f'<tr><td>{link}</td>{cells}<td><a href="{html.escape(outs["json"])}">'
-                        "json</a></td></tr>")
-        parts.append(f"<section><h2>Batch {html.escape(g)}</h2><table class=\"grid\"><thead>"
-                     f"<tr><th>Image</th>{head}<th></th></tr></thead><tbody>{''.join(body)}"
-                     "</tbody></table></section>")
+            body.append(f'<tr><td class="txt">{link}</td>{cells}<td><a href="'
+                        f'{html.escape(outs["json"])}">json</a></td></tr>')
+        if len(members) > 1:
+            means = []
+            for k in keys:
+                vals = [r[k] for r in members if isinstance(r.get(k), (int, float))]
+                means.append(f"<td><strong>{number(sum(vals) / len(vals) * words[k][2])}"
+                             "</strong></td>" if vals else "<td>–</td>")
+            body.append(f'<tr><td class="txt"><strong>mean of {len(members)}</strong></td>'
+                        f"{''.join(means)}<td></td></tr>")
+        parts.append(f"<section><h2>Batch {html.escape(g)}</h2><div class=\"tablewrap\">"
+                     f"<table class=\"grid\"><thead><tr><th>Image</th>{head}<th></th></tr>"
+                     f"</thead><tbody>{''.join(body)}</tbody></table></div></section>")
     if failures:
-        frows = "".join(f"<tr><td>{html.escape(f['image'])}</td><td>{html.escape(f['reason'])}"
-                        "</td></tr>" for f in failures)
-        parts.append('<section class="warn"><h2>Failed images</h2><table class="grid"><thead>'
-                     f"<tr><th>Image</th><th>Reason</th></tr></thead><tbody>{frows}</tbody>"
-                     "</table></section>")
+        parts.append('<section class="warn"><h2>Failed images</h2>'
+                     + grid(("Image", "Reason"), [(f["image"], f["reason"]) for f in failures])
+                     + "</section>")
     meta = (f"{len(rows)} done · {len(failures)} failed · folder "
             f"{html.escape(manifest['folder'])} · pattern {html.escape(manifest['pattern'])}")
     return page(f"Batch — {os.path.basename(manifest['folder'])}", meta,
-                CAUTION_SECTION + '<section><p><a href="summary.csv">summary.csv</a> · '
+                CAUTION_MANY_SECTION + '<section><p><a href="summary.csv">summary.csv</a> · '
                 '<a href="failures.csv">failures.csv</a> · <a href="manifest.json">'
-                "manifest.json</a></p></section>" + "".join(parts))
+                "manifest.json</a> · compare the batches with <code>polisect compare "
+                "THIS_FOLDER</code></p><p class=\"note\">Numbers in the units shown in each "
+                "heading (expansion in 10⁻⁶/K; summary.csv keeps SI units, named in its column "
+                "headers).</p></section>" + "".join(parts))
 
 
 def _column(key: str) -> str:
-    label, unit = quantity_label(key)
+    label, unit, _ = column_words(key)
+    label = label[:1].upper() + label[1:]
     return f"{label} ({unit})" if unit else label
 
 

@@ -61,7 +61,12 @@ def _add_analyze(sub):
     p.add_argument("--assign", help="materials per class, e.g. 0=air,1=alumina,2=zirconia")
     p.add_argument("--pixel-size", type=float, metavar="UM", help="pixel size in µm")
     p.add_argument("--kind", choices=("grayscale", "labels", "palette"), help="[image] kind")
-    p.add_argument("--quiet", action="store_true", help="no progress messages")
+    p.add_argument("--quiet", action="store_true",
+                   help="no progress messages while it runs; the result summary (fractions, "
+                        "properties, warnings, where the outputs are) is still printed")
+    p.add_argument("--verify", action="store_true",
+                   help="solve again with the second method (fe for fft) and state their "
+                        "largest relative difference ([solve] verify)")
     _add_window_options(p)
     _add_3d_options(p)
     p.set_defaults(run=_run_analyze)
@@ -100,7 +105,8 @@ def _with_3d_options(cfg, args):
                              "is not a folder (give a multi-page TIFF without --stack)")
         cfg = dataclasses.replace(cfg, image=dataclasses.replace(cfg.image, volume=True))
     given = {"estimate_3d": True if args.estimate_3d else None, "voxels": args.voxels,
-             "realizations": args.realizations}
+             "realizations": args.realizations,
+             "verify": True if getattr(args, "verify", False) else None}
     given = {k: v for k, v in given.items() if v is not None}
     if given:
         cfg = dataclasses.replace(cfg, solve=dataclasses.replace(cfg.solve, **given))
@@ -165,8 +171,7 @@ def _run_analyze(args) -> int:
             raise
         raise InputError(f"{args.image}: {exc}") from None
     _emit_json(args.json, to_json(analysis.result))
-    if not args.quiet:
-        _summary(analysis.result, paths)
+    _summary(analysis.result, paths)
     return EXIT_OK
 
 
@@ -181,12 +186,34 @@ def _config(args):
 
 
 def _summary(result, paths) -> None:
+    """The result in a few lines on stderr (printed with and without --quiet)."""
+    from ..present.figures import field_size
+    from ..present.units import number
+
     src = result.source
-    lines = [f"{src.path}: {' × '.join(map(str, src.shape))} px"]
+    lines = [f"{src.path}: {' × '.join(map(str, src.shape))} px, "
+             f"{field_size(src.shape, src.pixel_size_um)}"]
+    if src.cropped_bottom_px:
+        lines.append(f"  information band: {src.cropped_bottom_px} rows cut at the bottom "
+                     "before the analysis")
     for p in result.phases:
         lo, hi = p.fraction_ci95
         lines.append(f"  {p.name:<18} fraction {p.fraction:.4f}  (95 % {lo:.4f}–{hi:.4f})")
+        if p.inside_particles:
+            lines.append(f"  {'':<18}   of which {p.inside_particles:.4f} inside particles "
+                         f"(cores), {max(0.0, p.fraction - p.inside_particles):.4f} open")
     lines += _summary_model(result.effective, "")
+    if result.effective is None:
+        skipped = [n for n in result.notes if n.startswith("no materials assigned")]
+        if skipped:
+            lines.append("  properties: skipped, no materials assigned to the phases; give "
+                         "--assign LABEL=MATERIAL,... (e.g. --assign 0=air,1=alumina) or "
+                         "[[phase]] entries in --config")
+    v = result.verification
+    if v is not None:
+        where = "whole map" if v.crop is None else f"{' × '.join(map(str, v.crop))} crop"
+        lines.append(f"  second solver ({v.second_method} vs {v.method}, {where}): largest "
+                     f"relative difference {number(v.max_relative_difference, 2)}")
     if result.effective_3d:
         lines += _summary_model(result.effective_3d.effective, "3D ")
     for w in result.warnings:
@@ -201,27 +228,31 @@ def _summary(result, paths) -> None:
 def _summary_model(eff, prefix: str) -> list[str]:
     """Lines for one model's effective properties, with the 95 % interval over the
     realizations of a 3D estimate."""
+    from ..present.units import number, scale_of, unit_text, with_unit
     from ..properties.records import Spread, value_of
 
     if eff is None:
         return []
 
-    def show(x, scale=1.0):
-        value = f"{value_of(x) * scale:#.4g}"
+    def show(x, kind):
+        sc = scale_of(kind)
+        value = number(value_of(x) * sc, trim=False)
         if isinstance(x, Spread) and x.ci95:
-            value += f" (95 % {x.ci95[0] * scale:#.4g}–{x.ci95[1] * scale:#.4g})"
-        return value
+            value += (f" (95 % {number(x.ci95[0] * sc, trim=False)}–"
+                      f"{number(x.ci95[1] * sc, trim=False)})")
+        return with_unit(value, unit_text(kind))
 
     lines = []
     if eff.conductivity:
-        lines.append(f"  {prefix + 'conductivity':<17} {show(eff.conductivity.mean)} W/(m·K)")
+        k = show(eff.conductivity.mean, "conductivity")
+        lines.append(f"  {prefix + 'conductivity':<17} {k}")
     if eff.elasticity:
         el = eff.elasticity
         label = prefix + "Young's modulus"
-        lines.append(f"  {label:<17} {show(el.youngs_modulus)} GPa, "
+        lines.append(f"  {label:<17} {show(el.youngs_modulus, 'modulus')}, "
                      f"Poisson's ratio {value_of(el.poisson_ratio):.3f}")
     if eff.expansion:
-        lines.append(f"  {prefix + 'expansion':<17} {show(eff.expansion.mean, 1e6)} ×10⁻⁶/K")
+        lines.append(f"  {prefix + 'expansion':<17} {show(eff.expansion.mean, 'expansion')}")
     if lines:
         lines.append(f"  ({eff.model})")
     return lines
@@ -241,19 +272,25 @@ def _add_demo(sub):
     p = sub.add_parser("demo", help="run the built-in demo sections",
                        description="Analyse the built-in demo sections (a fictional supplier's "
                        "two product lines) and write their reports.")
-    p.add_argument("--out", default="polisect-demo", help="output folder (default: polisect-demo)")
-    p.add_argument("--quiet", action="store_true")
+    p.add_argument("--out", default="polisect-demo",
+                   help="output folder (default: polisect-demo in the current folder; the "
+                        "full path is printed first)")
+    p.add_argument("--quiet", action="store_true",
+                   help="no progress messages; the summary is still printed")
     p.set_defaults(run=_run_demo)
 
 
 def _run_demo(args) -> int:
     from ..present.record import headline
+    from ..present.units import show
     from ..read.config import load_config
     from .run import run_section
     from .samples import demo_sections
 
     progress = _Progress(args.quiet)
     written = []
+    print(f"Writing the demo into {os.path.abspath(args.out)} (choose with --out)",
+          file=sys.stderr, flush=True)
     for section in demo_sections():
         progress(f"demo: {section.title}")
         cfg = load_config(section.config)
@@ -267,11 +304,12 @@ def _run_demo(args) -> int:
                               if k.startswith("fraction_") and not k.endswith(("_low", "_high")))
         print(f"  {title}")
         print(f"    fractions: {fractions}")
-        print(f"    k = {row.get('conductivity_W_mK', float('nan')):#.4g} W/(m·K),  "
-              f"E = {row.get('youngs_modulus_GPa', float('nan')):#.4g} GPa,  "
-              f"alpha = {row.get('expansion_per_K', float('nan')) * 1e6:#.4g} ×10⁻⁶/K")
+        print(f"    k = {show(row.get('conductivity_W_mK'), 'conductivity')},  "
+              f"E = {show(row.get('youngs_modulus_GPa'), 'modulus')},  "
+              f"α = {show(row.get('expansion_per_K'), 'expansion')}")
         print(f"    report: {os.path.abspath(report)}")
-    print("\nEstimates for screening and comparison, not design values; verify by measurement.")
+    print(f"\nAll outputs: {os.path.abspath(args.out)}")
+    print("Estimates for screening and comparison, not design values; verify by measurement.")
     return EXIT_OK
 
 
@@ -332,10 +370,30 @@ def _run_estimate(args) -> int:
     return EXIT_OK
 
 
+BENCH_COLUMNS = """\
+columns of the table:
+  method     fft = FFT-preconditioned conjugate gradients on the pixel-element system;
+             fe  = the same system assembled, algebraic-multigrid-preconditioned CG;
+             ms  = Moulinec-Suquet basic scheme (a reference; refuses pores)
+  iter       iterations to the tolerance; s/iter seconds per iteration
+  fft floor  time of the FFTs one iteration needs (the least an FFT method can take);
+             ratio = s/iter over that floor
+  peak MB    peak traced Python memory; RSS MB the process's resident set
+  conv       'yes' when the solver reached its tolerance; 'no' when it stopped at an
+             iteration cap: the ms rows run a fixed budget of iterations on purpose (the
+             basic scheme converges slowly at high contrast), so 'no' there is expected
+  N^x        on the last scaling row (case f): seconds grow as (pixel count)^x over the
+             sizes; first-call compile time inflates the smallest size and lowers x
+--quick runs small sizes (a smoke run; expect a minute or two on two cores)."""
+"""The bench table's columns in words (``polisect bench --help``)."""
+
+
 def _add_bench(sub):
     p = sub.add_parser("bench", help="measure solver and analysis speed",
+                       formatter_class=argparse.RawDescriptionHelpFormatter,
                        description="Benchmarks: prints a table of iterations, seconds, the FFT "
-                       "floor and peak memory per case.")
+                       "floor and peak memory per case.",
+                       epilog=BENCH_COLUMNS)
     p.add_argument("--json", metavar="FILE", help="write the figures as JSON")
     p.add_argument("--quick", action="store_true", help="small sizes (a smoke run)")
     p.add_argument("--cases", metavar="LETTERS",
@@ -435,22 +493,42 @@ def _add_compare(sub):
                    help="HTML page to write (default: comparison.html)")
     p.add_argument("--json", metavar="FILE", help="also write the comparison as JSON "
                    "('-' = stdout)")
-    p.add_argument("--quiet", action="store_true", help="do not print the findings")
+    p.add_argument("--spec", action="append", default=[], metavar="LIMIT",
+                   help="a specification limit checked per batch and section, e.g. "
+                        "--spec 'porosity<=0.22' --spec 'k>=1.8' (names: porosity, a phase "
+                        "name, k, E, nu, K, G, alpha in 10⁻⁶/K, or a summary.csv column; "
+                        "fractions as 0.22 or 22%%); repeat for more")
+    p.add_argument("--quiet", action="store_true",
+                   help="print only the batch means, the specification verdicts and where "
+                        "the page is, not the findings")
     p.set_defaults(run=_run_compare)
 
 
 def _run_compare(args) -> int:
-    from .compare import compare, load_sections, write_html
+    from .compare import compare, load_sections, means_lines, spec_lines, write_html
 
-    comparison = compare(load_sections(args.dirs, args.group_by))
+    comparison = compare(load_sections(args.dirs, args.group_by), specs=args.spec)
     write_html(comparison, args.out)
     _emit_json(args.json, comparison.to_json())
+    lines = [f"{len(comparison.sections)} sections in {len(comparison.batches)} batch(es): "
+             + ", ".join(comparison.batches),
+             "batch means (± = 95 % interval of the mean):"]
+    lines += [f"  {s}" for s in means_lines(comparison)]
+    if comparison.specs:
+        lines.append("specification limits (pass: the whole interval meets the limit):")
+        lines += [f"  {s}" for s in spec_lines(comparison)]
     if not args.quiet:
-        lines = [f"{len(comparison.sections)} sections in {len(comparison.batches)} batch(es): "
-                 + ", ".join(comparison.batches)]
-        lines += [f"  {s}" for s in comparison.sentences()]
-        lines.append(f"  report: {args.out}")
-        print("\n".join(lines), file=sys.stderr)
+        lines.append("findings (fractions in percentage points, other quantities in % of the "
+                     "first batch; ± = 95 % interval), significant first:")
+        for q in comparison.grouped():
+            mark = ("differs between batches" if q.significant
+                    else "no significant difference between batches")
+            if q.outliers:
+                mark += f", {len(q.outliers)} outlier section(s)"
+            lines.append(f"  {q.label} — {mark}")
+            lines += [f"    {s}" for s in q.sentences]
+    lines.append(f"page: {os.path.abspath(args.out)}")
+    print("\n".join(lines), file=sys.stderr)
     return EXIT_OK
 
 

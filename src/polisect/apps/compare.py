@@ -14,7 +14,7 @@ Examples
 >>> a = [Section(f"A{i}", "A", {"conductivity_W_mK": v}) for i, v in enumerate([10.0, 10.4, 9.8])]
 >>> b = [Section(f"B{i}", "B", {"conductivity_W_mK": v}) for i, v in enumerate([9.1, 9.5, 9.3])]
 >>> compare(a + b).sentences()[0]
-"batch B's conductivity is 7.6 ± 6.2 % lower than batch A's, p = 0.028"
+"batch B's conductivity is 7.6 ± 6.2 % lower (relative) than batch A's (9.3 against 10.07 W/(m·K)), p = 0.028"
 
 References
 ----------
@@ -28,6 +28,7 @@ import html
 import json
 import math
 import os
+import re
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -35,9 +36,11 @@ import numpy as np
 from ..core.atomic import atomic_write_text
 from .batch import Grouping, read_manifest
 from ..core.errors import InputError
-from ..present.htmlkit import CAUTION_SECTION, PALETTE, figure_png, grid, new_axes, page
-from ..core.quantities import quantity_keys, quantity_label
+from ..present.htmlkit import CAUTION_MANY_SECTION, PALETTE, figure_png, grid, new_axes, page
+from ..core.quantities import fraction_column, quantity_keys
 from ..present.record import SCHEMA, headline, plain, read_result, whole_image_variances
+from ..present.units import (column_words, kind_of, number, scale_of, with_uncertainty,
+                             with_unit)
 from ..trust.sectionstats import (ALPHA, Grubbs, difference, gitman_chi2, grubbs, holm, json_number,
                            one_way_anova, p_text, section_spread, sig, summarize, welch_anova,
                            welch_t)
@@ -197,7 +200,12 @@ class QuantityComparison:
     spreads : dict
         Batch → `BatchSpread` (batches whose sections carry window studies).
     sentences : tuple of str
-        The findings in plain words.
+        The findings in plain words, significant ones first.
+    significant : bool
+        A difference between batches at the significance level (outliers are in
+        ``outliers``).
+    scale : float
+        Factor from the stored value to the unit shown (`unit`; expansion 10⁻⁶/K).
     """
 
     key: str
@@ -210,9 +218,12 @@ class QuantityComparison:
     differences: tuple
     spreads: dict
     sentences: tuple
+    significant: bool = False
+    scale: float = 1.0
 
     def to_dict(self) -> dict:
         return {"key": self.key, "label": self.label, "unit": self.unit,
+                "significant": self.significant, "scale_to_unit": self.scale,
                 "summaries": {b: s.to_dict() for b, s in self.summaries.items()},
                 "gitman_chi2": {b: g.to_dict() for b, g in self.gitman.items()},
                 "outliers": [o.to_dict() for o in self.outliers],
@@ -230,9 +241,11 @@ class Comparison:
     sections: tuple[Section, ...]
     quantities: tuple[QuantityComparison, ...]
     alpha: float = ALPHA
+    specs: tuple = ()
 
     def to_dict(self) -> dict:
         return {"schema": "polisect.compare/1", "alpha": self.alpha,
+                "specs": [r.to_dict() for r in self.specs],
                 "batches": {b: [s.name for s in self.sections if s.batch == b]
                             for b in self.batches},
                 "sections": [{"name": s.name, "batch": s.batch, "values": s.values,
@@ -244,11 +257,18 @@ class Comparison:
         return json.dumps(plain(self.to_dict()), indent=2, allow_nan=False)
 
     def sentences(self) -> list[str]:
-        """All findings in plain words, quantity by quantity."""
-        return [s for q in self.quantities for s in q.sentences]
+        """All findings in plain words, quantity by quantity (significant quantities
+        first)."""
+        return [s for q in self.grouped() for s in q.sentences]
+
+    def grouped(self) -> list[QuantityComparison]:
+        """The quantities with findings: those that differ significantly between batches
+        first, then those with an outlier section, then the rest (stable otherwise)."""
+        with_findings = [q for q in self.quantities if q.sentences]
+        return sorted(with_findings, key=lambda q: (not q.significant, not q.outliers))
 
 
-def compare(sections, quantities=None, alpha: float = ALPHA) -> Comparison:
+def compare(sections, quantities=None, alpha: float = ALPHA, specs=()) -> Comparison:
     """Compare sections within and between batches on every quantity.
 
     Parameters
@@ -260,6 +280,9 @@ def compare(sections, quantities=None, alpha: float = ALPHA) -> Comparison:
         property found).
     alpha : float
         Significance level for Grubbs' test and the sentences (default 0.05).
+    specs : sequence of str or Spec
+        Specification limits (``"porosity<=0.22"``, ``"k>=1.8"``; `parse_spec`), checked
+        on every batch and section.
 
     Returns
     -------
@@ -275,13 +298,39 @@ def compare(sections, quantities=None, alpha: float = ALPHA) -> Comparison:
     batches = tuple(dict.fromkeys(s.batch for s in sections))
     if quantities is None:
         quantities = list(dict.fromkeys(k for s in sections for k in s.values))
-    return Comparison(batches, sections,
-                      tuple(_compare_quantity(sections, batches, key, alpha)
-                            for key in quantities), alpha)
+    compared = tuple(_compare_quantity(sections, batches, key, alpha) for key in quantities)
+    keys = list(dict.fromkeys(k for s in sections for k in s.values))
+    parsed = [x if isinstance(x, Spec) else parse_spec(x, keys) for x in specs]
+    summaries = {q.key: q.summaries for q in compared}
+    checked = []
+    for sp in parsed:
+        sums = summaries.get(sp.key)
+        if sums is None:
+            sums = _compare_quantity(sections, batches, sp.key, alpha).summaries
+        checked.append(check_spec(sp, sections, sums))
+    return Comparison(batches, sections, compared, alpha, tuple(checked))
+
+
+def _difference_sentence(key, label, unit, scale, ref, other, x, y, d) -> str:
+    """Batch *other* against *ref*: fractions in percentage points, other quantities in
+    relative %, ± the 95 % interval of the difference, both means with their unit."""
+    mx, my = float(np.mean(x)), float(np.mean(y))
+    if not math.isfinite(d.relative_pct):
+        return d.sentence
+    p = p_text(d.p_adjusted)
+    direction = "higher" if my > mx else "lower"
+    means = f"{number(my * scale)} against {with_unit(number(mx * scale), unit)}"
+    if key.startswith("fraction_"):
+        diff_pp = abs(my - mx) * 100.0
+        half_pp = d.ci95_pct / 100.0 * abs(mx) * 100.0
+        return (f"batch {other}'s {label} is {with_uncertainty(diff_pp, half_pp)} percentage "
+                f"points {direction} than batch {ref}'s ({means}), {p}")
+    return (f"batch {other}'s {label} is {with_uncertainty(abs(d.relative_pct), d.ci95_pct)}"
+            f" % {direction} (relative) than batch {ref}'s ({means}), {p}")
 
 
 def _compare_quantity(sections, batches, key, alpha) -> QuantityComparison:
-    label, unit = quantity_label(key)
+    label, unit, scale = column_words(key)
     members = {b: [s for s in sections if s.batch == b and _finite(s.values.get(key))]
                for b in batches}
     members = {b: m for b, m in members.items() if m}
@@ -296,11 +345,15 @@ def _compare_quantity(sections, batches, key, alpha) -> QuantityComparison:
                 sec = members[b][g.index]
                 outliers.append(Outlier(sec.name, b, key, g.value, float(v.mean()), g))
                 sentences.append(f"section {sec.name} stands out in batch {b} on {label} "
-                                 f"({sig(g.value)} against a batch mean of "
-                                 f"{sig(float(v.mean()))}; Grubbs G = {g.statistic:.3f} > "
-                                 f"{g.critical:.3f} at n = {g.n}, α = {alpha})")
+                                 f"({number(g.value * scale)} against a batch mean of "
+                                 f"{with_unit(number(float(v.mean()) * scale), unit)}; "
+                                 f"Grubbs G = {g.statistic:.3f} > {g.critical:.3f} at n = "
+                                 f"{g.n}, "
+                                 f"α = {alpha})")
     testable = [b for b, v in values.items() if v.size >= 2]
     tests, diffs = [], []
+    significant = False
+    first, later = sentences, []
     if len(testable) >= 2:
         groups = [values[b] for b in testable]
         if len(testable) == 2:
@@ -309,17 +362,22 @@ def _compare_quantity(sections, batches, key, alpha) -> QuantityComparison:
             tests += [one_way_anova(groups), welch_anova(groups)]
             p = tests[1].p_value if math.isfinite(tests[1].p_value) else tests[0].p_value
             verdict = "differs" if p < alpha else "does not differ significantly"
-            sentences.append(f"the {label} {verdict} between the {len(testable)} batches "
-                             f"(Welch's ANOVA {p_text(tests[1].p_value)}; one-way ANOVA "
-                             f"{p_text(tests[0].p_value)})")
+            significant |= p < alpha
+            (first if p < alpha else later).append(
+                f"the {label} {verdict} between the {len(testable)} batches "
+                f"(Welch's ANOVA {p_text(tests[1].p_value)}; one-way ANOVA "
+                f"{p_text(tests[0].p_value)})")
         ref = testable[0]
         raw = [welch_t(values[ref], values[b]).p_value for b in testable[1:]]
         adjusted = holm(raw)
         for b, p_adj in zip(testable[1:], adjusted):
             d = difference(label, ref, values[ref], b, values[b], p_adjusted=p_adj)
             diffs.append(d)
-            sentences.append(d.sentence + (" (Holm-adjusted over the pairs)"
-                                           if len(testable) > 2 else ""))
+            hit = math.isfinite(d.p_adjusted) and d.p_adjusted < alpha
+            significant |= hit
+            (first if hit else later).append(
+                _difference_sentence(key, label, unit, scale, ref, b, values[ref], values[b], d)
+                + (" (Holm-adjusted over the pairs)" if len(testable) > 2 else ""))
     spreads = {}
     for b, m in members.items():
         with_w = [s for s in m if _finite(s.within_variance.get(key))]
@@ -327,16 +385,142 @@ def _compare_quantity(sections, batches, key, alpha) -> QuantityComparison:
             sp = section_spread([s.values[key] for s in with_w],
                                 [s.within_variance[key] for s in with_w], batch=b, label=label)
             spreads[b] = sp
-            sentences.append(sp.sentence)
+            later.append(sp.sentence)
     return QuantityComparison(key, label, unit, summaries, gitman, tuple(outliers),
-                              tuple(tests), tuple(diffs), spreads, tuple(sentences))
+                              tuple(tests), tuple(diffs), spreads, tuple(first + later),
+                              significant, scale)
+
+
+# ----------------------------------------------------------------- specification limits
+
+SPEC_ALIASES = {"k": "conductivity_W_mK", "conductivity": "conductivity_W_mK",
+                "E": "youngs_modulus_GPa", "youngs_modulus": "youngs_modulus_GPa",
+                "nu": "poisson_ratio", "poisson_ratio": "poisson_ratio",
+                "K": "bulk_modulus_GPa", "bulk_modulus": "bulk_modulus_GPa",
+                "G": "shear_modulus_GPa", "shear_modulus": "shear_modulus_GPa",
+                "alpha": "expansion_per_K", "expansion": "expansion_per_K",
+                "k_3d": "conductivity_3d_W_mK", "E_3d": "youngs_modulus_3d_GPa",
+                "alpha_3d": "expansion_3d_per_K"}
+"""Short names a specification may use → headline column."""
+
+PORE_NAMES = ("pore", "pores", "porosity", "air", "void")
+"""Phase names counted as porosity by ``porosity`` in a specification."""
+
+_SPEC = re.compile(r"^\s*([A-Za-z_][\w\-]*)\s*(<=|>=|<|>)\s*([-+0-9.eE]+)\s*(%?)\s*$")
+
+
+@dataclass(frozen=True)
+class Spec:
+    """One specification limit, e.g. ``porosity<=0.22`` or ``k>=1.8``.
+
+    The limit is given in the unit people read (`polisect.present.units`: expansion in
+    10⁻⁶/K, fractions as fractions or with ``%``); ``limit`` is in the stored unit.
+    """
+
+    text: str
+    key: str
+    op: str
+    limit: float
+
+    def passes(self, value: float) -> bool:
+        """Whether *value* (stored unit) meets the limit."""
+        return {"<=": value <= self.limit, ">=": value >= self.limit,
+                "<": value < self.limit, ">": value > self.limit}[self.op]
+
+
+def parse_spec(text: str, keys) -> Spec:
+    """A `Spec` from ``NAME<=LIMIT`` (or ``>=``, ``<``, ``>``), NAME a headline column, a
+    short name (`SPEC_ALIASES`), a phase name (its fraction) or ``porosity``.
+
+    Examples
+    --------
+    >>> parse_spec("porosity<=22%", ["fraction_pore", "conductivity_W_mK"]).limit
+    0.22
+    >>> parse_spec("alpha <= 6.5", ["expansion_per_K"]).limit
+    6.5e-06
+    """
+    m = _SPEC.match(text)
+    if not m:
+        raise InputError(f"--spec {text!r}: write NAME<=LIMIT or NAME>=LIMIT, e.g. "
+                         "--spec 'porosity<=0.22' --spec 'k>=1.8'")
+    name, op, number_text, pct = m.groups()
+    keys = list(keys)
+    key = _spec_key(name, keys)
+    if key is None:
+        known = sorted(set(SPEC_ALIASES) | {k[len("fraction_"):] for k in keys
+                                             if k.startswith("fraction_")} | {"porosity"})
+        raise InputError(f"--spec {text!r}: {name!r} is not a quantity of these sections; use "
+                         f"one of {', '.join(known)} or a column of summary.csv")
+    try:
+        shown = float(number_text)
+    except ValueError:
+        raise InputError(f"--spec {text!r}: {number_text!r} is not a number") from None
+    if pct:
+        shown /= 100.0
+    return Spec(text.strip(), key, op, shown / scale_of(kind_of(key)))
+
+
+def _spec_key(name: str, keys: list[str]) -> str | None:
+    if name in keys:
+        return name
+    if name in SPEC_ALIASES and SPEC_ALIASES[name] in keys:
+        return SPEC_ALIASES[name]
+    if fraction_column(name) in keys:
+        return fraction_column(name)
+    if name == "porosity":
+        for pore in PORE_NAMES:
+            if fraction_column(pore) in keys:
+                return fraction_column(pore)
+    return None
+
+
+@dataclass(frozen=True)
+class SpecResult:
+    """A specification checked on every batch (its mean and 95 % interval) and section.
+
+    ``batches``: batch → (mean, 95 % half-width or None, verdict) with the verdict
+    ``"pass"`` (the whole interval meets the limit), ``"fail"`` (the mean does not) or
+    ``"marginal"`` (the mean meets it, the interval crosses it); ``sections``: one
+    (section, batch, value, passed) per section (names may repeat across batches).
+    """
+
+    spec: Spec
+    batches: dict
+    sections: tuple
+
+    def to_dict(self) -> dict:
+        return {"spec": self.spec.text, "key": self.spec.key, "op": self.spec.op,
+                "limit": self.spec.limit,
+                "batches": {b: {"mean": json_number(m), "ci95": json_number(h),
+                                "verdict": v} for b, (m, h, v) in self.batches.items()},
+                "sections": [{"section": s, "batch": b, "value": json_number(v), "passed": ok}
+                             for s, b, v, ok in self.sections]}
+
+
+def check_spec(spec: Spec, sections, summaries: dict) -> SpecResult:
+    """*spec* on every batch (from its `Summary`) and every section."""
+    batches = {}
+    for b, s in summaries.items():
+        half = s.ci95 if s.n >= 2 and _finite(s.ci95) else None
+        if not spec.passes(s.mean):
+            verdict = "fail"
+        elif half is not None and not (spec.passes(s.mean - half)
+                                       and spec.passes(s.mean + half)):
+            verdict = "marginal"
+        else:
+            verdict = "pass"
+        batches[b] = (s.mean, half, verdict)
+    rows = tuple((x.name, x.batch, x.values[spec.key], spec.passes(x.values[spec.key]))
+                 for x in sections if _finite(x.values.get(spec.key)))
+    return SpecResult(spec, batches, rows)
 
 
 # ----------------------------------------------------------------------------- HTML
 
 def html_comparison(comparison: Comparison, title: str = "Section comparison") -> str:
     """The comparison as a self-contained HTML page (figures embedded)."""
-    parts = [CAUTION_SECTION, _html_overview(comparison)]
+    parts = [CAUTION_MANY_SECTION, _html_overview(comparison), _html_specs(comparison),
+             _html_findings(comparison), _html_outliers(comparison)]
     parts += [_html_quantity(q, comparison) for q in comparison.quantities]
     parts.append(_HOW_TO_READ)
     return page(title, f"{len(comparison.sections)} sections in "
@@ -348,12 +532,103 @@ def write_html(comparison: Comparison, path, title: str = "Section comparison") 
     atomic_write_text(path, html_comparison(comparison, title))
 
 
+def mean_text(q: QuantityComparison, batch: str) -> str:
+    """A batch's mean ± 95 % interval in the unit people read, e.g. ``0.201 ± 0.012``."""
+    s = q.summaries[batch]
+    half = s.ci95 if s.n >= 2 and _finite(s.ci95) else None
+    return with_uncertainty(s.mean, half, q.scale)
+
+
+def means_lines(c: Comparison) -> list[str]:
+    """One console line per quantity: every batch's mean ± 95 % interval and n."""
+    lines = []
+    for q in c.quantities:
+        cells = "; ".join(f"{b} {mean_text(q, b)} (n = {q.summaries[b].n})"
+                          for b in q.summaries)
+        lines.append(f"{q.label}{' (' + q.unit + ')' if q.unit else ''}: {cells}")
+    return lines
+
+
+def spec_lines(c: Comparison) -> list[str]:
+    """Console lines of the specification checks: per batch, then failing sections."""
+    lines = []
+    for r in c.specs:
+        verdicts = ", ".join(f"{b} {v.upper()}" for b, (_, _, v) in r.batches.items())
+        failed = [f"{b}: {s}" for s, b, _, ok in r.sections if not ok]
+        passed = len(r.sections) - len(failed)
+        lines.append(f"spec {r.spec.text}: {verdicts}; sections {passed} of "
+                     f"{len(r.sections)} pass" + (f" (fail: {', '.join(failed)})"
+                                                  if failed else ""))
+    return lines
+
+
 def _html_overview(c: Comparison) -> str:
     rows = [(b, str(sum(s.batch == b for s in c.sections))) for b in c.batches]
-    items = "".join(f"<li>{html.escape(s)}</li>" for s in c.sentences())
-    findings = f"<h3>Findings</h3><ul>{items}</ul>" if items else ""
-    return ("<section><h2>Batches</h2>" + grid(("Batch", "Sections"), rows) + findings
-            + "</section>")
+    head = ("Quantity",) + tuple(f"{b}: mean ± 95 % (n)" for b in c.batches)
+    means = []
+    for q in c.quantities:
+        unit = f" ({q.unit})" if q.unit else ""
+        means.append((q.label[:1].upper() + q.label[1:] + unit,) + tuple(
+            "–" if b not in q.summaries else f"{mean_text(q, b)} ({q.summaries[b].n})"
+            for b in c.batches))
+    return ("<section><h2>Batches</h2>" + grid(("Batch", "Sections"), rows)
+            + "<h3>Batch means</h3>" + grid(head, means)
+            + '<p class="note">± is the 95 % confidence interval of the batch mean (Student t, '
+            "n − 1 degrees of freedom).</p></section>")
+
+
+def _html_specs(c: Comparison) -> str:
+    if not c.specs:
+        return ""
+    rows, secs = [], []
+    for r in c.specs:
+        _, unit, scale = column_words(r.spec.key)
+        for b, (mean, half, verdict) in r.batches.items():
+            rows.append((r.spec.text, b, with_unit(with_uncertainty(mean, half, scale), unit),
+                         verdict))
+        for name, b, value, ok in r.sections:
+            secs.append((r.spec.text, b, name, with_unit(number(value * scale), unit),
+                         "pass" if ok else "FAIL"))
+    return ("<section><h2>Specification limits</h2>"
+            + grid(("Limit", "Batch", "Mean ± 95 %", "Verdict"), rows)
+            + '<p class="note">pass: the whole 95 % interval of the batch mean meets the limit; '
+            "marginal: the mean meets it, the interval crosses it; fail: the mean does not "
+            "meet it.</p><details><summary>Every section against the limits</summary>"
+            + grid(("Limit", "Batch", "Section", "Value", "Verdict"), secs)
+            + "</details></section>")
+
+
+def _html_findings(c: Comparison) -> str:
+    groups = c.grouped()
+    if not groups:
+        return ""
+    parts = []
+    for q in groups:
+        tag = (' <span class="sig">differs between batches</span>' if q.significant
+               else ' <span class="nsig">no significant difference</span>')
+        if q.outliers:
+            tag += f' <span class="nsig">{len(q.outliers)} outlier section(s)</span>'
+        items = "".join(f"<li>{html.escape(x)}</li>" for x in q.sentences)
+        parts.append(f"<h3>{html.escape(q.label[:1].upper() + q.label[1:])}{tag}</h3>"
+                     f"<ul>{items}</ul>")
+    return ("<section><h2>Findings</h2>" + "".join(parts)
+            + '<p class="note">Grouped by quantity: significant differences between batches '
+            f"first, then quantities with an outlier section (α = {c.alpha}). Fractions "
+            "differ in percentage points, other quantities in per cent of the first batch's "
+            "mean (relative); ± is the 95 % interval of the difference.</p></section>")
+
+
+def _html_outliers(c: Comparison) -> str:
+    rows = []
+    for q in c.quantities:
+        for o in q.outliers:
+            rows.append((o.section, o.batch, q.label, number(o.value * q.scale),
+                         number(o.batch_mean * q.scale), q.unit or "–",
+                         f"{o.grubbs.statistic:.3f} > {o.grubbs.critical:.3f}"))
+    body = (grid(("Section", "Batch", "Quantity", "Value", "Batch mean", "Unit", "Grubbs G"),
+                 rows) if rows else "<p>No section stands out (Grubbs' two-sided test, "
+            f"α = {c.alpha}, batches of three or more sections).</p>")
+    return f"<section><h2>Outliers</h2>{body}</section>"
 
 
 def _html_quantity(q: QuantityComparison, c: Comparison) -> str:
@@ -364,8 +639,10 @@ def _html_quantity(q: QuantityComparison, c: Comparison) -> str:
     for b, s in q.summaries.items():
         g = q.gitman.get(b)
         sp = q.spreads.get(b)
-        rows.append((b, str(s.n), sig(s.mean, 4), sig(s.sd, 3), sig(s.se, 3),
-                     sig(s.ci95, 3), sig(s.relative_accuracy_pct, 2),
+        sc = q.scale
+        rows.append((b, str(s.n), number(s.mean * sc), number(s.sd * sc, 3),
+                     number(s.se * sc, 3), number(s.ci95 * sc, 3),
+                     number(s.relative_accuracy_pct, 2),
                      "–" if g is None else f"{g.chi2:.3g} / {g.critical:.3g} "
                      f"{'pass' if g.passed else 'fail'}",
                      "–" if sp is None else f"×{sig(sp.ratio)} ({p_text(sp.test.p_value)})"))
@@ -377,8 +654,8 @@ def _html_quantity(q: QuantityComparison, c: Comparison) -> str:
             f"</h2>{grid(head, rows)}"
             + (f"<ul>{tests}</ul>" if tests else "")
             + (f"<ul>{items}</ul>" if items else "")
-            + f'<figure><img alt="{html.escape(q.label)}" src="{_plot(q, c)}"></figure>'
-            "</section>")
+            + f'<figure class="wide"><img alt="{html.escape(q.label)}" src="{_plot(q, c)}">'
+            "</figure></section>")
 
 
 def _plot(q: QuantityComparison, c: Comparison) -> str:
@@ -386,7 +663,7 @@ def _plot(q: QuantityComparison, c: Comparison) -> str:
     flagged = {(o.batch, o.section) for o in q.outliers}
     for i, (b, s) in enumerate(q.summaries.items()):
         secs = [x for x in c.sections if x.batch == b and _finite(x.values.get(q.key))]
-        ys = np.array([x.values[q.key] for x in secs])
+        ys = np.array([x.values[q.key] for x in secs]) * q.scale
         xs = i + (np.linspace(-0.18, 0.18, ys.size) if ys.size > 1 else np.zeros(1))
         color = PALETTE[i % len(PALETTE)]
         ax.scatter(xs, ys, s=18, color=color, alpha=0.8, zorder=3)
@@ -395,7 +672,8 @@ def _plot(q: QuantityComparison, c: Comparison) -> str:
             ax.scatter(xs[bad], ys[bad], s=80, facecolors="none", edgecolors="#c8553d",
                        linewidths=1.5, zorder=4, label="Grubbs outlier")
         if s.n >= 2:
-            ax.errorbar(i + 0.32, s.mean, yerr=s.ci95, fmt="s", color="#1d232b", capsize=4,
+            ax.errorbar(i + 0.32, s.mean * q.scale, yerr=s.ci95 * q.scale, fmt="s",
+                        color="#1d232b", capsize=4,
                         markersize=5, zorder=5)
     ax.set_xticks(range(len(q.summaries)), list(q.summaries))
     ax.set_xlim(-0.6, len(q.summaries) - 0.4)

@@ -36,7 +36,8 @@ from ..properties.shock import ShockIndices
 from ..read.config import Config, check_grey_range, validate
 from ..read.image import Micrograph, check_slice_spacing, read_image, read_stack, to_grayscale
 from .guard import check_analysis
-from .result import AtTemperature, PhaseFraction, Result, SchemeTable, Source
+from .result import (AtTemperature, PhaseFraction, Result, SchemeTable, Source,
+                     Verification)
 
 Progress = Callable[[str], None]
 
@@ -148,6 +149,9 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
                                warnings, notes)
     measured = (_measured(cfg, effective, by_temperature, effective_3d, schemes.get(3))
                 if cfg.measured else ())
+    verification = None
+    if cfg.solve.verify and effective is not None:
+        verification = clock("verify", _verify, phasemap, cfg, effective, say)
     windows = None
     if cfg.windows.study:
         windows = clock("windows", _window_study, phasemap, cfg, effective, say)
@@ -171,7 +175,7 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
                                  for name, c in correlations.items()} or None,
                     measured=measured, uncertainty=uncertainty,
                     config_toml=cfg.raw, warnings=tuple(warnings), notes=tuple(notes),
-                    timings_s=clock.timings,
+                    timings_s=clock.timings, verification=verification,
                     created=_dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"))
     return Analysis(result=result, phasemap=phasemap, image=micro.data,
                     thresholds=tuple(thresholds), particles=particles,
@@ -439,6 +443,45 @@ def _pore_sizes(phasemap: PhaseMap) -> dict[int, float]:
             if np.isfinite(length):
                 out[p.label] = float(length)
     return out
+VERIFY_MAX_CELLS = {2: 1024 * 1024, 3: 96 ** 3}
+"""Largest map the second solver takes whole; a larger one is compared on a centred crop."""
+
+
+def _verify(phasemap: PhaseMap, cfg: Config, effective: Effective, say: Progress
+            ) -> Verification:
+    """Solve again with the second method (fe for fft, fft for fe and ms) and state the
+    largest relative difference of each effective tensor (``[solve] verify``). A map larger
+    than `VERIFY_MAX_CELLS` is solved by both methods on a centred crop."""
+    from ..properties.effective import solve_effective
+
+    props = tuple(p for p in cfg.solve.properties if getattr(effective, p) is not None)
+    first = getattr(effective, props[0]).solver.method
+    second = "fft" if first == "fe" else "fe"
+    kw = {"tol": cfg.solve.tolerance, "plane": cfg.solve.plane, "maps": False}
+    tick = time.perf_counter()
+    crop = None
+    if phasemap.labels.size > VERIFY_MAX_CELLS[phasemap.ndim]:
+        side = int(round(VERIFY_MAX_CELLS[phasemap.ndim] ** (1.0 / phasemap.ndim)))
+        cut = tuple(slice(max(0, (n - side) // 2), max(0, (n - side) // 2) + min(n, side))
+                    for n in phasemap.shape)
+        phasemap = PhaseMap(np.ascontiguousarray(phasemap.labels[cut]), phasemap.phases,
+                            phasemap.voxel_size_um)
+        crop = tuple(phasemap.shape)
+        say(f"verify: solving a {' × '.join(map(str, crop))} crop with {first}")
+        effective = solve_effective(phasemap, props, method=first, **kw).effective
+    say(f"verify: solving again with the second method, {second}")
+    other = solve_effective(phasemap, props, method=second, **kw).effective
+    tensors = {"conductivity": lambda e: e.conductivity.tensor,
+               "elasticity": lambda e: e.elasticity.stiffness,
+               "expansion": lambda e: e.expansion.tensor}
+    diffs = {}
+    for p in props:
+        a, b = np.asarray(tensors[p](effective)), np.asarray(tensors[p](other))
+        diffs[p] = float(np.abs(a - b).max() / max(np.abs(a).max(), 1e-300))
+    return Verification(method=first, second_method=second, differences=diffs,
+                        max_relative_difference=max(diffs.values(), default=0.0),
+                        tolerance=cfg.solve.tolerance, seconds=time.perf_counter() - tick,
+                        crop=crop)
 
 
 def _window_study(phasemap: PhaseMap, cfg: Config, effective: Effective | None, say: Progress):

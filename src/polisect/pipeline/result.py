@@ -84,6 +84,26 @@ class AtTemperature:
 
 
 @dataclass(frozen=True, eq=False)
+class Verification:
+    """The effective properties solved again with the second method (``[solve] verify``).
+
+    Both solvers discretize the same equations, so they must agree to solver tolerance.
+    ``differences`` holds, per property, the largest entry of |A − B| over the largest
+    entry of |A| for the effective tensor; ``crop`` is the shape solved by both methods
+    when the whole map was too large for the assembled solver (None: the whole map, the
+    main solve compared as it is).
+    """
+
+    method: str
+    second_method: str
+    differences: Mapping[str, float]
+    max_relative_difference: float
+    tolerance: float
+    seconds: float
+    crop: tuple[int, ...] | None = None
+
+
+@dataclass(frozen=True, eq=False)
 class Result:
     """One analysed section (or volume).
 
@@ -110,6 +130,8 @@ class Result:
     uncertainty : mapping headline column → Budget
         The error budget of every headline number (``[uncertainty]``).
     warnings, notes : tuple of str
+    verification : Verification or None
+        The second solver's agreement (``[solve] verify``).
     timings_s : mapping stage → seconds
     config_toml : str
         The run configuration as given.
@@ -136,6 +158,7 @@ class Result:
     notes: tuple[str, ...] = ()
     timings_s: Mapping[str, float] = field(default_factory=dict)
     created: str = ""
+    verification: Verification | None = None
 
     def phase(self, name: str) -> PhaseFraction:
         """The phase called *name* (KeyError when there is none)."""

@@ -8,9 +8,93 @@ import matplotlib.colors
 import numpy as np
 from skimage.segmentation import find_boundaries
 
-from ..core.quantities import quantity_label
 from ..trust.sectionstats import sig
 from .htmlkit import new_axes
+from .units import column_words, number
+
+SCALE_STEPS = (1, 2, 5)
+"""Scale-bar lengths are 1, 2 or 5 times a power of ten."""
+
+
+def bar_length(field: float) -> float:
+    """A round scale-bar length near a fifth of the field width (1, 2 or 5 × 10ⁿ).
+
+    Examples
+    --------
+    >>> bar_length(512.0), bar_length(64.0), bar_length(0.9)
+    (100.0, 10.0, 0.1)
+    """
+    target = field / 5.0
+    power = 10.0 ** math.floor(math.log10(target))
+    return max(s * power for s in SCALE_STEPS if s * power <= target)
+
+
+def scale_bar(ax, width_px: int, pixel_size_um: float | None) -> None:
+    """Draw a scale bar in the lower left of an image axes (pixels when the size is unknown).
+
+    The bar is white on a dark box so it reads on any micrograph.
+    """
+    unit, size = ("µm", pixel_size_um) if pixel_size_um else ("px", 1.0)
+    length = bar_length(width_px * size)
+    px = length / size
+    x0, y0 = 0.04, 0.05
+    from matplotlib.patches import Rectangle
+
+    ax.add_patch(Rectangle((x0 - 0.015, y0 - 0.025), px / width_px + 0.03, 0.1,
+                           transform=ax.transAxes, color="black", alpha=0.55, lw=0))
+    ax.plot([x0, x0 + px / width_px], [y0, y0], transform=ax.transAxes, color="white", lw=3,
+            solid_capstyle="butt")
+    ax.text(x0 + px / width_px / 2, y0 + 0.015, f"{number(length)} {unit}",
+            transform=ax.transAxes, color="white", ha="center", va="bottom", fontsize=8)
+
+
+def field_size(shape, pixel_size_um: float | None) -> str:
+    """The field of view in words: ``field 512 × 384 µm (1024 × 768 px)``.
+
+    Examples
+    --------
+    >>> field_size((384, 512), 0.5)
+    'field 256 × 192 µm (512 × 384 px)'
+    """
+    ny, nx = shape[-2], shape[-1]
+    px = f"{nx} × {ny} px"
+    if not pixel_size_um:
+        return f"field {px} (pixel size unknown)"
+    return f"field {number(nx * pixel_size_um)} × {number(ny * pixel_size_um)} µm ({px})"
+
+
+def grey_histogram(image, thresholds, names, colors):
+    """The grey-level histogram of a micrograph with the class boundaries (thresholds)
+    marked and each class named between its boundaries.
+
+    Parameters
+    ----------
+    image : ndarray
+        Grey image (2D).
+    thresholds : sequence of float
+        Class boundaries in grey levels, ascending.
+    names : sequence of str
+        Class names, darkest first (one more than the thresholds).
+    colors : sequence of str
+        Colours of the classes, darkest first.
+    """
+    fig, ax = new_axes(figsize=(6.4, 2.6))
+    values = np.asarray(image, dtype=float).ravel()
+    lo, hi = float(values.min()), float(values.max())
+    ax.hist(values, bins=128 if hi > lo else 1, color="#59606a", edgecolor="none")
+    edges = [lo] + sorted(float(t) for t in thresholds) + [hi]
+    for t in thresholds:
+        ax.axvline(float(t), color="#c8553d", lw=1.2)
+    top = ax.get_ylim()[1]
+    for i, name in enumerate(names[:len(edges) - 1]):
+        ax.axvspan(edges[i], edges[i + 1], color=colors[i % len(colors)], alpha=0.12, lw=0)
+        ax.text((edges[i] + edges[i + 1]) / 2, top * 0.92, name, ha="center", va="top",
+                fontsize=8)
+    ax.set_xlabel("grey level")
+    ax.set_ylabel("pixels")
+    ax.set_title("Grey levels with the class boundaries (red)", fontsize=10)
+    fig.tight_layout()
+    return fig
 
 
 def size_distributions(pp):
@@ -44,7 +128,7 @@ OUTLINE_COLORS = ("#ffd23f", "#3fd0ff", "#ff5fa2", "#9cff57")
 
 def outlines(image, phasemap, measured):
     """Particle outlines of every measured phase (colours `OUTLINE_COLORS` in order) over
-    the micrograph."""
+    the micrograph, with a scale bar."""
     labels = phasemap.labels
     fig, ax = new_axes(figsize=(4.6, 4.6))
     if image is not None and image.ndim == 2 and image.shape == labels.shape:
@@ -57,6 +141,7 @@ def outlines(image, phasemap, measured):
         rgba[edge] = matplotlib.colors.to_rgba(color)
     ax.imshow(rgba, interpolation="nearest")
     ax.set_axis_off()
+    scale_bar(ax, labels.shape[-1], phasemap.voxel_size_um)
     return fig
 
 
@@ -80,12 +165,14 @@ def correlations(curves, colors_by_name):
     return fig
 
 
-def field_map(values, label, cmap):
-    """A per-pixel field (image-indexed) with a colour bar clipped at the 99.5th percentile."""
+def field_map(values, label, cmap, pixel_size_um: float | None = None):
+    """A per-pixel field (image-indexed) with a colour bar clipped at the 99.5th percentile
+    and a scale bar."""
     fig, ax = new_axes(figsize=(4.8, 4.2))
     top = float(np.percentile(values, 99.5)) or float(values.max()) or 1.0
     im = ax.imshow(values, cmap=cmap, vmin=0.0, vmax=top, interpolation="nearest")
     ax.set_axis_off()
+    scale_bar(ax, values.shape[-1], pixel_size_um)
     fig.colorbar(im, ax=ax, fraction=0.046, pad=0.03, label=label)
     return fig
 
@@ -110,33 +197,33 @@ def window_figure(windows):
     um = windows.pixel_size_um
     ncol = min(3, len(keys))
     nrow = math.ceil(len(keys) / ncol)
-    fig, axes = new_axes((3.4 * ncol, 2.7 * nrow), nrow, ncol, squeeze=False)
+    fig, axes = new_axes((4.0 * ncol, 3.1 * nrow), nrow, ncol, squeeze=False)
     for ax, key in zip(axes.ravel(), keys):
         q = windows.quantities[key]
+        label, unit, sc = column_words(key)
         pts = [(min(lv.side_px), lv.area_px, lv.quantities[key])
                for lv in windows.levels if key in lv.quantities]
         side = np.array([p[0] for p in pts], dtype=float) * (um or 1.0)
-        mean = np.array([p[2].mean for p in pts])
-        spread = np.array([z * (p[2].sd or 0.0) for p in pts])
+        mean = np.array([p[2].mean for p in pts]) * sc
+        spread = np.array([z * (p[2].sd or 0.0) for p in pts]) * sc
         ax.errorbar(side, mean, yerr=spread, fmt="o", color="#20304f", capsize=3, markersize=4,
                     label="windows: mean, 95 % range")
         if q.variance_area is not None:
             fine = np.geomspace(side.min(), side.max(), 60)
             area = (fine / (um or 1.0)) ** len(windows.shape)
-            half = z * np.sqrt(q.variance_area / area)
-            ax.fill_between(fine, q.value - half, q.value + half, color="#e0a030",
+            half = z * np.sqrt(q.variance_area / area) * sc
+            ax.fill_between(fine, q.value * sc - half, q.value * sc + half, color="#e0a030",
                             alpha=0.25, label="integral-range fit, 95 %")
-        ax.axhline(q.value, color="#e0a030", lw=1)
+        ax.axhline(q.value * sc, color="#e0a030", lw=1)
         ax.set_xscale("log", base=2)
         ax.set_xticks(side, [sig(v, 3) for v in side])
         ax.minorticks_off()
-        label, unit = quantity_label(key)
-        ax.set_title(label + (f" ({unit})" if unit else ""), fontsize=9)
-        ax.set_xlabel(f"window side ({'µm' if um else 'px'})", fontsize=8)
-        ax.tick_params(labelsize=7)
+        ax.set_title(label + (f" ({unit})" if unit else ""), fontsize=10)
+        ax.set_xlabel(f"window side ({'µm' if um else 'px'})", fontsize=9)
+        ax.tick_params(labelsize=8)
         ax.grid(alpha=0.3)
     for ax in axes.ravel()[len(keys):]:
         ax.set_axis_off()
-    axes.ravel()[0].legend(fontsize=7, loc="best")
+    axes.ravel()[0].legend(fontsize=8, loc="best")
     fig.tight_layout()
     return fig

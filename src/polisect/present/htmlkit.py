@@ -8,9 +8,9 @@ matplotlib backend.
 Examples
 --------
 >>> grid(("Batch", "Sections"), [("A", 3)])
-'<table class="grid"><thead><tr><th>Batch</th><th>Sections</th></tr></thead><tbody><tr><td>A</td><td>3</td></tr></tbody></table>'
+'<div class="tablewrap"><table class="grid"><thead><tr><th>Batch</th><th>Sections</th></tr></thead><tbody><tr><td class="txt">A</td><td>3</td></tr></tbody></table></div>'
 >>> kv_table([("Pixel size", "0.5 µm")])
-'<table class="kv"><tr><th>Pixel size</th><td>0.5 µm</td></tr></table>'
+'<div class="tablewrap"><table class="kv"><tr><th>Pixel size</th><td>0.5 µm</td></tr></table></div>'
 """
 
 from __future__ import annotations
@@ -18,6 +18,7 @@ from __future__ import annotations
 import base64
 import html
 import io
+import re
 
 from matplotlib.figure import Figure
 
@@ -31,6 +32,18 @@ CAUTION = (
 CAUTION_SECTION = (f'<section class="caution"><strong>Caution.</strong> {html.escape(CAUTION)}'
                    "</section>")
 """`CAUTION` as the first section of a page."""
+
+CAUTION_MANY = (
+    "These numbers are estimates computed from images of polished sections, each section one "
+    "sample of its batch. They are meant for screening, ranking and comparing materials and "
+    "batches, not as design values. Verify them by measurement on the material itself, and "
+    "follow local codes, applicable standards and licensed engineering practice for any "
+    "design or qualification decision."
+)
+
+CAUTION_MANY_SECTION = (f'<section class="caution"><strong>Caution.</strong> '
+                        f"{html.escape(CAUTION_MANY)}</section>")
+"""The caution of a page over many sections (batch index, comparison)."""
 
 PALETTE = ("#20304f", "#e0a030", "#3f9e74", "#c8553d", "#7b68b5", "#4fb0c6", "#d98cb3",
            "#8c8c6a")
@@ -76,7 +89,7 @@ def kv_table(rows) -> str:
     """A two-column table of (name, value) rows, both escaped."""
     body = "".join(f"<tr><th>{html.escape(str(k))}</th><td>{html.escape(str(v))}</td></tr>"
                    for k, v in rows)
-    return f'<table class="kv">{body}</table>'
+    return f'<div class="tablewrap"><table class="kv">{body}</table></div>'
 
 
 def grid(head, rows, raw: bool = False) -> str:
@@ -96,9 +109,26 @@ def grid(head, rows, raw: bool = False) -> str:
     str
     """
     esc = (lambda s: s) if raw else (lambda s: html.escape(str(s)))
-    h = "".join(f"<th>{html.escape(c)}</th>" for c in head)
-    b = "".join("<tr>" + "".join(f"<td>{esc(c)}</td>" for c in r) + "</tr>" for r in rows)
-    return f'<table class="grid"><thead><tr>{h}</tr></thead><tbody>{b}</tbody></table>'
+    body = [[_cell(esc(c)) for c in r] for r in rows]
+    words = [i for i, c in enumerate(body[0]) if 'class="txt"' in c] if body else []
+    h = "".join(f'<th class="txt">{html.escape(c)}</th>' if i in words and i
+                else f"<th>{html.escape(c)}</th>" for i, c in enumerate(head))
+    b = "".join("<tr>" + "".join(r) + "</tr>" for r in body)
+    return (f'<div class="tablewrap"><table class="grid"><thead><tr>{h}</tr></thead>'
+            f"<tbody>{b}</tbody></table></div>")
+
+
+_NUMERIC = re.compile(r"^(<[^>]*>)*[-+−–±0-9.]")
+
+
+def _cell(text: str) -> str:
+    """A body cell: numbers right-aligned (the default), words left-aligned; a list or range
+    of numbers (``a / b / c``, ``a – b``) may wrap at its separators in a narrow frame."""
+    if text and not _NUMERIC.match(text):
+        return f'<td class="txt">{text}</td>'
+    if " / " in text or " – " in text:
+        return f'<td class="wrap">{text}</td>'
+    return f"<td>{text}</td>"
 
 
 def new_axes(figsize: tuple[float, float], nrows: int = 1, ncols: int = 1, **kwargs):
@@ -129,17 +159,29 @@ h3{font-size:1rem;margin:14px 0 6px}
 .warn{background:#fdecea;border-color:#e3a39a}
 table{border-collapse:collapse;font-size:.92rem;margin:6px 0}
 .kv th{text-align:left;padding:3px 14px 3px 0;color:#4a5560;font-weight:500;vertical-align:top}
-.kv td{padding:3px 0;word-break:break-all}
-.grid th,.grid td{border-bottom:1px solid #e6e3da;padding:4px 10px;text-align:right}
+.kv td{padding:3px 0;overflow-wrap:anywhere}
+.grid th,.grid td{border-bottom:1px solid #e6e3da;padding:4px 7px;text-align:right}
 .grid th:first-child,.grid td:first-child{text-align:left}
 .grid thead th{background:#eef1ee}
 .figs{display:flex;flex-wrap:wrap;gap:16px}
 figure{margin:0}
-figure img{max-width:480px;width:100%;border:1px solid #dedbd2}
+figure{max-width:100%}
+figure img{max-width:480px;width:100%;border:1px solid #dedbd2;box-sizing:border-box}
 figure.wide{width:100%}
 figure.wide img{max-width:100%;width:auto}
-section{overflow-x:auto}
+section{min-width:0}
+.tablewrap{max-width:100%;overflow-x:auto}
+.grid th{vertical-align:bottom;min-width:3.5em}
 .grid td{white-space:nowrap}
+.grid td:first-child{white-space:normal;min-width:8em}
+.grid td.txt,.grid th.txt{text-align:left;white-space:normal}
+.grid td.wrap{white-space:normal;min-width:4.5em}
+.matrix td:first-child{min-width:0;text-align:right}
+.sig{font-size:.75rem;background:#fdecea;color:#8a2a1d;border-radius:3px;padding:1px 6px;
+font-weight:500}
+.nsig{font-size:.75rem;background:#eef1ee;color:#4a5560;border-radius:3px;padding:1px 6px;
+font-weight:400}
+code{background:#f3f2ee;padding:0 3px;border-radius:3px}
 figcaption{font-size:.85rem;color:#4a5560}
 .swatch{display:inline-block;width:.9em;height:.9em;border-radius:2px;margin-right:6px;
 vertical-align:-1px;border:1px solid #0003}

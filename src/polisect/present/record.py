@@ -31,7 +31,8 @@ from ..measure.summary import (Correlation, ParticleSummary, SizeQuantiles, Sphe
                                VolumeParticleSummary)
 from ..model3d.summary import (Estimate3DRecord, FamilyRecord, PackingRecord, Versus2D,
                                VolumeRecord)
-from ..pipeline.result import AtTemperature, PhaseFraction, Result, SchemeTable, Source
+from ..pipeline.result import (AtTemperature, PhaseFraction, Result, SchemeTable, Source,
+                               Verification)
 from ..properties.fit import FitResult
 from ..properties.records import (AxialModuli, ComparableModuli, Conductivity, Effective,
                                   Elasticity, Expansion, Solver, Spread, value_of)
@@ -98,8 +99,23 @@ def to_dict(result: Result) -> dict:
         "notes": list(result.notes),
         "timings_s": dict(result.timings_s),
         "config": result.config_toml,
+        "verification": _verification(result.verification) if result.verification else None,
     }
     return plain(out)
+
+
+def _verification(v: Verification) -> dict:
+    return {"method": v.method, "second_method": v.second_method,
+            "relative_differences": dict(v.differences),
+            "max_relative_difference": v.max_relative_difference,
+            "tolerance": v.tolerance, "seconds": v.seconds,
+            "crop": list(v.crop) if v.crop is not None else None}
+
+
+def _read_verification(v: dict) -> Verification:
+    return Verification(v["method"], v["second_method"], dict(v["relative_differences"]),
+                        v["max_relative_difference"], v["tolerance"], v["seconds"],
+                        tuple(v["crop"]) if v.get("crop") is not None else None)
 
 
 def to_json(result: Result) -> str:
@@ -323,7 +339,9 @@ def from_dict(d: dict) -> Result:
                                  b["combined"], b["largest"], b["advice"], tuple(b["notes"]))
                      for key, b in (d.get("uncertainty") or {}).items()},
         warnings=tuple(d.get("warnings") or ()), notes=tuple(d.get("notes") or ()),
-        timings_s=dict(d.get("timings_s") or {}), created=d.get("created", ""))
+        timings_s=dict(d.get("timings_s") or {}), created=d.get("created", ""),
+        verification=(_read_verification(d["verification"]) if d.get("verification")
+                      else None))
 
 
 def _read_fitted(f: dict) -> FitResult:

@@ -13,12 +13,13 @@ import numpy as np
 from matplotlib.colors import ListedColormap
 
 from ..core.atomic import atomic_write_text
-from ..core.quantities import quantity_label
+from ..core.materials import library
 from ..properties.records import Spread, value_of
 from ..properties.shock import INDEX_WORDS
-from ..trust.sectionstats import sig
 from . import figures, record
-from .htmlkit import CAUTION_SECTION, CSS, PALETTE, figure_png, grid, kv_table, new_axes
+from .htmlkit import (CAUTION_SECTION, CSS, PALETTE, csp_meta, figure_png, grid, kv_table,
+                      new_axes)
+from .units import column_words, heading, number, scale_of, show, tensor_cells, unit_text
 
 EDGE_NOTES = {
     "periodic": "periodic — each window solved as a periodic cell; a window cut from a "
@@ -46,6 +47,7 @@ def html_report(analysis, colors: dict[int, str] | None = None) -> str:
     title = html.escape(_title(r))
     return f"""<!DOCTYPE html>
 <html lang="en"><head><meta charset="utf-8"><title>{title}</title>
+{csp_meta()}
 <meta name="viewport" content="width=device-width, initial-scale=1">
 <style>{CSS}</style></head>
 <body><header><h1>{title}</h1>
@@ -74,20 +76,25 @@ def _source(analysis, r, colors) -> str:
     px = (f"{s.pixel_size_um:.4g} µm (from {s.pixel_size_from})"
           if s.pixel_size_um else "unknown — sizes in pixels")
     rows = [("File", s.path or "array input"), ("SHA-256", s.sha256 or "–"),
-            ("Shape (pixels)", " × ".join(str(n) for n in s.shape)), ("Pixel size", px)]
+            ("Shape (pixels)", " × ".join(str(n) for n in s.shape)), ("Pixel size", px),
+            ("Field of view", figures.field_size(s.shape, s.pixel_size_um)[len("field "):])]
     if s.cropped_bottom_px:
-        rows.append(("Cropped at the bottom", f"{s.cropped_bottom_px} rows (information band)"))
+        rows.append(("Cropped at the bottom", f"{s.cropped_bottom_px} rows (the microscope's "
+                     "information band, cut before the analysis)"))
     for note in r.notes:
         if not note.startswith("schemes"):
             rows.append(("Note", note))
     if analysis.thresholds:
-        rows.append(("Thresholds", ", ".join(f"{t:.4g}" for t in analysis.thresholds)))
+        rows.append(("Thresholds (grey levels)",
+                     ", ".join(number(t) for t in analysis.thresholds)))
     return "<section><h2>Section</h2>" + kv_table(rows) + "</section>"
 
 
 def _images(analysis, r, colors) -> str:
     pm = analysis.phasemap
     img = analysis.image
+    um = pm.voxel_size_um
+    field = figures.field_size(pm.shape, um)
     figs = []
     if pm.ndim == 3:
         vol = img if img is not None and img.shape == pm.shape else None
@@ -95,22 +102,35 @@ def _images(analysis, r, colors) -> str:
         for title, index in ((f"slice z = {nz // 2} (x–y plane)", (nz // 2, slice(None), slice(None))),
                              (f"y = {ny // 2} (x–z plane)", (slice(None), ny // 2, slice(None))),
                              (f"x = {nx // 2} (y–z plane)", (slice(None), slice(None), nx // 2))):
-            figs.append((f"Orthogonal section, {title}", _overlay_png(
-                None if vol is None else vol[index], pm.labels[index], pm.phases, colors)))
+            plane = pm.labels[index]
+            figs.append((f"Orthogonal section, {title}; {figures.field_size(plane.shape, um)}",
+                         _overlay_png(None if vol is None else vol[index], plane, pm.phases,
+                                      colors, um)))
     else:
         if img is not None:
-            figs.append(("Micrograph", _png_image(img)))
-        figs.append(("Phase map overlay", _overlay_png(img, pm.labels, pm.phases, colors)))
+            figs.append((f"Micrograph; {field}", _png_image(img, um)))
+        figs.append((f"Phase map overlay; {field}",
+                     _overlay_png(img, pm.labels, pm.phases, colors, um)))
     cells = "".join(f'<figure><img alt="{html.escape(t)}" src="{u}"><figcaption>{html.escape(t)}'
                     "</figcaption></figure>" for t, u in figs)
     legend = "".join(f'<span class="swatch" style="background:{colors[p.label]}"></span>'
                      f"{html.escape(p.name)} &nbsp; " for p in pm.phases)
     title = "Phase map (orthogonal sections of the volume)" if pm.ndim == 3 else "Phase map"
-    return f'<section><h2>{title}</h2><div class="figs">{cells}</div><p>{legend}</p></section>'
+    hist = ""
+    if (pm.ndim == 2 and img is not None and img.ndim == 2 and analysis.thresholds
+            and len(analysis.thresholds) == len(pm.phases) - 1):
+        hist = ('<figure class="wide"><img alt="grey-level histogram" src="'
+                + figure_png(figures.grey_histogram(img, analysis.thresholds,
+                                                    [p.name for p in pm.phases],
+                                                    [colors[p.label] for p in pm.phases]))
+                + '"><figcaption>Grey-level histogram of the micrograph; the red lines are '
+                "the class boundaries used for the phase map.</figcaption></figure>")
+    return (f'<section><h2>{title}</h2><div class="figs">{cells}</div><p>{legend}</p>'
+            f"{hist}</section>")
 
 
 def _fractions(analysis, r, colors) -> str:
-    rows = []
+    rows, split = [], []
     for p in r.phases:
         lo, hi = p.fraction_ci95
         ra = p.relative_accuracy_pct
@@ -118,12 +138,80 @@ def _fractions(analysis, r, colors) -> str:
                      f'{html.escape(p.name)}', str(p.label), html.escape(p.material.name),
                      f"{p.fraction:.4f}", f"{lo:.4f} – {hi:.4f}",
                      "–" if ra is None else f"{ra:.1f} %"))
+        inside = p.inside_particles or 0.0
+        if inside > 0.0:
+            rows.append((f"&nbsp;&nbsp;↳ {html.escape(p.name)} outside particles (open)", "",
+                         "", f"{max(0.0, p.fraction - inside):.4f}", "", ""))
+            rows.append((f"&nbsp;&nbsp;↳ {html.escape(p.name)} inside particles (cores of "
+                         "hollow particles)", "", "", f"{inside:.4f}", "", ""))
+            split.append(p.name)
     n = r.phases[0].fields if r.phases else 0
     head = ("Phase", "Label", "Material", "Fraction", "95 % interval", "Relative accuracy")
+    split_note = ""
+    if split:
+        split_note = (f" The {html.escape(', '.join(split))} fraction is split into the part "
+                      "outside particles (open pores between particles) and the part enclosed "
+                      "by particles of another phase (the cores of hollow particles); the "
+                      "bounds and estimates below count the cores as part of the hollow "
+                      "particles.")
     return ("<section><h2>Phase fractions</h2>" + grid(head, rows, raw=True)
             + f"<p class=\"note\">Area fraction estimates volume fraction (Delesse, 1847). "
-            f"Interval from the field-to-field variation over {n} fields with Student t and n − 1 "
-            "degrees of freedom, as ASTM E562 does for point counts.</p></section>")
+            f"Interval from the field-to-field variation over {n} fields with Student t and "
+            f"n − 1 degrees of freedom, as ASTM E562 does for point counts.{split_note}</p>"
+            "</section>")
+
+
+def _value_origin(material) -> str:
+    """'library', 'library, changed: …' or 'given' for the values of one phase."""
+    lib = library().get(material.name)
+    if lib is None:
+        return "given"
+    if material.source == lib.source:
+        return "library"
+    _, _, changed = material.source.partition("; overridden: ")
+    return f"library, changed: {changed}" if changed else "given"
+
+
+def _material_value(value, kind):
+    if value is None:
+        return "–"
+    if np.ndim(value) == 2:
+        diag = np.diag(np.asarray(value, dtype=float))
+        return "tensor, diagonal " + ", ".join(number(v * scale_of(kind)) for v in diag)
+    return number(float(value) * scale_of(kind))
+
+
+def _materials(analysis, r, colors) -> str:
+    if not any(p.material.conductivity is not None or p.material.youngs_modulus is not None
+               or p.material.stiffness is not None for p in r.phases):
+        return ""
+    rows, sources = [], []
+    for p in r.phases:
+        m = p.material
+        origin = _value_origin(m)
+        rows.append((p.name, m.name, _material_value(m.conductivity, "conductivity"),
+                     _material_value(m.youngs_modulus, "modulus")
+                     + (" (full stiffness given)" if m.stiffness is not None else ""),
+                     _material_value(m.poisson_ratio, "poisson"),
+                     _material_value(m.expansion, "expansion"), origin))
+        by_text: dict[str, list[str]] = {}
+        for prop, text in (m.sources or {}).items():
+            by_text.setdefault(text, []).append(prop.replace("_", " "))
+        if len(by_text) == 1 and len(next(iter(by_text.values()))) > 1:
+            sources.append((f"{p.name}: all values", next(iter(by_text))))
+        else:
+            sources += [(f"{p.name}: {', '.join(props)}", text)
+                        for text, props in by_text.items()]
+        if not by_text:
+            sources.append((p.name, m.source))
+    head = ("Phase", "Material", heading("k", "conductivity"), heading("E", "modulus"), "ν",
+            heading("α", "expansion"), "Values from")
+    return ("<section><h2>Materials used</h2>" + grid(head, rows)
+            + "<h3>Sources of the values</h3>" + kv_table(sources)
+            + '<p class="note">The values each phase was given in the solve. Library values '
+            "are typical room-temperature figures (<code>polisect materials</code>); a grade, a "
+            "porosity below the pixel size or a temperature may change them by tens of per "
+            "cent: check them against data for your material.</p></section>")
 
 
 def _warnings(analysis, r, colors) -> str:
@@ -155,27 +243,27 @@ def _windows(analysis, r, colors) -> str:
     length = "µm" if um else "px"
     rows = []
     for key, q in w.quantities.items():
-        label, unit = quantity_label(key)
+        label, unit, sc = column_words(key)
         side = q.required_side_um if um else q.required_side_px
         a3 = q.integral_range_px
         err = q.supported_error_pct
         gitman = q.gitman_smallest_side_px
-        rows.append((label + (f" ({unit})" if unit else ""), sig(q.value, 4),
-                     "–" if a3 is None else sig(a3 * scale, 3),
+        rows.append((label + (f" ({unit})" if unit else ""), number(q.value * sc),
+                     "–" if a3 is None else number(a3 * scale, 3),
                      "–" if q.exponent is None else f"{q.exponent:.2f}",
-                     "–" if err is None else f"±{sig(err)} %",
-                     "–" if side is None else f"{sig(side, 3)} {length}",
+                     "–" if err is None else f"±{number(err, 2)} %",
+                     "–" if side is None else f"{number(side, 3)} {length}",
                      "–" if q.images_needed is None else str(q.images_needed),
-                     "–" if gitman is None else f"{sig(gitman * (um or 1), 3)} {length}"))
+                     "–" if gitman is None else f"{number(gitman * (um or 1), 3)} {length}"))
     head = ("Quantity", "Whole image", f"Integral range ({area_unit})", "Exponent α",
             f"Error supported ({w.confidence * 100:g} %)",
-            f"Side for ±{sig(w.target_error_pct)} %", "Images of this size",
+            f"Side for ±{number(w.target_error_pct, 2)} %", "Images of this size",
             "χ² criterion met from side")
     notes = "".join(f"<li>{html.escape(n)}</li>" for n in w.notes)
     return ("<section><h2>Is the image big enough? (window-size study)</h2>"
             f"<p><strong>{html.escape(w.verdict)}</strong></p>" + grid(head, rows)
-            + f'<figure><img alt="window study" src="{figure_png(figures.window_figure(w))}">'
-            "</figure>"
+            + '<figure class="wide"><img alt="window study" '
+            f'src="{figure_png(figures.window_figure(w))}"></figure>'
             + (f"<ul>{notes}</ul>" if notes else "")
             + f'<p class="note">The image was tiled into windows of side 1, 1/2, 1/4, … down to '
             f"{w.min_side_px} px (about {w.min_side_px / w.particle_diameter_px:.1f} "
@@ -195,18 +283,22 @@ def _particles(analysis, r, colors) -> str:
         return ""
     if analysis.phasemap.ndim == 3:
         return _particles_3d(parts)
-    rows = []
+    rows, stereo = [], []
+    units = {"um" if q.units == "um" else "px" for q in parts.values()}
+    unit = "µm" if units == {"um"} else "px"
     for name, q in parts.items():
-        unit = "µm" if q.units == "um" else "px"
         ecd = q.ecd
         rows.append((name, q.count, _n(q.count_per_mm2), _n(ecd.mean), _n(ecd.std),
-                     f"{_n(ecd.d10)}/{_n(ecd.d50)}/{_n(ecd.d90)}",
-                     _n(q.aspect_ratio_mean), _n(q.hollow_fraction),
-                     _n(q.inner_outer_ratio_mean), _n(q.spheres.mean if q.spheres else None),
-                     _n(q.number_per_mm3), _n(q.mean_free_path), _n(q.contiguity), unit))
-    head = ("Phase", "Count", "per mm²", "ECD mean", "ECD sd", "D10/D50/D90",
-            "Aspect", "Hollow", "Inner/outer", "Sphere D mean", "per mm³", "Free path",
-            "Contiguity", "Length unit")
+                     f"{_n(ecd.d10)} / {_n(ecd.d50)} / {_n(ecd.d90)}",
+                     _n(q.aspect_ratio_mean), _pct(q.hollow_fraction),
+                     _n(q.inner_outer_ratio_mean)))
+        stereo.append((name, _n(q.spheres.mean if q.spheres else None),
+                       _n(q.number_per_mm3), _n(q.mean_free_path), _n(q.contiguity)))
+    head = ("Phase", "Count", "Number per mm²", f"ECD mean ({unit})", f"ECD sd ({unit})",
+            f"ECD D10 / D50 / D90 ({unit})", "Aspect ratio", "Hollow particles",
+            "Inner / outer diameter")
+    head_3d = ("Phase", f"Sphere diameter, mean ({unit})", "Number per mm³",
+               f"Mean free path ({unit})", "Contiguity")
     names = ", ".join(f"{pp.name} ({c})" for pp, c in zip(
         analysis.particles, ("yellow", "cyan", "magenta", "green") * 4))
     figs = [(f"Particle outlines: {names}", figure_png(figures.outlines(
@@ -215,30 +307,37 @@ def _particles(analysis, r, colors) -> str:
     if analysis.correlations:
         figs.append(("Two-point correlation", figure_png(figures.correlations(
             analysis.correlations, by_name))))
-    cells = "".join(f'<figure><img alt="{t}" src="{u}"><figcaption>{t}</figcaption></figure>'
+    cells = "".join(f'<figure><img alt="{html.escape(t)}" src="{u}"><figcaption>{html.escape(t)}'
+                    "</figcaption></figure>"
                     for t, u in figs)
     dists = "".join(f'<figure class="wide"><img alt="sizes of {html.escape(pp.name)}" '
                     f'src="{figure_png(figures.size_distributions(pp))}"></figure>'
                     for pp in analysis.particles)
-    return ("<section><h2>Particles and stereology</h2>" + grid(head, rows)
+    return ("<section><h2>Particles and stereology</h2><h3>Sections (2D)</h3>"
+            + grid(head, rows) + "<h3>Stereology (3D from the sections)</h3>"
+            + grid(head_3d, stereo)
             + '<p class="note">ECD: equivalent circle diameter of the sections; D10/D50/D90 by '
             "number, particles cut by the image edge weighted by the Miles–Lantuéjoul rule. "
             "Sphere diameters and number per mm³ come from the Saltykov area method (sections "
             "of spheres assumed); free path and contiguity after Fullman (1953) and Gurland "
-            "(1958). Bootstrap 95 % intervals are in the JSON record.</p>"
+            "(1958). Hollow particles: the share of particles that enclose another phase; "
+            "inner / outer: the mean ratio of hole to particle diameter of those. Bootstrap "
+            "95 % intervals are in the JSON record.</p>"
             f'<div class="figs">{dists}</div><div class="figs">{cells}</div></section>')
 
 
 def _particles_3d(parts) -> str:
     rows = []
+    unit = "µm" if all(q.units == "um" for q in parts.values()) else "voxels"
     for name, q in parts.items():
         esd = q.sphere
         rows.append((name, q.count, q.count_measured, _n(q.number_per_mm3),
-                     _n(esd.mean), _n(esd.std), f"{_n(esd.d10)}/{_n(esd.d50)}/{_n(esd.d90)}",
-                     _n(q.hollow_fraction), _n(q.inner_outer_ratio_mean),
-                     "µm" if q.units == "um" else "voxels"))
-    head = ("Phase", "Count", "Measured", "per mm³", "ESD mean", "ESD sd", "D10/D50/D90",
-            "Hollow", "Inner/outer", "Length unit")
+                     _n(esd.mean), _n(esd.std),
+                     f"{_n(esd.d10)} / {_n(esd.d50)} / {_n(esd.d90)}",
+                     _pct(q.hollow_fraction), _n(q.inner_outer_ratio_mean)))
+    head = ("Phase", "Count", "Measured", "Number per mm³", f"ESD mean ({unit})",
+            f"ESD sd ({unit})", f"ESD D10 / D50 / D90 ({unit})", "Hollow particles",
+            "Inner / outer diameter")
     return ("<section><h2>Particles (3D, measured in the volume)</h2>" + grid(head, rows)
             + '<p class="note">ESD: equivalent sphere diameter of each particle\'s filled '
             "volume, counted voxel by voxel (no unfolding). Particles cut by a face of the "
@@ -248,19 +347,43 @@ def _particles_3d(parts) -> str:
 
 
 def _n(value) -> str:
-    if value is None:
-        return "–"
-    if isinstance(value, (int, np.integer)):
-        return str(value)
-    return f"{value:.4g}"
+    return number(value)
 
 
-SCHEME_COLUMNS = (("conductivity", "k W/(m·K)", 1.0),
-                  ("bulk_modulus", "K GPa", 1.0),
-                  ("shear_modulus", "G GPa", 1.0),
-                  ("youngs_modulus", "E GPa", 1.0),
-                  ("poisson_ratio", "ν", 1.0),
-                  ("expansion", "α 10⁻⁶/K", 1e6))
+def _pct(share) -> str:
+    """A share 0–1 as a percentage (the share of particles that are hollow)."""
+    return "–" if share is None else f"{number(share * 100, 3)} %"
+
+
+SCHEME_COLUMNS = (("conductivity", "k", "conductivity"),
+                  ("bulk_modulus", "K", "modulus"),
+                  ("shear_modulus", "G", "modulus"),
+                  ("youngs_modulus", "E", "modulus"),
+                  ("poisson_ratio", "ν", "poisson"),
+                  ("expansion", "α", "expansion"))
+"""`Estimate` field, symbol and kind of quantity of the scheme table's columns."""
+
+SCHEME_NAMES = {
+    "voigt": "Voigt (arithmetic mean; Wiener upper bound)",
+    "reuss": "Reuss (harmonic mean; Wiener lower bound)",
+    "mori-tanaka": "Mori–Tanaka",
+    "self-consistent": "Self-consistent (Bruggeman)",
+    "differential": "Differential effective medium",
+    "generalized-self-consistent": "Generalized self-consistent (Christensen–Lo)",
+    "composite-spheres": "Composite spheres assemblage (Hashin)",
+    "composite-cylinders": "Composite cylinders assemblage (Hashin–Rosen)",
+    "turner": "Turner (expansion)",
+    "kerner": "Kerner (expansion)",
+}
+"""Scheme key of the result → the name people know it by."""
+
+BOUNDED = {"conductivity", "bulk_modulus", "shear_modulus", "youngs_modulus", "expansion"}
+"""Columns whose bounds mean something (Poisson's ratio has no bounds of its own)."""
+
+
+def scheme_name(key: str) -> str:
+    """The proper name of a scheme key (the key itself when unknown)."""
+    return SCHEME_NAMES.get(key, key)
 
 
 def computed_values(effective) -> dict:
@@ -282,25 +405,66 @@ def computed_values(effective) -> dict:
     return {k: v for k, v in out.items() if v is not None}
 
 
-def _schemes_table(table, computed, title, note):
-    head = ("",) + tuple(c[1] for c in SCHEME_COLUMNS)
+def _bound_cell(bound, side: str, key: str, kind: str) -> str:
+    if key not in BOUNDED or bound is None:
+        return "–"
+    value = getattr(bound, side)
+    if value is None:
+        return "–"
+    return number(value * scale_of(kind), trim=False)
+
+
+def _schemes_table(table, computed, title, computed_label):
+    head = ("",) + tuple(heading(sym, kind) for _, sym, kind in SCHEME_COLUMNS)
     rows = []
 
-    def cell(value, scale):
-        return "–" if value is None else f"{value * scale:.4g}"
+    def cell(value, kind):
+        return "–" if value is None else number(value * scale_of(kind), trim=False)
 
     if computed:
-        rows.append(("<strong>computed (solver)</strong>",) + tuple(
-            f"<strong>{cell(computed.get(k), sc)}</strong>" for k, _, sc in SCHEME_COLUMNS))
-    for side in ("lower", "upper"):
-        rows.append((f"bound, {side}",) + tuple(
-            "–" if k == "poisson_ratio" or k not in table.bounds
-            else cell(getattr(table.bounds[k], side), sc) for k, _, sc in SCHEME_COLUMNS))
+        rows.append((f"<strong>{html.escape(computed_label)}</strong>",) + tuple(
+            f"<strong>{cell(computed.get(k), kind)}</strong>" for k, _, kind in SCHEME_COLUMNS))
+    for side, words in (("lower", "Hashin–Shtrikman lower bound"),
+                        ("upper", "Hashin–Shtrikman upper bound")):
+        rows.append((words,) + tuple(_bound_cell(table.bounds.get(k), side, k, kind)
+                                     for k, _, kind in SCHEME_COLUMNS))
     for name, est in table.estimates.items():
-        rows.append((html.escape(name),) + tuple(cell(getattr(est, k), sc)
-                                                 for k, _, sc in SCHEME_COLUMNS))
-    return (f"<h3>{html.escape(title)}</h3>" + grid(head, rows, raw=True)
-            + f'<p class="note">{html.escape(note)}</p>')
+        rows.append((html.escape(scheme_name(name)),) + tuple(
+            cell(getattr(est, k), kind) for k, _, kind in SCHEME_COLUMNS))
+    return f"<h3>{html.escape(title)}</h3>" + grid(head, rows, raw=True)
+
+
+def _scheme_notes(r, two_d: bool) -> list[str]:
+    """Plain-words notes on the bounds and estimates of this result."""
+    notes = ["The bounds are those of Hashin and Shtrikman (1962, 1963) on conductivity and on "
+             "the bulk and shear moduli; the Young's modulus bounds follow from those. Every "
+             "isotropic arrangement of these phases lies between them. Poisson's ratio has no "
+             "bounds of its own and none is shown."]
+    has_alpha = r.schemes is not None and any(
+        b is not None and b.lower is not None
+        for k, b in r.schemes.bounds.items() if k == "expansion")
+    notes.append("Expansion bounds (Rosen and Hashin 1970; Schapery 1968) exist for two phases "
+                 "only and are shown only then." if not has_alpha else
+                 "Expansion bounds: Rosen and Hashin (1970) for cylinders, Schapery (1968) for "
+                 "spheres, two phases.")
+    notes.append("The estimates assume a matrix with particles in it (Mori–Tanaka, "
+                 "differential, generalized self-consistent, composite assemblage) or no "
+                 "matrix at all (self-consistent). Their expansion follows from each scheme's "
+                 "bulk modulus by Levin's relation (exact for two phases).")
+    if two_d:
+        notes.append("For the 2D section, the table is the model of long parallel cylinders seen "
+                     "across: K here is the transverse bulk modulus in plane strain (k_T, with "
+                     "the axial strain held at zero), and E, ν and α are the transverse values "
+                     "of a prism free to stretch along its axis.")
+    if any("hollow particles" in n for n in r.notes):
+        notes.append("Hollow particles are modelled as hollow spheres (cylinders): the pores "
+                     "inside them count as their cores, not as free porosity.")
+    matrix = [n for n in r.notes if "as the matrix" in n]
+    if matrix:
+        name = matrix[0].split(" use ")[-1].replace(" as the matrix", "").strip("'")
+        notes.append(f"The matrix of the matrix-based schemes is {name} (the largest phase, or "
+                     "the one given).")
+    return notes
 
 
 def _schemes(analysis, r, colors) -> str:
@@ -309,48 +473,103 @@ def _schemes(analysis, r, colors) -> str:
     two_d = analysis.phasemap.ndim == 2
     parts = [_schemes_table(
         r.schemes, computed_values(r.effective),
-        "Circular cylinders, transverse plane (the model a solved 2D section describes)"
+        "Long parallel cylinders, across (the model a solved 2D section describes)"
         if two_d else "Spherical particles",
-        "Bounds: Hashin–Shtrikman (conductivity, moduli), Schapery / Rosen–Hashin "
-        "(two-phase expansion). For 2D, K is the plane-strain transverse bulk modulus.")]
+        "This section, solved (transverse k_T for K)" if two_d else "This volume, solved")]
     if r.schemes_3d:
         parts.append(_schemes_table(
             r.schemes_3d, {},
-            "Spherical particles (the 3D particle composite; no 3D solve of a 2D section)",
-            "These estimates treat the section's phases as spheres in 3D. They are the "
-            "analytical counterpart of the 3D composite, not of the 2D solve above."))
-    notes = "".join(f"<li>{html.escape(n)}</li>" for n in r.notes if n.startswith("schemes"))
+            "Spherical particles in 3D (the particle composite; no 3D solve of a 2D section)",
+            ""))
+        parts.append('<p class="note">The spheres table treats the section\'s phases as '
+                     "spheres in 3D: it is the analytical counterpart of the 3D composite, "
+                     "not of the 2D solve above.</p>")
+    items = "".join(f"<li>{html.escape(n)}</li>" for n in _scheme_notes(r, two_d))
+    raw = "".join(f"<li>{html.escape(n)}</li>" for n in r.notes if n.startswith("schemes"))
     return ("<section><h2>Bounds and mean-field estimates</h2>" + "".join(parts)
-            + (f'<ul class="note">{notes}</ul>' if notes else "") + "</section>")
+            + f'<ul class="note">{items}</ul>'
+            + (f"<details><summary>Scheme notes as recorded</summary><ul class=\"note\">{raw}"
+               "</ul></details>" if raw else "") + "</section>")
+
+
+def _property_rows(eff) -> list[tuple[str, str, str]]:
+    """(quantity, value, what it is) rows of the solved properties."""
+    c, e, x = eff.conductivity, eff.elasticity, eff.expansion
+    two_d = eff.dimension == 2
+    plane = "in-plane " if two_d else ""
+    rows = []
+    if c:
+        rows.append(("Thermal conductivity", show(value_of(c.mean), "conductivity"),
+                     f"mean of the {plane}conductivity tensor below"))
+    if e:
+        rows += [("Young's modulus", show(value_of(e.youngs_modulus), "modulus"),
+                  f"isotropic part of the {plane}stiffness below"),
+                 ("Poisson's ratio", number(value_of(e.poisson_ratio), 3, trim=False),
+                  f"isotropic part of the {plane}stiffness below")]
+        if two_d:
+            rows.append(("Bulk modulus, areal K_A", show(value_of(e.bulk_modulus), "modulus"),
+                         "equal stretch in the plane, the prism free to stretch along its "
+                         "axis (the stiffness below)"))
+            comp = e.scheme_comparable
+            if comp is not None and comp.bulk_modulus is not None:
+                rows.append(("Bulk modulus, transverse plane-strain k_T",
+                             show(comp.bulk_modulus, "modulus"),
+                             "the same solve with the axial strain held at zero: the quantity "
+                             "the cylinder bounds and estimates give"))
+        else:
+            rows.append(("Bulk modulus", show(value_of(e.bulk_modulus), "modulus"),
+                         "isotropic part of the stiffness below"))
+        rows.append(("Shear modulus", show(value_of(e.shear_modulus), "modulus"),
+                     f"isotropic part of the {plane}stiffness below"))
+        if e.axial:
+            rows += [("Axial Young's modulus", show(e.axial.youngs_modulus, "modulus"),
+                      "along the prism (the viewing direction)"),
+                     ("Axial shear modulus", show(e.axial.shear_modulus, "modulus"),
+                      "shear along the prism")]
+    if x:
+        rows.append(("Thermal expansion", show(value_of(x.mean), "expansion"),
+                     f"mean of the {plane}expansion tensor below"))
+        if x.axial is not None:
+            rows.append(("Axial thermal expansion", show(x.axial, "expansion"),
+                         "along the prism"))
+    return rows
+
+
+def _verification_html(v, facts) -> str:
+    """What the second solver found (or that it did not run)."""
+    if v is None:
+        return ('<p class="note"><strong>Second solver: not run.</strong> The two solvers '
+                "(FFT-preconditioned and assembled finite elements) solve the same equations; "
+                "run with <code>--verify</code> (or <code>[solve] verify = true</code>) to "
+                "solve again with the other one and state their largest difference.</p>")
+    where = ("on the whole map" if v.crop is None else
+             f"on a centred crop of {' × '.join(map(str, v.crop))} px (the whole map "
+             "would need too much memory or time for the assembled solver)")
+    rows = [(prop, f"{number(d, 2)}") for prop, d in v.differences.items()]
+    verdict = ("agree" if v.max_relative_difference <= 10 * v.tolerance
+               else "DIFFER by more than ten times the solver tolerance")
+    return (f"<h3>Second solver (verification)</h3><p>Solved again with <strong>"
+            f"{html.escape(v.second_method)}</strong> {html.escape(where)} "
+            f"({number(v.seconds, 2)} s). Largest relative difference from "
+            f"{html.escape(v.method)}: <strong>{number(v.max_relative_difference, 2)}</strong>"
+            f" — the solvers {verdict} (tolerance {number(v.tolerance, 2)}).</p>"
+            + grid(("property", "largest relative difference of the tensor"), rows)
+            + '<p class="note">Difference: the largest entry of |A − B| over the largest '
+            "entry of |A|, for each effective tensor.</p>")
 
 
 def _effective(analysis, r, colors) -> str:
     eff = r.effective
     if not eff:
         return ""
-    rows, facts = [], []
+    facts = []
     c, e, x = eff.conductivity, eff.elasticity, eff.expansion
     two_d = eff.dimension == 2
     if c:
-        rows.append(("Thermal conductivity (mean of the tensor)", f"{value_of(c.mean):.4g} W/(m·K)"))
         facts.append(("conductivity", c.solver))
     if e:
-        rows += [("Young's modulus (in-plane, isotropic part)" if two_d
-                  else "Young's modulus (isotropic part)", f"{value_of(e.youngs_modulus):.4g} GPa"),
-                 ("Poisson's ratio", f"{value_of(e.poisson_ratio):.4g}"),
-                 ("Bulk modulus" + (" (in-plane, areal)" if two_d else ""),
-                  f"{value_of(e.bulk_modulus):.4g} GPa"),
-                 ("Shear modulus", f"{value_of(e.shear_modulus):.4g} GPa")]
-        if e.axial:
-            rows += [("Axial Young's modulus (along the prism)",
-                      f"{e.axial.youngs_modulus:.4g} GPa"),
-                     ("Axial shear modulus", f"{e.axial.shear_modulus:.4g} GPa")]
         facts.append(("elasticity", e.solver))
     if x:
-        rows.append(("Thermal expansion (mean" + (", in-plane)" if two_d else ")"),
-                     f"{value_of(x.mean) * 1e6:.4g} ×10⁻⁶/K"))
-        if x.axial is not None:
-            rows.append(("Axial thermal expansion", f"{x.axial * 1e6:.4g} ×10⁻⁶/K"))
         facts.append(("expansion", x.solver))
     tens = []
     if c:
@@ -360,36 +579,48 @@ def _effective(analysis, r, colors) -> str:
                                              "xx, yy, zz, yz, xz, xy") + "), GPa",
                      e.stiffness, 1.0))
     if x:
-        tens.append(("Thermal expansion tensor, 10⁻⁶/K", x.tensor, 1e6))
+        tens.append((f"Thermal expansion tensor, {unit_text('expansion')}", x.tensor,
+                     scale_of("expansion")))
     tensor_html = "".join(f"<h3>{html.escape(t)}</h3>" + _matrix(m, sc) for t, m, sc in tens)
-    fact_rows = [(what, f.method, str(f.iterations), f"{f.seconds:.2f} s",
-                  f"{f.tolerance:g}", "yes" if f.converged else "NO")
+    fact_rows = [(what, f.method, str(f.iterations), f"{number(f.seconds, 3)} s",
+                  number(f.tolerance, 2), "yes" if f.converged else "NO")
                  for what, f in facts]
     maps = []
+    um = analysis.phasemap.voxel_size_um
     if "heat_flux" in analysis.field_maps:
         maps.append(("Heat-flux magnitude under a unit mean gradient along x",
                      figure_png(figures.field_map(analysis.field_maps["heat_flux"],
-                                                  "|q|, W/m² per K/m", "inferno"))))
+                                                  "|q|, W/m² per K/m", "inferno", um))))
     if "von_mises" in analysis.field_maps:
         maps.append(("von Mises stress under a unit uniaxial mean stress along x",
                      figure_png(figures.field_map(analysis.field_maps["von_mises"],
-                                                  "σ_vM / σ̄", "viridis"))))
+                                                  "σ_vM / σ̄", "viridis", um))))
     cells = "".join(f'<figure><img alt="{html.escape(t)}" src="{u}"><figcaption>'
                     f"{html.escape(t)}</figcaption></figure>" for t, u in maps)
     note = (f'<p class="prism"><strong>Model:</strong> {html.escape(eff.model)}. '
             f'{html.escape(eff.note or "")}</p>')
+    bulk_note = ""
+    if two_d and e is not None:
+        bulk_note = ('<p class="note">Two bulk moduli, one solve: K_A is read from the '
+                     "in-plane stiffness with the prism free to stretch along its axis; k_T "
+                     "holds the axial strain at zero (for an isotropic solid k_T = K + G/3). "
+                     "The bounds and estimates table compares k_T.</p>")
     return ("<section><h2>Effective properties (computed on the phase map)</h2>" + note
-            + kv_table(rows) + tensor_html
+            + grid(("Quantity", "Value", "What it is"), _property_rows(eff)) + bulk_note
+            + tensor_html
             + "<h3>Solvers</h3>" + grid(("property", "method", "iterations", "time",
                                          "tolerance", "converged"), fact_rows)
+            + _verification_html(r.verification, facts)
             + f'<p class="note">Axes: {html.escape(eff.axes)}. Periodic pixel-element '
-            "solution; the image is treated as one periodic cell.</p>"
+            "solution; the image is treated as one periodic cell. Tensor entries below "
+            "10⁻⁶ of the largest are solver noise and shown as 0; all entries to the "
+            "resolution of the largest.</p>"
             + (f'<div class="figs">{cells}</div>' if cells else "") + "</section>")
 
 
 def _matrix(m, scale) -> str:
-    body = "".join("<tr>" + "".join(f"<td>{v * scale:.4g}</td>" for v in row) + "</tr>"
-                   for row in m)
+    body = "".join("<tr>" + "".join(f"<td>{v}</td>" for v in row) + "</tr>"
+                   for row in tensor_cells(m, scale))
     return f'<table class="grid matrix"><tbody>{body}</tbody></table>'
 
 
@@ -397,10 +628,8 @@ def _shock(analysis, r, colors) -> str:
     sh = r.shock
     if not sh:
         return ""
-    rows = [(f"{sym}: {INDEX_WORDS[attr]}",
-             "–" if getattr(sh, attr) is None else f"{getattr(sh, attr):.4g} {unit}")
-            for attr, sym, unit in (("R", "R", "K"), ("R_prime", "R′", "W/m"),
-                                    ("R_4prime", "R′′′′", "m"))]
+    rows = [(f"{sym}: {INDEX_WORDS[attr]}", show(getattr(sh, attr), attr))
+            for attr, sym in (("R", "R"), ("R_prime", "R′"), ("R_4prime", "R′′′′"))]
     return ("<section><h2>Thermal-shock indices (Hasselman, 1969)</h2>" + kv_table(rows)
             + f'<p class="note">From the computed properties ({html.escape(sh.model)}). '
             f"{html.escape(sh.caution)}</p></section>")
@@ -423,16 +652,17 @@ def _estimate_3d(analysis, r, colors) -> str:
         name, unit, sc, block, attr = labels.get(v.quantity, (v.quantity, "", 1.0, None, ""))
         spread = getattr(block, attr) if block is not None else None
         ci = spread.ci95 if isinstance(spread, Spread) else None
-        ci_txt = "–" if not ci or ci[0] is None else f"{ci[0] * sc:.4g} – {ci[1] * sc:.4g}"
-        rows.append((name + (f" ({unit})" if unit else ""), f"{v.section_2d * sc:.4g}",
-                     f"{v.estimate_3d * sc:.4g}", ci_txt, f"{v.difference_pct:+.1f} %"))
+        ci_txt = ("–" if not ci or ci[0] is None
+                  else f"{number(ci[0] * sc)} – {number(ci[1] * sc)}")
+        rows.append((name + (f" ({unit})" if unit else ""), number(v.section_2d * sc),
+                     number(v.estimate_3d * sc), ci_txt, f"{v.difference_pct:+.1f} %"))
         if v.sentence:
             sentences.append(v.sentence)
     vol = e3.volume
     facts = [("Reconstructions", str(e3.realizations)),
              ("Voxels", " × ".join(str(n) for n in vol.voxels)),
-             ("Box / D90", f"{vol.box_over_d90:.3g}" if vol.box_over_d90 else "–"),
-             ("D10 in voxels", f"{vol.d10_voxels:.3g}" if vol.d10_voxels else "–")]
+             ("Box / D90", number(vol.box_over_d90, 3) if vol.box_over_d90 else "–"),
+             ("D10 in voxels", number(vol.d10_voxels, 3) if vol.d10_voxels else "–")]
     if vol.compromise:
         facts.append(("Compromise", vol.compromise))
     items = "".join(f"<li>{html.escape(s)}</li>" for s in sentences)
@@ -446,18 +676,19 @@ def _estimate_3d(analysis, r, colors) -> str:
             "phases need a real volume (docs/methods.md).</p></section>")
 
 
-SECTIONS = [_caution, _warnings, _source, _images, _fractions, _effective, _estimate_3d,
-            _schemes, _shock, _particles, _windows, _config, _raw_json]
+SECTIONS = [_caution, _warnings, _source, _images, _fractions, _materials, _effective,
+            _estimate_3d, _schemes, _shock, _particles, _windows, _config, _raw_json]
 
 
-def _png_image(img) -> str:
+def _png_image(img, pixel_size_um=None) -> str:
     fig, ax = new_axes((4.6, 4.6))
     ax.imshow(img, cmap="gray", interpolation="nearest")
     ax.set_axis_off()
+    figures.scale_bar(ax, img.shape[1], pixel_size_um)
     return figure_png(fig)
 
 
-def _overlay_png(img, labels, phases, colors) -> str:
+def _overlay_png(img, labels, phases, colors, pixel_size_um=None) -> str:
     order = [p.label for p in phases]
     lut = np.zeros(max(order) + 1, dtype=int)
     lut[order] = np.arange(len(order))
@@ -471,4 +702,5 @@ def _overlay_png(img, labels, phases, colors) -> str:
         ax.imshow(lut[labels], cmap=cmap, vmin=-0.5, vmax=len(order) - 0.5,
                   interpolation="nearest")
     ax.set_axis_off()
+    figures.scale_bar(ax, labels.shape[1], pixel_size_um)
     return figure_png(fig)

@@ -106,6 +106,7 @@ class UncertaintyConfig:
     discretization: bool = True
     material: bool = True
 
+    verify: bool = False
 
 @dataclass(frozen=True)
 class WindowsConfig:
@@ -478,6 +479,8 @@ def _check(cfg: Config) -> None:
     for prop in sol.properties:
         _choice(prop, SOLVE_PROPERTIES, "[solve] properties entry")
     _choice(sol.method, SOLVE_METHODS, "[solve] method")
+    if not isinstance(sol.verify, bool):
+        raise InputError(f"[solve] verify = {sol.verify!r}: give true or false")
     _choice(sol.plane, PLANES, "[solve] plane")
     _choice(cfg.windows.edges, WINDOW_EDGES, "[windows] edges")
     temps = sol.temperatures_C

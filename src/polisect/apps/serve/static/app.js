@@ -658,6 +658,7 @@
     const properties = [...document.querySelectorAll("#props input:checked")].map((i) => i.value);
     const solve = { properties, plane: $("plane").value };
     if ($("est3d").checked) solve.estimate_3d = true;
+    if ($("verify").checked) solve.verify = true;
     const run = { image, segment, phase, solve };
     if ($("windows").checked) run.windows = { study: true };
     return run;
