@@ -16,6 +16,7 @@ import numpy as np
 from ..core import tensors
 from ..core.phasemap import PhaseMap
 from .solve import conductivity, elasticity, expansion
+from .solve.expansion import stiffness_tolerance
 
 PLANE_WORDS = {
     "generalized-plane-strain": "generalized plane strain (free uniform axial strain, zero "
@@ -42,8 +43,8 @@ class Effective:
 
 def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
                     tol: float = 1e-6, plane: str = "generalized-plane-strain",
-                    maps: bool = True, progress: Callable[[str], None] | None = None
-                    ) -> Effective:
+                    maps: bool = True, progress: Callable[[str], None] | None = None,
+                    criterion: str = "energy") -> Effective:
     """Run the solvers asked for and build the ``effective`` block.
 
     Parameters
@@ -52,12 +53,18 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
         2D section or 3D volume; every phase's material must carry the properties needed.
     properties : iterable of {'conductivity', 'elasticity', 'expansion'}
     method, tol, plane
-        Passed to `polisect.properties.solve` (plane only for 2D).
+        Passed to `polisect.properties.solve` (plane only for 2D). *tol* is the accuracy
+        of the effective values (energy stopping rule, `polisect.properties.solve.cg`);
+        when the expansion is asked for, the stiffness is solved to ``tol/100`` because
+        the expansion is computed from its strain localisation without another solve
+        (`polisect.properties.solve.expansion`).
     maps : bool
         Keep the heat-flux magnitude under a unit x gradient and the von Mises stress
         under a unit uniaxial x stress, as image-indexed arrays.
     progress : callable, optional
         Called with a stage description.
+    criterion : {'energy', 'residual'}
+        Stopping rule of the solvers (see `polisect.properties.solve.conductivity`).
 
     Returns
     -------
@@ -79,7 +86,7 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
                    "conductivity": None, "elasticity": None, "expansion": None}
     if "conductivity" in props:
         say("solving for the effective conductivity")
-        c = conductivity(labels, mats, method=method, tol=tol, fields=maps)
+        c = conductivity(labels, mats, method=method, tol=tol, fields=maps, criterion=criterion)
         block["conductivity"] = {"tensor_W_mK": c.tensor, "mean_W_mK": c.mean(),
                                  "anisotropy": c.anisotropy(), "solver": c.facts.to_dict()}
         _converged(c, "conductivity", warnings)
@@ -88,16 +95,19 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
     stiff = None
     if "elasticity" in props or "expansion" in props:
         say("solving for the effective stiffness")
-        stiff = elasticity(labels, mats, plane=plane, method=method, tol=tol,
-                           fields=maps and "elasticity" in props)
+        stiff = elasticity(labels, mats, plane=plane, method=method,
+                           tol=stiffness_tolerance(tol, criterion) if "expansion" in props
+                           else tol, fields=maps and "elasticity" in props,
+                           criterion=criterion)
         _converged(stiff, "elasticity", warnings)
     if "elasticity" in props:
         block["elasticity"] = _elastic_block(stiff, two_d)
         if maps and stiff.fields is not None:
             out_maps["von_mises"] = _image_plane(stiff.fields.von_mises_uniaxial("x"))
     if "expansion" in props:
-        say("solving for the effective thermal expansion")
-        x = expansion(labels, mats, plane=plane, method=method, tol=tol, stiffness=stiff)
+        say("the effective thermal expansion from the strain localisation")
+        x = expansion(labels, mats, plane=plane, method=method, tol=tol, stiffness=stiff,
+                      criterion=criterion)
         _converged(x, "expansion", warnings)
         block["expansion"] = {"tensor_per_K": x.tensor, "mean_per_K": x.mean(),
                               "axial_per_K": x.axial, "anisotropy": x.anisotropy(),

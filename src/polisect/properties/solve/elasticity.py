@@ -49,6 +49,11 @@ class ElasticityResult(HasFacts):
         Generalized plane strain: the full stiffness of the prismatic structure (z the
         prism axis), in-plane/axial block and antiplane shear block.
     fields : ElasticFields or None
+    phase_strains : (n_loads, n_phases, nc, d) ndarray or None
+        Phase sums ``Σ_{pixels of p} g / N`` of the total displacement gradient under each unit
+        load case (order of `load_stiffness`): ``f_p`` times the phase averages of the
+        strain-localisation tensor, which give the thermal expansion without another
+        solve (`expansion`).
     """
 
     stiffness: np.ndarray
@@ -56,6 +61,7 @@ class ElasticityResult(HasFacts):
     facts: SolverFacts
     prismatic_stiffness: np.ndarray | None = None
     fields: ElasticFields | None = None
+    phase_strains: np.ndarray | None = None
 
     @property
     def load_stiffness(self) -> np.ndarray:
@@ -111,7 +117,8 @@ def axial_map(axial: np.ndarray) -> np.ndarray:
 
 
 def elasticity(labels, materials: Mapping, *, plane: str = GPS, method: str = "auto",
-               tol: float = 1e-6, maxiter: int | None = None, fields=False) -> ElasticityResult:
+               tol: float = 1e-6, maxiter: int | None = None, fields=False,
+               criterion: str = "energy") -> ElasticityResult:
     """Effective stiffness of a periodic 2D or 3D phase map.
 
     Parameters
@@ -125,10 +132,15 @@ def elasticity(labels, materials: Mapping, *, plane: str = GPS, method: str = "a
         Plane mode of a 2D image (see the module notes); ignored in 3D.
     method : {'auto', 'fft', 'fe', 'ms'}
     tol : float
+        As for `conductivity`: with ``criterion="energy"`` the estimated relative error of
+        the diagonal entries of the stiffness over the load cases (off-diagonal entries
+        within ``tol·√(C_ii C_jj)``).
     maxiter : int, optional
     fields : bool or sequence of load names
         Keep strain and stress fields of all (True) or the named unit-strain load cases
         ('xx', 'yy', 'xy', …, 'zz' for the axial load of generalized plane strain).
+    criterion : {'energy', 'residual'}
+        Stopping rule of 'fft' and 'fe' (see `conductivity`).
 
     Returns
     -------
@@ -150,11 +162,12 @@ def elasticity(labels, materials: Mapping, *, plane: str = GPS, method: str = "a
     (70.0, 0.3)
     """
     image = phase_image(labels, materials)
-    return elastic_result(image, check_plane(plane, image.dim), method, tol, maxiter, fields)
+    return elastic_result(image, check_plane(plane, image.dim), method, tol, maxiter, fields,
+                          criterion)
 
 
 def elastic_result(image: PhaseImage, plane: str | None, method: str, tol: float,
-                   maxiter: int | None, fields) -> ElasticityResult:
+                   maxiter: int | None, fields, criterion: str = "energy") -> ElasticityResult:
     """`elasticity` on a checked `PhaseImage`."""
     phases = elastic_phases(image, plane, thermal=False)
     cell = elastic_cell(image, phases)
@@ -163,28 +176,34 @@ def elastic_result(image: PhaseImage, plane: str | None, method: str, tol: float
     loads = [Load(tensors.voigt_to_strain(e)) for e in np.eye(len(names))]
     if plane == GPS:
         names = names + ("zz",)
-        loads.append(Load(np.zeros((2, 2)), tau=tensors.voigt_to_stress(phases.axial)))
+        loads.append(Load(np.zeros((2, 2)), tau=tensors.voigt_to_stress(phases.axial),
+                          voigt=float(cell.fractions @ phases.axial_stiffness)))
     flags = field_flags(names, fields)
     run = solve_loads(cell, loads, method, tol, maxiter, flags,
                       [f"{'axial ' if plane == GPS and n == 'zz' else ''}strain {n}"
-                       for n in names])
+                       for n in names], criterion)
     C = np.column_stack([tensors.stress_to_voigt(s.mean_flux(cell, ld))
                          for s, ld in zip(run.solutions, loads)])
+    strains = np.array([s.phase_means for s in run.solutions])
     if plane != GPS:
+        C = run.energy_form(C)
         out_fields = _fields(cell, phases, run, loads, names, flags, C, zz_tau=None)
-        return ElasticityResult(C, plane, SolverFacts.of(run), fields=out_fields)
+        return ElasticityResult(C, plane, SolverFacts.of(run), fields=out_fields,
+                                phase_strains=strains)
     zz = [s.average(axial_map(phases.axial), phases.axial_stiffness if name == "zz" else None,
                     cell.fractions) for s, name in zip(run.solutions, names)]
-    C4 = np.vstack([C, zz])                                    # rows/cols xx, yy, xy, zz
+    C4 = run.energy_form(np.vstack([C, zz]))                   # rows/cols xx, yy, xy, zz
     antiplane, anti_run = solve_scalar(image.labels, phases.antiplane, method, tol, maxiter,
-                                       [False, False], ["axial shear xz", "axial shear yz"])
+                                       [False, False], ["axial shear xz", "axial shear yz"],
+                                       criterion)
     prismatic = np.zeros((6, 6))
     prismatic[np.ix_(PRISMATIC_ORDER, PRISMATIC_ORDER)] = C4
     prismatic[np.ix_([4, 3], [4, 3])] = antiplane
     condensed = C4[:3, :3] - np.outer(C4[:3, 3], C4[3, :3]) / C4[3, 3] if C4[3, 3] > 0 \
         else C4[:3, :3]
     out_fields = _fields(cell, phases, run, loads, names, flags, C4, zz_tau=phases.axial_stiffness)
-    return ElasticityResult(condensed, plane, SolverFacts.of(run, anti_run), prismatic, out_fields)
+    return ElasticityResult(condensed, plane, SolverFacts.of(run, anti_run), prismatic, out_fields,
+                            strains)
 
 
 def _fields(cell: Cell, phases: ElasticPhases, run, loads, names, flags, load_stiffness,

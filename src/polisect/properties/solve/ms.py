@@ -212,8 +212,10 @@ class MSSolver:
         self.weight = np.ascontiguousarray(np.broadcast_to(w_last, self.half_shape).ravel())
         self._factor = factor
 
-    def solve(self, load: Load, fields: bool = False) -> Solution:
-        """Run the fixed point for one load case."""
+    def solve(self, load: Load, fields: bool = False, earlier: list | None = None,
+              criterion: str = "energy") -> Solution:
+        """Run the fixed point for one load case (it stops on its equilibrium error; the
+        fields are not Galerkin iterates, so *earlier* and *criterion* are not used)."""
         cell = self.cell
         nv, shape, n = len(self.comp_a), cell.shape, cell.labels.size
         tau = np.zeros((cell.n_phases, nv)) if load.tau is None else \

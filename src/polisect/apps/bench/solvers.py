@@ -1,7 +1,6 @@
-"""`polisect bench`: speed and memory of the solvers on fixed synthetic cases.
+"""Bench cases (a)–(f): speed and memory of the solvers on fixed synthetic images.
 
-Every case is a function ``case(quick) -> list[dict]`` in `CASES`; other modules may
-append their own. A row holds, for one case and method:
+A row holds, for one case and method:
 
 * ``iterations`` — total over the load cases;
 * ``seconds`` — wall time of the property, set-up included;
@@ -9,7 +8,7 @@ append their own. A row holds, for one case and method:
 * ``fft_floor`` — the time of the Fourier transforms one iteration needs (one forward
   and one inverse real FFT of the ``nc`` stacked components for ``fft``, of the stored
   strain components for ``ms``): the solvers' own transforms, timed inside the same solve
-  (`timed_transforms`), so that both figures see the same machine load (on a shared
+  (reported to the bench through `solve.progress`), so that both figures see the same machine load (on a shared
   machine a separate measurement differed by up to 2×);
 * ``ratio`` — seconds per iteration / fft floor;
 * ``peak_mb`` — peak of the memory traced by ``tracemalloc`` during the solve (numpy
@@ -27,25 +26,19 @@ assembled system fits `FE_MEMORY_LIMIT`.
 
 from __future__ import annotations
 
-import json
-import os
-import time
 import tracemalloc
 import warnings
-from contextlib import contextmanager
 from typing import Callable
 
 import numpy as np
 from scipy import ndimage
 
-from ..core.atomic import atomic_write_text
-from ..core.errors import InputError
-from ..core.materials import Material
-from ..core.memory import PeakRSS
-from ..properties.solve import conductivity, elasticity, expansion
-from ..properties.solve.fe import memory_estimate
-from ..properties.solve.fft import workers
-from ..model3d.synth import Inclusions, compose
+from ...core.materials import Material
+from ...core.memory import PeakRSS
+from ...properties.solve import conductivity, elasticity, expansion
+from ...properties.solve.fe import memory_estimate
+from ...properties.solve import progress
+from ...model3d.synth import Inclusions, compose
 
 MATRIX = Material(conductivity=1.0, youngs_modulus=70.0, poisson_ratio=0.33, expansion=23e-6,
                   name="matrix")
@@ -58,35 +51,18 @@ MS_BUDGET = 100
 FE_MEMORY_LIMIT = 8e9
 
 
-@contextmanager
-def timed_transforms():
-    """Time every Fourier transform the solvers make inside the block.
+class Transforms:
+    """Progress observer that sums the time of the solvers' Fourier transforms
+    (`solve.progress` "transform" events): ``seconds`` and forward/inverse ``pairs``."""
 
-    Wraps `polisect.properties.solve.fft.forward` / `inverse` (also as imported by `solve.ms`);
-    yields a dict with the ``seconds`` spent and the number of forward/inverse ``pairs``.
-    """
-    from ..properties.solve import fft as fft_module, ms as ms_module
-    spent = {"seconds": 0.0, "pairs": 0}
+    def __init__(self):
+        self.seconds = 0.0
+        self.pairs = 0
 
-    def timed(fn, pair):
-        def wrapper(*args, **kwargs):
-            start = time.perf_counter()
-            try:
-                return fn(*args, **kwargs)
-            finally:
-                spent["seconds"] += time.perf_counter() - start
-                spent["pairs"] += pair
-        return wrapper
-
-    originals = [(module, name, getattr(module, name))
-                 for module in (fft_module, ms_module) for name in ("forward", "inverse")]
-    for module, name, fn in originals:
-        setattr(module, name, timed(fn, name == "forward"))
-    try:
-        yield spent
-    finally:
-        for module, name, fn in originals:
-            setattr(module, name, fn)
+    def __call__(self, event: dict) -> None:
+        if event["event"] == "transform":
+            self.seconds += event["seconds"]
+            self.pairs += event["kind"] == "forward"
 
 
 def measure(case: str, problem: str, shape: tuple[int, ...], method: str,
@@ -94,14 +70,15 @@ def measure(case: str, problem: str, shape: tuple[int, ...], method: str,
     """Run *run* (returns a result with solver facts) under tracemalloc with its Fourier
     transforms timed; one table row."""
     tracemalloc.start()
-    with warnings.catch_warnings(), timed_transforms() as transforms, PeakRSS() as rss:
+    transforms = Transforms()
+    with warnings.catch_warnings(), progress.observe(transforms), PeakRSS() as rss:
         warnings.simplefilter("ignore", RuntimeWarning)      # ms stops at its budget
         result = run()
     peak = tracemalloc.get_traced_memory()[1]
     tracemalloc.stop()
     iterations = max(result.iterations, 1)
     per_iteration = result.seconds / iterations
-    floor = transforms["seconds"] / transforms["pairs"] if transforms["pairs"] else None
+    floor = transforms.seconds / transforms.pairs if transforms.pairs else None
     return {"case": case, "problem": problem, "size": "x".join(map(str, shape)),
             "method": method, "iterations": result.iterations,
             "seconds": round(result.seconds, 3), "seconds_per_iteration": per_iteration,
@@ -212,124 +189,3 @@ def case_2d_scaling(quick: bool) -> list[dict]:
     seconds = np.array([r["seconds"] for r in rows])
     rows[-1]["exponent"] = float(np.polyfit(np.log(pixels), np.log(seconds), 1)[0])
     return rows
-
-
-def case_3d_estimate(quick: bool) -> list[dict]:
-    """(g) One realization of the 3D estimate from a section, all three properties."""
-    from ..model3d.reconstruct import bench_reconstruct
-
-    return bench_reconstruct(quick)
-
-
-def case_morphology(quick: bool) -> list[dict]:
-    """(h) Every particle and stereology statistic of a 2048² section (~5000 particles)."""
-    from ..measure.morphology import benchmark_morphology
-
-    r = benchmark_morphology(size=512 if quick else 2048)
-    stages = ", ".join(f"{k} {v:.2f} s" for k, v in r["seconds"].items())
-    return [{"case": "h", "problem": "particle statistics (target ≤ 10 s at 2048²)",
-             "size": "x".join(str(n) for n in r["shape"]), "seconds": r["total_s"],
-             "figure": f"{r['particles']} particles; {stages}"}]
-
-
-def case_batch(quick: bool) -> list[dict]:
-    """(i) Batch throughput at 1 and 2 jobs and the batch's overhead."""
-    from .batch import bench_batch
-
-    out = []
-    for r in bench_batch(quick):
-        extra = [f"{r['images_per_s']:.3g} images/s"]
-        for key, words in (("speedup", "speed-up"), ("overhead_pct", "overhead %"),
-                           ("overhead_in_workers_pct", "overhead in workers %")):
-            if r.get(key) is not None:
-                extra.append(f"{words} {r[key]:.3g}")
-        out.append({"case": "i", "problem": f"batch: {r['case']}",
-                    "size": f"{r['images']} × {r['side_px']}²", "seconds": r["seconds"],
-                    "figure": ", ".join(extra)})
-    return out
-
-
-CASES: list[Callable[[bool], list[dict]]] = [case_2d_conductivity, case_2d_elasticity,
-                                             case_3d_conductivity, case_3d_elasticity,
-                                             case_2d_scaling, case_3d_estimate,
-                                             case_morphology, case_batch]
-
-
-CASE_INDEX = {"a": 0, "b": 1, "c": 1, "d": 2, "e": 3, "f": 4, "g": 5, "h": 6, "i": 7}
-"""The entry of `CASES` that makes the rows of each case letter (b and c share one)."""
-CASE_LETTERS = "".join(CASE_INDEX)
-
-
-def select_cases(letters: str | None) -> list[Callable[[bool], list[dict]]]:
-    """The case functions that produce the rows of *letters* (all for None)."""
-    if letters is None:
-        return list(CASES)
-    letters = letters.replace(",", "").replace(" ", "").lower()
-    unknown = sorted(set(letters) - set(CASE_LETTERS))
-    if unknown or not letters:
-        raise InputError(f"bench cases {''.join(unknown) or repr(letters)} are not known; "
-                         f"choose letters from {CASE_LETTERS}, e.g. --cases ab")
-    return [CASES[i] for i in sorted({CASE_INDEX[c] for c in letters})]
-
-
-def run_bench(quick: bool = False, json_path: str | None = None,
-              cases: str | None = None) -> list[dict]:
-    """Run the cases of `CASES`; write the rows as JSON to *json_path* when given.
-
-    Parameters
-    ----------
-    quick : bool
-        Small sizes (the whole run in well under a minute).
-    json_path : str, optional
-    cases : str, optional
-        Letters of the cases to run (`select_cases`); all when omitted.
-
-    Returns
-    -------
-    list of dict
-        One row per case and method (see the module notes).
-    """
-    rows = []
-    for case in select_cases(cases):
-        rows.extend(case(quick))
-    if json_path is not None:
-        doc = {"schema": "polisect.bench/1", "quick": quick, "cpus": os.cpu_count(),
-               "fft_workers": workers(), "rows": rows}
-        atomic_write_text(json_path, json.dumps(doc, indent=1) + "\n")
-    return rows
-
-
-def _fmt(value, spec: str) -> str:
-    return "-" if value is None else format(value, spec)
-
-
-def format_table(rows: list[dict]) -> str:
-    """Plain-text table of bench rows."""
-    head = ("case", "method", "size", "iter", "seconds", "s/iter", "fft floor", "ratio",
-            "peak MB", "RSS MB", "conv", "problem")
-    lines = [head]
-    others = [r for r in rows if "figure" in r]
-    for r in rows:
-        if "figure" in r:
-            continue
-        if "skipped" in r:
-            lines.append((r["case"], r["method"], r["size"], "-", "-", "-", "-", "-", "-", "-", "-",
-                          f"{r['problem']} (skipped: {r['skipped']})"))
-            continue
-        note = r["problem"] + (f" (N^{r['exponent']:.2f})" if "exponent" in r else "")
-        lines.append((r["case"], r["method"], r["size"], str(r["iterations"]),
-                      f"{r['seconds']:.2f}", f"{r['seconds_per_iteration'] * 1e3:.1f} ms",
-                      _fmt(r["fft_floor"] and r["fft_floor"] * 1e3, ".1f") +
-                      (" ms" if r["fft_floor"] else ""),
-                      _fmt(r["ratio"], ".2f"), f"{r['peak_mb']:.0f}",
-                      _fmt(r.get("peak_rss_mb"), ".0f"),
-                      "yes" if r["converged"] else "no", note))
-    widths = [max(len(line[i]) for line in lines) for i in range(len(head) - 1)]
-    out = ["  ".join(c.ljust(w) for c, w in zip(line[:-1], widths)) + "  " + line[-1]
-           for line in lines]
-    out.insert(1, "-" * len(out[0]))
-    if others:
-        out += ["", "Analysis figures"]
-        out += [f"  {r['case']}  {r['problem']}  [{r['size']}]  {r['seconds']:.2f} s  "
-                f"{r['figure']}" for r in others]
-    return "\n".join(out)
