@@ -278,13 +278,3 @@ def test_cli_batch_and_bad_input(folder, tmp_path, capsys):
     assert main(["batch", str(root), "--out", str(out), "--jobs", "0"]) == 2
     assert main(["batch", str(root), "--out", str(out), "--pattern", "*.xyz"]) == 2
     assert "no files matching" in capsys.readouterr().err
-
-
-@pytest.mark.slow
-def test_bench_batch_quick_runs():
-    """The batch benchmark runs and reports its figures (no timing assertion)."""
-    from polisect.apps.batch import bench_batch
-
-    rows = bench_batch(quick=True)
-    assert [r["case"] for r in rows][1:] == ["batch, 1 job", "batch, 2 jobs"]
-    assert rows[2]["speedup"] > 0 and "overhead_pct" in rows[1]
