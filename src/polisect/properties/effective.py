@@ -86,12 +86,14 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
                    "conductivity": None, "elasticity": None, "expansion": None}
     if "conductivity" in props:
         say("solving for the effective conductivity")
-        c = conductivity(labels, mats, method=method, tol=tol, fields=maps, criterion=criterion)
+        c = conductivity(labels, mats, method=method, tol=tol, fields=["x"] if maps else False,
+                         criterion=criterion)
         block["conductivity"] = {"tensor_W_mK": c.tensor, "mean_W_mK": c.mean(),
                                  "anisotropy": c.anisotropy(), "solver": c.facts.to_dict()}
         _converged(c, "conductivity", warnings)
         if maps and c.fields is not None:
             out_maps["heat_flux"] = _image_plane(c.fields.flux_magnitude("x"))
+        del c                                   # its fields before the stiffness solve
     stiff = None
     if "elasticity" in props or "expansion" in props:
         say("solving for the effective stiffness")

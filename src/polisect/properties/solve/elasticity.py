@@ -182,12 +182,13 @@ def elastic_result(image: PhaseImage, plane: str | None, method: str, tol: float
     run = solve_loads(cell, loads, method, tol, maxiter, flags,
                       [f"{'axial ' if plane == GPS and n == 'zz' else ''}strain {n}"
                        for n in names], criterion)
+    run, grads = run.take_fields()
     C = np.column_stack([tensors.stress_to_voigt(s.mean_flux(cell, ld))
                          for s, ld in zip(run.solutions, loads)])
     strains = np.array([s.phase_means for s in run.solutions])
     if plane != GPS:
         C = run.energy_form(C)
-        out_fields = _fields(cell, phases, run, loads, names, flags, C, zz_tau=None)
+        out_fields = _fields(cell, phases, grads, loads, names, flags, C, zz_tau=None)
         return ElasticityResult(C, plane, SolverFacts.of(run), fields=out_fields,
                                 phase_strains=strains)
     zz = [s.average(axial_map(phases.axial), phases.axial_stiffness if name == "zz" else None,
@@ -201,38 +202,43 @@ def elastic_result(image: PhaseImage, plane: str | None, method: str, tol: float
     prismatic[np.ix_([4, 3], [4, 3])] = antiplane
     condensed = C4[:3, :3] - np.outer(C4[:3, 3], C4[3, :3]) / C4[3, 3] if C4[3, 3] > 0 \
         else C4[:3, :3]
-    out_fields = _fields(cell, phases, run, loads, names, flags, C4, zz_tau=phases.axial_stiffness)
+    out_fields = _fields(cell, phases, grads, loads, names, flags, C4,
+                         zz_tau=phases.axial_stiffness)
     return ElasticityResult(condensed, plane, SolverFacts.of(run, anti_run), prismatic, out_fields,
                             strains)
 
 
-def _fields(cell: Cell, phases: ElasticPhases, run, loads, names, flags, load_stiffness,
-            zz_tau) -> ElasticFields | None:
+def _fields(cell: Cell, phases: ElasticPhases, grads: list, loads, names, flags,
+            load_stiffness, zz_tau) -> ElasticFields | None:
+    """Strain and stress fields of the kept load cases; each gradient in *grads* is
+    dropped from the list once used, and the outputs are filled in place, so the peak
+    memory stays near the size of the outputs."""
     if not any(flags):
         return None
     kept = [i for i, f in enumerate(flags) if f]
     solid = cell.solid
-    strain, stress, stress_zz = [], [], []
-    for i in kept:
-        g = run.solutions[i].gradient
-        sym = np.moveaxis(0.5 * (g + np.swapaxes(g, 0, 1)), (0, 1), (-2, -1))
-        eps = np.moveaxis(tensors.strain_to_voigt(sym), -1, 0)
+    nv = len(VOIGT_NAMES[cell.dim])
+    strain = np.empty((len(kept), nv) + cell.shape)
+    stress = np.zeros((len(kept), nv) + cell.shape)
+    stress_zz = None if phases.axial is None else np.zeros((len(kept),) + cell.shape)
+    for slot, i in enumerate(kept):
+        g = grads[i]
+        grads[i] = None
+        eps = strain[slot]
+        eps[:] = np.moveaxis(tensors.strain_to_voigt(
+            np.moveaxis(0.5 * (g + np.swapaxes(g, 0, 1)), (0, 1), (-2, -1))), -1, 0)
+        del g
         tau = loads[i].tau
-        sig = np.zeros_like(eps)
-        zz = np.zeros(cell.shape) if phases.axial is not None else None
+        sig = stress[slot]
         for p in range(cell.n_phases):
             mask = cell.labels == p
             sig[:, mask] = phases.stiffness[p] @ eps[:, mask]
             if tau is not None:
                 sig[:, mask] += tensors.stress_to_voigt(tau[p])[:, None]
-            if zz is not None:
-                zz[mask] = phases.axial[p] @ eps[:, mask]
+            if stress_zz is not None:
+                stress_zz[slot][mask] = phases.axial[p] @ eps[:, mask]
                 if names[i] == "zz":
-                    zz[mask] += zz_tau[p]
+                    stress_zz[slot][mask] += zz_tau[p]
         eps[:, ~solid] = np.nan
-        strain.append(eps)
-        stress.append(sig)
-        stress_zz.append(zz)
-    return ElasticFields(tuple(names[i] for i in kept), np.array(strain), np.array(stress),
-                         None if phases.axial is None else np.array(stress_zz),
+    return ElasticFields(tuple(names[i] for i in kept), strain, stress, stress_zz,
                          load_stiffness, tuple(names))

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import time
 import warnings
 from dataclasses import dataclass
@@ -66,6 +67,13 @@ class Run:
     @property
     def converged(self) -> bool:
         return all(s.converged for s in self.solutions)
+
+    def take_fields(self) -> tuple["Run", list]:
+        """This run without its gradient fields, and the fields (so that a caller can free
+        each one as soon as it has used it)."""
+        fields = [s.gradient for s in self.solutions]
+        bare = tuple(dataclasses.replace(s, gradient=None) for s in self.solutions)
+        return dataclasses.replace(self, solutions=bare), fields
 
     def energy_form(self, C: np.ndarray) -> np.ndarray:
         """The symmetric energy form of a tensor whose column j came from load case j.
