@@ -120,8 +120,8 @@ def pcg(apply_A: Apply, apply_M: Apply, b: np.ndarray, tol: float, maxiter: int,
         return x, CGInfo(0, np.zeros(1), True, 0.0 if energy is not None else None)
     use_energy = criterion == "energy" and energy is not None and energy > 0.0
     z = np.empty_like(b)
-    ap = np.empty_like(b)
-    rz = apply_M(r, z)
+    ap = z              # one buffer: z is used up in p before A p is written, and A p
+    rz = apply_M(r, z)  # before the next z
     p = z.copy()
     history = [1.0]
     norm_x = [0.0]                 # ‖x_k‖²_A = Σ_{i<k} α_i γ_i

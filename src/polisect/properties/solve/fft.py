@@ -124,7 +124,9 @@ class FourierSolver:
         self.labels = np.ascontiguousarray(cell.labels, dtype=np.int32)
         self.start, self.cols, self.table, self.cid = grid.operator_terms(cell.L)
         L0 = default_reference(cell.L) if reference is None else reference
-        self.kinv = inverse_symbol(grid.reference_symbol(L0, cell.shape))
+        # single precision: the preconditioner need only be symmetric positive definite,
+        # not exact (mixed precision halves its largest array; iterations unchanged, tests)
+        self.kinv = inverse_symbol(grid.reference_symbol(L0, cell.shape)).astype(np.float32)
         self._kinv_flat = self.kinv.reshape(cell.ncomp, cell.ncomp, -1)
         self._kernel = kernels.apply_2d if cell.dim == 2 else kernels.apply_3d
         self._chunks = max(1, min(cell.shape[0], workers()))
