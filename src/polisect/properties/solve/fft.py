@@ -23,8 +23,6 @@ References
 
 from __future__ import annotations
 
-import os
-
 import numpy as np
 import scipy.fft
 
@@ -37,11 +35,9 @@ from .cg import solve_system
 
 
 def workers() -> int:
-    """Threads for the transforms: ``POLISECT_THREADS`` when set (a batch worker sets it
-    to cores ÷ jobs, so two jobs do not oversubscribe two cores), else every core. Read
-    at each call, so a worker process that sets it after import is obeyed."""
-    value = os.environ.get("POLISECT_THREADS", "")
-    return int(value) if value.isdigit() and int(value) > 0 else (os.cpu_count() or 1)
+    """Threads for the transforms and kernels (`kernels.threads`: ``POLISECT_THREADS`` or
+    every core)."""
+    return kernels.threads()
 
 
 def forward(fields: np.ndarray) -> np.ndarray:

@@ -8,11 +8,11 @@ two (2D) node lines the pixel line touches. Each thread takes a contiguous block
 axis-0 planes and accumulates into two cache-sized plane buffers, writing every output
 plane once (an earlier two-colour scheme updated each output line 2–4 times in memory).
 
-Compile time. The operator's block kernels are compiled once, serially, and release the
-GIL; the blocks run in a pool of Python threads. Compiling the same code as a numba
-``parallel=True`` kernel, plus a serial twin for small images, took 45–60 s on first use
-(the parfor passes over the whole loop nest); the block kernels take 4–12 s (2D and 3D,
-measured with an empty cache). Helpers are plain compiled functions, not forced inline
+Compile time. Every kernel is compiled once, as serial code that releases the GIL; large
+arrays are cut into blocks that run in a pool of Python threads. Compiling numba
+``parallel=True`` kernels plus a serial twin of each for small images took 45–60 s on
+first use (the parfor passes over the whole loop nest); the serial kernels take ~15 s
+of CPU for 2D and 3D together (case (k) of `polisect bench`). Helpers are plain compiled functions, not forced inline
 (forcing inline cost 4 s more compile for the 3D kernel and no run time, measured).
 
 Plain numpy needs 2–4× the time of the FFTs of one iteration for the operator alone
@@ -21,41 +21,79 @@ Plain numpy needs 2–4× the time of the FFTs of one iteration for the operator
 
 from __future__ import annotations
 
-import types
+import os
 from concurrent.futures import ThreadPoolExecutor
 
 import numba as nb
 import numpy as np
 
-# Threads that wait on a queue rather than spin: on a machine with few cores the FFT
-# workers and other processes need the cores between two parallel kernels (the OpenMP
-# layer made a CG iteration 2-3x slower there, measured).
-nb.config.THREADING_LAYER = "workqueue"
-
-_OPTS = dict(cache=True, fastmath=True)
+_OPTS = dict(cache=True, fastmath=True, nogil=True)
 
 PARALLEL_MIN = 1 << 19
-"""Arrays with fewer elements run the serial variant: starting the threads costs
-0.1–1 ms, more than the work below this size (measured crossovers: CG vector updates at
-~2^19 elements, the 2D operator at ~600² pixels)."""
+"""Arrays with fewer elements run in the calling thread: handing work to the pool costs
+~0.1 ms, more than the work below this size (measured crossovers of the former numba
+threads: CG vector updates at ~2^19 elements, the 2D operator at ~600² pixels)."""
+
+
+def threads() -> int:
+    """Threads for the kernels and the transforms: ``POLISECT_THREADS`` when set (a batch
+    worker sets it to cores ÷ jobs, so two jobs do not oversubscribe two cores), else every
+    core. Read at each call, so a worker process that sets it after import is obeyed."""
+    value = os.environ.get("POLISECT_THREADS", "")
+    return int(value) if value.isdigit() and int(value) > 0 else (os.cpu_count() or 1)
+
+
+_POOL: list = []
+
+
+def _pool(count: int) -> ThreadPoolExecutor:
+    """A shared pool of *count* Python threads (the kernels release the GIL)."""
+    if not _POOL or _POOL[0]._max_workers != count:
+        if _POOL:
+            _POOL.pop().shutdown(wait=False)
+        _POOL.append(ThreadPoolExecutor(max_workers=count,
+                                        thread_name_prefix="polisect-kernel"))
+    return _POOL[0]
 
 
 class Kernel:
-    """A compiled kernel in a parallel and a serial variant of the same code (``prange``
-    runs as ``range`` in the serial one), chosen by the size of the first argument."""
+    """A compiled element-wise kernel that releases the GIL, run on slices of its array
+    arguments along their last axis in the shared thread pool when the first argument has
+    `PARALLEL_MIN` elements or more; the slices' return values are summed.
 
-    def __init__(self, fn):
-        twin = types.FunctionType(fn.__code__, fn.__globals__, fn.__name__ + "_serial",
-                                  fn.__defaults__, fn.__closure__)
-        twin.__qualname__ = fn.__qualname__ + "_serial"      # its own cache entry
-        self.parallel = nb.njit(parallel=True, **_OPTS)(fn)
-        self.serial = nb.njit(**_OPTS)(twin)
+    *split* lists the positions of the arguments to slice (default: every array); an
+    empty tuple keeps the kernel in the calling thread. One compiled variant per argument
+    layout and no numba ``parallel`` variant: compiling a parallel twin of every kernel
+    took most of the 45–60 s of the first run (measured)."""
+
+    def __init__(self, fn=None, *, split: tuple[int, ...] | None = None):
+        self.split = split
+        if fn is not None:
+            self._compile(fn)
+
+    def _compile(self, fn):
+        self.kernel = nb.njit(**_OPTS)(fn)
         self.__doc__ = fn.__doc__
         self.__name__ = fn.__name__
+        return self
 
     def __call__(self, *args):
-        kernel = self.parallel if args[0].size >= PARALLEL_MIN else self.serial
-        return kernel(*args)
+        if not hasattr(self, "kernel"):                     # used as @Kernel(split=...)
+            return self._compile(args[0])
+        count = threads()
+        if args[0].size < PARALLEL_MIN or count == 1 or self.split == ():
+            return self.kernel(*args)
+        n = args[0].shape[-1]
+        bounds = [(t * n // count, (t + 1) * n // count) for t in range(count)]
+        cut = [isinstance(x, np.ndarray) if self.split is None else k in self.split
+               for k, x in enumerate(args)]
+
+        def part(bound):
+            a, b = bound
+            return self.kernel(*(x[..., a:b] if c else x for x, c in zip(args, cut)))
+
+        results = list(_pool(count).map(part, bounds))
+        return None if results[0] is None else sum(results)
 
 
 @nb.njit(**_OPTS)
@@ -129,7 +167,7 @@ def _coefficients(cl, table, phase_line):
             cl[c, k] = table[c, p]
 
 
-@nb.njit(nogil=True, **_OPTS)
+@nb.njit(**_OPTS)
 def _block_2d(u, labels, table, cid, start, cols, out, first, last, seam):
     """Pixel rows ``first … last−1`` of `apply_2d`; the contribution of the last row to
     the next node row goes to *seam* (nc, n1). Returns the block's energy."""
@@ -167,7 +205,7 @@ def _block_2d(u, labels, table, cid, start, cols, out, first, last, seam):
     return energy
 
 
-@nb.njit(nogil=True, **_OPTS)
+@nb.njit(**_OPTS)
 def _block_3d(u, labels, table, cid, start, cols, out, first, last, seam):
     """Pixel planes ``first … last−1`` of `apply_3d`; the contribution of the last plane
     to the next node plane goes to *seam* (nc, n1, n2). Returns the block's energy."""
@@ -224,19 +262,6 @@ def _block_3d(u, labels, table, cid, start, cols, out, first, last, seam):
     return energy
 
 
-_POOL: list = []
-
-
-def _pool(threads: int) -> ThreadPoolExecutor:
-    """A shared pool of *threads* Python threads (the block kernels release the GIL)."""
-    if not _POOL or _POOL[0]._max_workers != threads:
-        if _POOL:
-            _POOL.pop().shutdown(wait=False)
-        _POOL.append(ThreadPoolExecutor(max_workers=threads,
-                                        thread_name_prefix="polisect-operator"))
-    return _POOL[0]
-
-
 def _apply(block, u, labels, table, cid, start, cols, out, nchunks):
     """Run *block* on *nchunks* blocks of axis-0 planes, in threads above
     `PARALLEL_MIN` elements, then add the seams."""
@@ -283,16 +308,16 @@ def fourier_multiply(rhat, kinv):
     """
     nc, m = rhat.shape
     if nc == 1:
-        for f in nb.prange(m):
+        for f in range(m):
             rhat[0, f] *= kinv[0, 0, f]
     elif nc == 2:
-        for f in nb.prange(m):
+        for f in range(m):
             r0 = rhat[0, f]
             r1 = rhat[1, f]
             rhat[0, f] = kinv[0, 0, f] * r0 + kinv[0, 1, f] * r1
             rhat[1, f] = kinv[1, 0, f] * r0 + kinv[1, 1, f] * r1
     else:
-        for f in nb.prange(m):
+        for f in range(m):
             r0 = rhat[0, f]
             r1 = rhat[1, f]
             r2 = rhat[2, f]
@@ -305,7 +330,7 @@ def fourier_multiply(rhat, kinv):
 def dot(x, y):
     """``Σ x·y`` of two flat arrays."""
     s = 0.0
-    for i in nb.prange(x.shape[0]):
+    for i in range(x.shape[0]):
         s += x[i] * y[i]
     return s
 
@@ -314,7 +339,7 @@ def dot(x, y):
 def step(x, r, p, ap, alpha):
     """``x += α p``, ``r −= α Ap``; returns ``Σ r²``."""
     s = 0.0
-    for i in nb.prange(x.shape[0]):
+    for i in range(x.shape[0]):
         x[i] += alpha * p[i]
         ri = r[i] - alpha * ap[i]
         r[i] = ri
@@ -328,7 +353,7 @@ def store_dot(source, out, r, mask):
     flat arrays of one length (a flat loop vectorises; a per-node mask over a component
     loop ran 4× slower, measured)."""
     s = 0.0
-    for i in nb.prange(out.shape[0]):
+    for i in range(out.shape[0]):
         v = source[i] * mask[i]
         out[i] = v
         s += r[i] * v
@@ -338,5 +363,5 @@ def store_dot(source, out, r, mask):
 @Kernel
 def new_direction(p, z, beta):
     """``p ← z + β p``."""
-    for i in nb.prange(p.shape[0]):
+    for i in range(p.shape[0]):
         p[i] = z[i] + beta * p[i]
