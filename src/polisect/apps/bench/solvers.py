@@ -133,8 +133,8 @@ def case_2d_conductivity(quick: bool) -> list[dict]:
 
 
 def case_2d_elasticity(quick: bool) -> list[dict]:
-    """(b) plane-strain stiffness of the image of (a); (c) its thermal expansion (the
-    thermal solve alone, with the stiffness of the same method)."""
+    """(b) plane-strain stiffness of the image of (a); (c) its thermal expansion with the
+    stiffness of the same method (from its strain localisation: no solve since issue 19)."""
     n = 128 if quick else 1024
     labels = image_2d(n)
     stiff: dict = {}

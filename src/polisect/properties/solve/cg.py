@@ -165,13 +165,13 @@ def solve_system(apply_A: Apply, apply_M: Apply, b: np.ndarray, solver, load: Lo
     cross = np.zeros(0)
     if earlier is not None:
         cross = np.array([mixed_dot(e, r) / n for e in earlier])
-        earlier.append(x.astype(np.float32))
+        earlier.append(x.astype(np.float16))
     return x, info, cross
 
 
 def mixed_dot(single: np.ndarray, double: np.ndarray, block: int = 1 << 16) -> float:
-    """``Σ single·double`` of a float32 and a float64 vector, summed in double precision
-    over blocks (no full-length double copy)."""
+    """``Σ single·double`` of a low-precision and a float64 vector, summed in double
+    precision over blocks (no full-length double copy)."""
     return float(sum(np.dot(single[i:i + block].astype(np.float64), double[i:i + block])
                      for i in range(0, single.size, block)))
 

@@ -148,7 +148,7 @@ class FourierSolver:
               criterion: str = "energy") -> Solution:
         """Solve one load case.
 
-        *earlier* holds the fluctuations of the load cases solved before (float32); the
+        *earlier* holds the fluctuations of the load cases solved before (float16); the
         energy-form corrections against them are computed, then this fluctuation is
         appended (see `methods.Run.energy_form`).
         """
