@@ -280,16 +280,6 @@ def test_cli_batch_and_bad_input(folder, tmp_path, capsys):
     assert "no files matching" in capsys.readouterr().err
 
 
-@pytest.mark.slow
-def test_bench_batch_quick_runs():
-    """The batch benchmark runs and reports its figures (no timing assertion)."""
-    from polisect.apps.batch import bench_batch
-
-    rows = bench_batch(quick=True)
-    assert [r["case"] for r in rows][1:] == ["batch, 1 job", "batch, 2 jobs"]
-    assert rows[2]["speedup"] > 0 and "overhead_pct" in rows[1]
-
-
 def test_lock_with_a_reused_process_id_is_stale(folder, tmp_path):
     """A lock whose process id now belongs to another process (its start time differs) is
     taken over; a live batch's lock is refused with the lock file named (common practice,

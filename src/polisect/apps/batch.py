@@ -39,26 +39,22 @@ import multiprocessing
 import os
 import re
 import sys
-import tempfile
 import time
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass, field
 from typing import Iterable, Iterator
 
-import numpy as np
-import tifffile
 
 from .. import __version__
 from ..core.atomic import atomic_write_text
-from ..read.config import Config, config_from_dict
+from ..read.config import Config
 from ..core.errors import InputError
 from ..present.htmlkit import CAUTION_MANY_SECTION, grid, page
 from ..present.units import column_words, number
 from ..core.quantities import quantity_keys
 from ..present.record import csv_text, headline, read_result
 from .run import run_section
-from ..model3d.synth import rsa_discs
 
 MANIFEST = "manifest.json"
 MANIFEST_SCHEMA = "polisect.batch-manifest/1"
@@ -852,58 +848,3 @@ def _column(key: str) -> str:
     label, unit, _ = column_words(key)
     label = label[:1].upper() + label[1:]
     return f"{label} ({unit})" if unit else label
-
-
-# ------------------------------------------------------------------------------ bench
-
-def bench_batch(quick: bool = False) -> list[dict]:
-    """Throughput of a batch of conductivity-only label images at 1 and 2 jobs.
-
-    100 images of 512² (quick: 8 of 128²), two phases (conductivity 1 and 10 W/(m·K),
-    random discs). Figures: images per second at 1 and 2 jobs, the speed-up, and the batch
-    overhead over the sum of the analyses run one after another in this (warmed-up) process
-    (`run_section` per image, the work of ``polisect analyze``); the overhead
-    includes starting the workers. ``overhead_in_workers_pct`` compares the batch's wall
-    time with the per-image times measured inside its workers.
-
-    Returns
-    -------
-    list of dict
-        One row per case: ``case``, ``images``, ``side_px``, ``seconds``,
-        ``images_per_s`` and, where it applies, ``speedup`` or ``overhead_pct``.
-    """
-    n, side = (8, 128) if quick else (100, 512)
-    cfg = config_from_dict({"image": {"kind": "labels"}, "solve": {"properties": ["conductivity"]},
-                            "phase": [{"label": 0, "name": "matrix", "conductivity": 1.0},
-                                      {"label": 1, "name": "grain", "conductivity": 10.0}]})
-    rows = []
-    with tempfile.TemporaryDirectory(prefix="polisect-bench-batch-") as tmp:
-        src = os.path.join(tmp, "images")
-        os.makedirs(src)
-        for i in range(n):
-            lab = rsa_discs((side, side), 0.3, side / 40.0, seed=i).labels.astype(np.uint8)
-            tifffile.imwrite(os.path.join(src, f"s{i:03d}.tif"), lab)
-        names = sorted(os.listdir(src))
-        run_section(os.path.join(src, names[0]), cfg, os.path.join(tmp, "warm"))
-        t0 = time.perf_counter()
-        for name in names:
-            run_section(os.path.join(src, name), cfg, os.path.join(tmp, "serial"))
-        serial = time.perf_counter() - t0
-        rows.append({"case": "sum of analyses (serial, in process)", "images": n,
-                     "side_px": side, "seconds": serial, "images_per_s": n / serial})
-        timings = {}
-        for jobs in (1, 2):
-            r = run_batch(src, os.path.join(tmp, f"out{jobs}"), config=cfg, jobs=jobs,
-                          quiet=True)
-            if r.failed:
-                raise RuntimeError(f"bench batch: {r.failed} images failed")
-            timings[jobs] = r.seconds
-            row = {"case": f"batch, {jobs} job{'s' if jobs > 1 else ''}", "images": n,
-                   "side_px": side, "seconds": r.seconds, "images_per_s": n / r.seconds}
-            if jobs == 1:
-                row["overhead_pct"] = (r.seconds / serial - 1.0) * 100.0
-                row["overhead_in_workers_pct"] = (r.seconds / r.analysis_seconds - 1.0) * 100.0
-            else:
-                row["speedup"] = timings[1] / r.seconds
-            rows.append(row)
-    return rows

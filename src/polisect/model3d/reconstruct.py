@@ -38,7 +38,6 @@ import numpy as np
 from scipy import ndimage as ndi
 
 from ..core.errors import InputError
-from ..core.memory import PeakRSS
 from .packing import SpherePacking, pack_spheres, rasterize
 from ..core.materials import Material
 from ..core.phasemap import Phase, PhaseMap
@@ -857,79 +856,3 @@ def compare_2d(est: Estimate3D, effective_2d: Effective) -> tuple[Versus2D, ...]
                     f"{meaning}.")
         out.append(Versus2D(key, float(v2), s3.mean, diff, sentence))
     return tuple(out)
-
-
-def bench_section(n: int) -> PhaseMap:
-    """The bench's section: a mullite castable with silicon carbide particles, hollow alumina
-    spheres with pore cores and free pores (total particle fraction 0.35), n × n pixels of
-    1 µm, by random sequential addition (`polisect.model3d.synth.compose`, seed 1)."""
-    from ..core.materials import get_material
-    from .synth import Inclusions, compose
-
-    scale = n / 1024
-    labels = compose((n, n), [Inclusions(2, 0.17, 9.0 * max(scale, 0.5), 2.0 * max(scale, 0.5)),
-                              Inclusions(3, 0.13, 11.0 * max(scale, 0.5), 2.0 * max(scale, 0.5),
-                                         hollow_ratio=0.5, core_label=0),
-                              Inclusions(0, 0.05, 4.0 * max(scale, 0.5))],
-                     seed=1, matrix_label=1).labels
-    names = {0: "air", 1: "mullite", 2: "silicon-carbide", 3: "alumina"}
-    return PhaseMap(labels, tuple(Phase(k, v, get_material(v)) for k, v in names.items()), 1.0)
-
-
-def bench_reconstruct(quick: bool = False, tol: float = 1e-6) -> list[dict]:
-    """Speed and memory of one realization of the 3D estimate with all three properties.
-
-    One realization of `estimate_3d` at the default budget of 160³ voxels (quick: 48³) from
-    `bench_section` (1024² pixels; quick: 256²), method "auto", after a
-    small warm-up run (so that compiling the solver kernels is not counted). Rows in the
-    form of `polisect bench` (case "g"): the reconstruction (section statistics, packing,
-    rasterising), each property's solve, and the total with the process's peak resident
-    memory (``peak_rss_mb``, sampled; the target is ≤ 180 s and ≤ 4096 MB at 160³).
-
-    Parameters
-    ----------
-    quick : bool
-        Small sizes (a smoke run of a few seconds).
-    tol : float
-        Solver tolerance (the pipeline's default 1e-6; effective properties change by less
-        than 1e-6 relative at 1e-4, with about 40 % fewer iterations).
-
-    Returns
-    -------
-    list of dict
-        Keys ``case``, ``problem``, ``size``, ``method``, ``iterations``, ``seconds``,
-        ``seconds_per_iteration``, ``fft_floor`` (None), ``ratio`` (None), ``peak_mb`` (the
-        growth of the resident memory over the realization, sampled: tracemalloc would slow
-        the particle measurements twentyfold), ``converged``; the total row adds
-        ``peak_rss_mb`` (the process's peak resident memory), ``limit_seconds`` and
-        ``limit_mb``.
-    """
-    n_px, voxels = (256, 48) if quick else (1024, 160)
-    phasemap = bench_section(n_px)
-    estimate_3d(bench_section(256), voxels=16, realizations=1, tol=1e-2)     # compile kernels
-    size = f"{voxels}x{voxels}x{voxels}"
-    tick = time.perf_counter()
-    with PeakRSS() as rss:
-        est = estimate_3d(phasemap, voxels=voxels, realizations=1, tol=tol)
-    total = time.perf_counter() - tick
-    grown = rss.peak - rss.start
-    (run,) = est.realizations
-    solves = [("conductivity", run.conductivity), ("stiffness", run.elasticity),
-              ("expansion (stiffness reused)", run.expansion)]
-
-    def row(problem, method, iterations, seconds, converged=True):
-        return {"case": "g", "problem": f"3D estimate: {problem}", "size": size,
-                "method": method, "iterations": int(iterations), "seconds": round(seconds, 3),
-                "seconds_per_iteration": seconds / max(int(iterations), 1), "fft_floor": None,
-                "ratio": None, "peak_mb": round(grown, 1), "converged": converged,
-                "tolerance": tol}
-
-    build = run.seconds - sum(r.seconds for _, r in solves)
-    rows = [row(f"reconstruction of {run.spheres} spheres (statistics, packing, rasterising)",
-                run.packing, 1, build + (total - run.seconds))]
-    rows += [row(name, r.method, r.iterations, r.seconds, r.converged) for name, r in solves]
-    rows.append({**row("one realization, all three properties", solves[0][1].method,
-                       sum(r.iterations for _, r in solves), total,
-                       all(r.converged for _, r in solves)),
-                 "peak_rss_mb": round(rss.peak, 1), "limit_seconds": 180, "limit_mb": 4096})
-    return rows

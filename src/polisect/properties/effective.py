@@ -19,6 +19,7 @@ from .sanity import check_result, fractions_of, refusals
 from .records import (AxialModuli, ComparableModuli, Conductivity, Effective, Elasticity,
                       Expansion, Solver)
 from .solve import SolverFacts, conductivity, elasticity, expansion
+from .solve.expansion import stiffness_tolerance
 
 PLANE_WORDS = {
     "generalized-plane-strain": "generalized plane strain (free uniform axial strain, zero "
@@ -64,8 +65,8 @@ def model_words(ndim: int, plane: str) -> str:
 
 def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
                     tol: float = 1e-6, plane: str = "generalized-plane-strain",
-                    maps: bool = True, progress: Callable[[str], None] | None = None
-                    ) -> Solved:
+                    maps: bool = True, progress: Callable[[str], None] | None = None,
+                    criterion: str = "energy") -> Solved:
     """Run the solvers asked for on a phase map.
 
     Parameters
@@ -74,12 +75,18 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
         2D section or 3D volume; every phase's material must carry the properties needed.
     properties : iterable of {'conductivity', 'elasticity', 'expansion'}
     method, tol, plane
-        Passed to `polisect.properties.solve` (plane only for 2D).
+        Passed to `polisect.properties.solve` (plane only for 2D). *tol* is the accuracy
+        of the effective values (energy stopping rule, `polisect.properties.solve.cg`);
+        when the expansion is asked for, the stiffness is solved to ``tol/100`` because
+        the expansion is computed from its strain localisation without another solve
+        (`polisect.properties.solve.expansion`).
     maps : bool
         Keep the heat-flux magnitude under a unit x gradient and the von Mises stress
         under a unit uniaxial x stress, as image-indexed arrays.
     progress : callable, optional
         Called with a stage description.
+    criterion : {'energy', 'residual'}
+        Stopping rule of the solvers (see `polisect.properties.solve.conductivity`).
 
     Returns
     -------
@@ -105,17 +112,21 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
 
     if "conductivity" in props:
         say("solving for the effective conductivity")
-        c = conductivity(labels, mats, method=method, tol=tol, fields=maps)
+        c = conductivity(labels, mats, method=method, tol=tol, fields=["x"] if maps else False,
+                         criterion=criterion)
         _converged(c, "conductivity", warnings)
         if sane(c):
             c_rec = Conductivity(c.tensor, c.mean(), c.anisotropy(), solver_record(c.facts))
         if c_rec is not None and maps and c.fields is not None:
             out_maps["heat_flux"] = _image_plane(c.fields.flux_magnitude("x"))
+        del c                                   # its fields before the stiffness solve
     stiff = None
     if "elasticity" in props or "expansion" in props:
         say("solving for the effective stiffness")
-        stiff = elasticity(labels, mats, plane=plane, method=method, tol=tol,
-                           fields=maps and "elasticity" in props)
+        stiff = elasticity(labels, mats, plane=plane, method=method,
+                           tol=stiffness_tolerance(tol, criterion) if "expansion" in props
+                           else tol, fields=maps and "elasticity" in props,
+                           criterion=criterion)
         _converged(stiff, "elasticity", warnings)
     stiff_ok = stiff is not None and sane(stiff)
     if "elasticity" in props and stiff_ok:
@@ -124,8 +135,9 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
             out_maps["von_mises"] = _image_plane(stiff.fields.von_mises_uniaxial("x"))
     x = None
     if "expansion" in props and stiff_ok:
-        say("solving for the effective thermal expansion")
-        x = expansion(labels, mats, plane=plane, method=method, tol=tol, stiffness=stiff)
+        say("the effective thermal expansion from the strain localisation")
+        x = expansion(labels, mats, plane=plane, method=method, tol=tol, stiffness=stiff,
+                      criterion=criterion)
         _converged(x, "expansion", warnings)
     if x is not None and sane(x):
         x_rec = Expansion(x.tensor, x.mean(), x.axial, x.anisotropy(), solver_record(x.facts),

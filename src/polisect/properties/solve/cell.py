@@ -8,7 +8,7 @@ and, on request, the gradient field itself.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -62,10 +62,25 @@ class Cell:
 
 @dataclass(frozen=True, eq=False)
 class Load:
-    """A load case: mean gradient *E* (nc, d) and optional prestress *tau* (n_phases, nc, d)."""
+    """A load case: mean gradient *E* (nc, d) and optional prestress *tau* (n_phases, nc, d).
+
+    *voigt* is the arithmetic mean of the load's own effective entry when it is not
+    ``E:⟨L⟩:E`` (a load given by a prestress, e.g. the axial strain of generalized plane
+    strain); the energy stopping rule of `cg.pcg` needs it.
+    """
 
     E: np.ndarray
     tau: np.ndarray | None = None
+    voigt: float | None = None
+
+    def mean_energy(self, cell: Cell) -> float | None:
+        """``S/N``: the load's effective diagonal entry at zero fluctuation (the Voigt
+        mean), or None for a prestress without *voigt* (the residual rule is used)."""
+        if self.voigt is not None:
+            return float(self.voigt)
+        if self.tau is not None:
+            return None
+        return float(np.einsum("p,paibj,ai,bj->", cell.fractions, cell.L, self.E, self.E))
 
     def sigma0(self, cell: Cell) -> np.ndarray:
         """The per-phase flux of the mean gradient, ``L:E + τ``, shape (n_phases, nc, d)."""
@@ -87,6 +102,12 @@ class Solution:
     converged : bool
     gradient : (nc, d, *grid) ndarray or None
         Element-mean (or pixel-centre, `ms`) gradient field, when asked for.
+    cross : (m,) ndarray
+        ``x_iᵀ r / N`` for the fluctuations ``x_i`` of the m load cases solved before
+        (``r`` this solve's final residual), the correction of the energy-form tensor
+        (`methods.Run.energy_form`); zeros for `ms`.
+    energy_error : float or None
+        Estimated relative error of this load's effective diagonal entry (`cg.pcg`).
     """
 
     phase_means: np.ndarray
@@ -94,6 +115,8 @@ class Solution:
     residuals: np.ndarray
     converged: bool
     gradient: np.ndarray | None = None
+    cross: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    energy_error: float | None = None
 
     def mean_flux(self, cell: Cell, load: Load) -> np.ndarray:
         """Mean flux ``⟨L:g + τ⟩``, shape (nc, d)."""

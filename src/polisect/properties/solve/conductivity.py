@@ -23,8 +23,10 @@ class ConductivityResult(HasFacts):
     Attributes
     ----------
     tensor : (d, d) ndarray
-        ⟨q⟩ = tensor · ⟨∇T⟩ (units of the phase conductivities). Column j is the mean
-        flux under a unit mean gradient along axis j.
+        ⟨q⟩ = tensor · ⟨∇T⟩ (units of the phase conductivities), in the symmetric energy
+        form (`methods.Run.energy_form`): the diagonal entry j is the mean flux along j
+        under a unit mean gradient along j; off-diagonal entries differ from the mean
+        fluxes by less than the solver tolerance times √(k_ii k_jj).
     facts : SolverFacts
         ``method``, ``iterations``, ``seconds``, ``residuals``, ``converged`` are also
         attributes of the result.
@@ -62,20 +64,23 @@ def field_flags(names: Sequence[str], fields) -> list[bool]:
 
 def solve_scalar(labels: np.ndarray, k: np.ndarray, method: str, tol: float,
                  maxiter: int | None, flags: list[bool],
-                 names: Sequence[str] | None = None) -> tuple[np.ndarray, Run]:
-    """Effective tensor of the scalar problem with per-phase tensors *k* (P, d, d);
-    *names* label its load cases in the live progress (default "gradient x", …)."""
+                 names: Sequence[str] | None = None,
+                 criterion: str = "energy") -> tuple[np.ndarray, Run]:
+    """Effective tensor (energy form, `methods.Run.energy_form`) of the scalar problem with
+    per-phase tensors *k* (P, d, d); *names* label its load cases in the live progress
+    (default "gradient x", …)."""
     dim = labels.ndim
     cell = Cell(labels, k.reshape(k.shape[0], 1, dim, 1, dim))
     loads = [Load(np.eye(dim)[i][None, :]) for i in range(dim)]
     names = names or [f"gradient {a}" for a in AXIS_NAMES[:dim]]
-    run = solve_loads(cell, loads, method, tol, maxiter, flags, names)
+    run = solve_loads(cell, loads, method, tol, maxiter, flags, names, criterion)
     tensor = np.column_stack([s.mean_flux(cell, ld)[0] for s, ld in zip(run.solutions, loads)])
-    return tensor, run
+    return run.energy_form(tensor), run
 
 
 def conductivity(labels, materials: Mapping, *, method: str = "auto", tol: float = 1e-6,
-                 maxiter: int | None = None, fields=False) -> ConductivityResult:
+                 maxiter: int | None = None, fields=False,
+                 criterion: str = "energy") -> ConductivityResult:
     """Effective conductivity tensor of a periodic 2D or 3D phase map.
 
     One load case per axis: a unit mean temperature gradient with periodic fluctuations.
@@ -91,11 +96,17 @@ def conductivity(labels, materials: Mapping, *, method: str = "auto", tol: float
         (same equations); 'ms' Moulinec–Suquet basic scheme (no pores); 'auto' the
         fastest correct one.
     tol : float
-        Relative residual (equilibrium error for 'ms') to reach.
+        Accuracy to reach. 'fft'/'fe' with ``criterion="energy"``: the estimated relative
+        error of the effective diagonal entries (off-diagonal entries within
+        ``tol·√(k_ii k_jj)``), see `polisect.properties.solve.cg`; with
+        ``criterion="residual"`` the relative residual ‖r‖/‖b‖; 'ms': its equilibrium
+        error.
     maxiter : int, optional
     fields : bool or sequence of {'x', 'y', 'z'}
         Keep the temperature-gradient and heat-flux fields of all (True) or the named
         load cases.
+    criterion : {'energy', 'residual'}
+        Stopping rule of 'fft' and 'fe' (see *tol*).
 
     Returns
     -------
@@ -120,7 +131,7 @@ def conductivity(labels, materials: Mapping, *, method: str = "auto", tol: float
     names = AXIS_NAMES[:image.dim]
     flags = field_flags(names, fields)
     k = conductivity_tensors(image)
-    tensor, run = solve_scalar(image.labels, k, method, tol, maxiter, flags)
+    tensor, run = solve_scalar(image.labels, k, method, tol, maxiter, flags, None, criterion)
     out = None
     if any(flags):
         kept = [i for i, f in enumerate(flags) if f]

@@ -49,6 +49,11 @@ class ElasticityResult(HasFacts):
         Generalized plane strain: the full stiffness of the prismatic structure (z the
         prism axis), in-plane/axial block and antiplane shear block.
     fields : ElasticFields or None
+    phase_strains : (n_loads, n_phases, nc, d) ndarray or None
+        Phase sums ``Σ_{pixels of p} g / N`` of the total displacement gradient under each unit
+        load case (order of `load_stiffness`): ``f_p`` times the phase averages of the
+        strain-localisation tensor, which give the thermal expansion without another
+        solve (`expansion`).
     """
 
     stiffness: np.ndarray
@@ -56,6 +61,7 @@ class ElasticityResult(HasFacts):
     facts: SolverFacts
     prismatic_stiffness: np.ndarray | None = None
     fields: ElasticFields | None = None
+    phase_strains: np.ndarray | None = None
 
     @property
     def load_stiffness(self) -> np.ndarray:
@@ -111,7 +117,8 @@ def axial_map(axial: np.ndarray) -> np.ndarray:
 
 
 def elasticity(labels, materials: Mapping, *, plane: str = GPS, method: str = "auto",
-               tol: float = 1e-6, maxiter: int | None = None, fields=False) -> ElasticityResult:
+               tol: float = 1e-6, maxiter: int | None = None, fields=False,
+               criterion: str = "energy") -> ElasticityResult:
     """Effective stiffness of a periodic 2D or 3D phase map.
 
     Parameters
@@ -125,10 +132,15 @@ def elasticity(labels, materials: Mapping, *, plane: str = GPS, method: str = "a
         Plane mode of a 2D image (see the module notes); ignored in 3D.
     method : {'auto', 'fft', 'fe', 'ms'}
     tol : float
+        As for `conductivity`: with ``criterion="energy"`` the estimated relative error of
+        the diagonal entries of the stiffness over the load cases (off-diagonal entries
+        within ``tol·√(C_ii C_jj)``).
     maxiter : int, optional
     fields : bool or sequence of load names
         Keep strain and stress fields of all (True) or the named unit-strain load cases
         ('xx', 'yy', 'xy', …, 'zz' for the axial load of generalized plane strain).
+    criterion : {'energy', 'residual'}
+        Stopping rule of 'fft' and 'fe' (see `conductivity`).
 
     Returns
     -------
@@ -150,11 +162,12 @@ def elasticity(labels, materials: Mapping, *, plane: str = GPS, method: str = "a
     (70.0, 0.3)
     """
     image = phase_image(labels, materials)
-    return elastic_result(image, check_plane(plane, image.dim), method, tol, maxiter, fields)
+    return elastic_result(image, check_plane(plane, image.dim), method, tol, maxiter, fields,
+                          criterion)
 
 
 def elastic_result(image: PhaseImage, plane: str | None, method: str, tol: float,
-                   maxiter: int | None, fields) -> ElasticityResult:
+                   maxiter: int | None, fields, criterion: str = "energy") -> ElasticityResult:
     """`elasticity` on a checked `PhaseImage`."""
     phases = elastic_phases(image, plane, thermal=False)
     cell = elastic_cell(image, phases)
@@ -163,57 +176,69 @@ def elastic_result(image: PhaseImage, plane: str | None, method: str, tol: float
     loads = [Load(tensors.voigt_to_strain(e)) for e in np.eye(len(names))]
     if plane == GPS:
         names = names + ("zz",)
-        loads.append(Load(np.zeros((2, 2)), tau=tensors.voigt_to_stress(phases.axial)))
+        loads.append(Load(np.zeros((2, 2)), tau=tensors.voigt_to_stress(phases.axial),
+                          voigt=float(cell.fractions @ phases.axial_stiffness)))
     flags = field_flags(names, fields)
     run = solve_loads(cell, loads, method, tol, maxiter, flags,
                       [f"{'axial ' if plane == GPS and n == 'zz' else ''}strain {n}"
-                       for n in names])
+                       for n in names], criterion)
+    run, grads = run.take_fields()
     C = np.column_stack([tensors.stress_to_voigt(s.mean_flux(cell, ld))
                          for s, ld in zip(run.solutions, loads)])
+    strains = np.array([s.phase_means for s in run.solutions])
     if plane != GPS:
-        out_fields = _fields(cell, phases, run, loads, names, flags, C, zz_tau=None)
-        return ElasticityResult(C, plane, SolverFacts.of(run), fields=out_fields)
+        C = run.energy_form(C)
+        out_fields = _fields(cell, phases, grads, loads, names, flags, C, zz_tau=None)
+        return ElasticityResult(C, plane, SolverFacts.of(run), fields=out_fields,
+                                phase_strains=strains)
     zz = [s.average(axial_map(phases.axial), phases.axial_stiffness if name == "zz" else None,
                     cell.fractions) for s, name in zip(run.solutions, names)]
-    C4 = np.vstack([C, zz])                                    # rows/cols xx, yy, xy, zz
+    C4 = run.energy_form(np.vstack([C, zz]))                   # rows/cols xx, yy, xy, zz
     antiplane, anti_run = solve_scalar(image.labels, phases.antiplane, method, tol, maxiter,
-                                       [False, False], ["axial shear xz", "axial shear yz"])
+                                       [False, False], ["axial shear xz", "axial shear yz"],
+                                       criterion)
     prismatic = np.zeros((6, 6))
     prismatic[np.ix_(PRISMATIC_ORDER, PRISMATIC_ORDER)] = C4
     prismatic[np.ix_([4, 3], [4, 3])] = antiplane
     condensed = C4[:3, :3] - np.outer(C4[:3, 3], C4[3, :3]) / C4[3, 3] if C4[3, 3] > 0 \
         else C4[:3, :3]
-    out_fields = _fields(cell, phases, run, loads, names, flags, C4, zz_tau=phases.axial_stiffness)
-    return ElasticityResult(condensed, plane, SolverFacts.of(run, anti_run), prismatic, out_fields)
+    out_fields = _fields(cell, phases, grads, loads, names, flags, C4,
+                         zz_tau=phases.axial_stiffness)
+    return ElasticityResult(condensed, plane, SolverFacts.of(run, anti_run), prismatic, out_fields,
+                            strains)
 
 
-def _fields(cell: Cell, phases: ElasticPhases, run, loads, names, flags, load_stiffness,
-            zz_tau) -> ElasticFields | None:
+def _fields(cell: Cell, phases: ElasticPhases, grads: list, loads, names, flags,
+            load_stiffness, zz_tau) -> ElasticFields | None:
+    """Strain and stress fields of the kept load cases; each gradient in *grads* is
+    dropped from the list once used, and the outputs are filled in place, so the peak
+    memory stays near the size of the outputs."""
     if not any(flags):
         return None
     kept = [i for i, f in enumerate(flags) if f]
     solid = cell.solid
-    strain, stress, stress_zz = [], [], []
-    for i in kept:
-        g = run.solutions[i].gradient
-        sym = np.moveaxis(0.5 * (g + np.swapaxes(g, 0, 1)), (0, 1), (-2, -1))
-        eps = np.moveaxis(tensors.strain_to_voigt(sym), -1, 0)
+    nv = len(VOIGT_NAMES[cell.dim])
+    strain = np.empty((len(kept), nv) + cell.shape)
+    stress = np.zeros((len(kept), nv) + cell.shape)
+    stress_zz = None if phases.axial is None else np.zeros((len(kept),) + cell.shape)
+    for slot, i in enumerate(kept):
+        g = grads[i]
+        grads[i] = None
+        eps = strain[slot]
+        eps[:] = np.moveaxis(tensors.strain_to_voigt(
+            np.moveaxis(0.5 * (g + np.swapaxes(g, 0, 1)), (0, 1), (-2, -1))), -1, 0)
+        del g
         tau = loads[i].tau
-        sig = np.zeros_like(eps)
-        zz = np.zeros(cell.shape) if phases.axial is not None else None
+        sig = stress[slot]
         for p in range(cell.n_phases):
             mask = cell.labels == p
             sig[:, mask] = phases.stiffness[p] @ eps[:, mask]
             if tau is not None:
                 sig[:, mask] += tensors.stress_to_voigt(tau[p])[:, None]
-            if zz is not None:
-                zz[mask] = phases.axial[p] @ eps[:, mask]
+            if stress_zz is not None:
+                stress_zz[slot][mask] = phases.axial[p] @ eps[:, mask]
                 if names[i] == "zz":
-                    zz[mask] += zz_tau[p]
+                    stress_zz[slot][mask] += zz_tau[p]
         eps[:, ~solid] = np.nan
-        strain.append(eps)
-        stress.append(sig)
-        stress_zz.append(zz)
-    return ElasticFields(tuple(names[i] for i in kept), np.array(strain), np.array(stress),
-                         None if phases.axial is None else np.array(stress_zz),
+    return ElasticFields(tuple(names[i] for i in kept), strain, stress, stress_zz,
                          load_stiffness, tuple(names))

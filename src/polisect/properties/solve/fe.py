@@ -38,7 +38,7 @@ import scipy.sparse as sp
 
 from . import grid
 from .cell import Cell, Load, Solution
-from .cg import pcg
+from .cg import solve_system
 from .topology import periodic_clusters
 
 
@@ -191,14 +191,17 @@ class AMGSolver:
             b += np.roll(part, tuple(c), axis=tuple(range(dim)))
         return b.ravel()
 
-    def solve(self, load: Load, fields: bool = False) -> Solution:
-        """Solve one load case."""
+    def solve(self, load: Load, fields: bool = False, earlier: list | None = None,
+              criterion: str = "energy") -> Solution:
+        """Solve one load case (*earlier*: as for `FourierSolver.solve`)."""
         cell = self.cell
         b = self.load_vector(load)[self.kept] * self.free
-        x, info = pcg(self.apply, self.precondition, b, self.tol, self.maxiter)
+        x, info, cross = solve_system(self.apply, self.precondition, b, self, load, earlier,
+                                      criterion)
         u = np.zeros(cell.labels.size * cell.ncomp)
         u[self.kept] = x
         u = np.moveaxis(u.reshape(cell.shape + (cell.ncomp,)), -1, 0)
         g = grid.centre_gradient(u, load.E)
         return Solution(grid.phase_means(cell.labels, g, cell.n_phases), info.iterations,
-                        info.residuals, info.converged, g if fields else None)
+                        info.residuals, info.converged, g if fields else None, cross,
+                        info.energy_error)

@@ -90,7 +90,7 @@ def wave_vectors(shape: tuple[int, ...]) -> np.ndarray:
     return np.ascontiguousarray(xi)
 
 
-@Kernel
+@Kernel(split=(0, 1, 4))
 def _local_law(eps, labels, Lc, tauc, sig):
     """``σ_c = Σ_c' Lc[p, c, c'] ε_c' + τ_c[p]`` per pixel (flat arrays (nv, N))."""
     nv, n = eps.shape
@@ -158,7 +158,7 @@ def _green_one(eps_hat, sig_hat, xi, N, comp_a, comp_i, f):
     return abs(v0) ** 2 + abs(v1) ** 2 + abs(v2) ** 2
 
 
-@Kernel
+@Kernel(split=())
 def _green_update(eps_hat, sig_hat, xi, N, comp_a, comp_i, weight, null):
     """``ε̂ ← ε̂ − Γ̂0 σ̂`` at every non-zero frequency (``ε̂ = 0`` where the effective
     wave vector vanishes); returns ``Σ w |σ̂·ξ|²``."""
@@ -212,8 +212,10 @@ class MSSolver:
         self.weight = np.ascontiguousarray(np.broadcast_to(w_last, self.half_shape).ravel())
         self._factor = factor
 
-    def solve(self, load: Load, fields: bool = False) -> Solution:
-        """Run the fixed point for one load case."""
+    def solve(self, load: Load, fields: bool = False, earlier: list | None = None,
+              criterion: str = "energy") -> Solution:
+        """Run the fixed point for one load case (it stops on its equilibrium error; the
+        fields are not Galerkin iterates, so *earlier* and *criterion* are not used)."""
         cell = self.cell
         nv, shape, n = len(self.comp_a), cell.shape, cell.labels.size
         tau = np.zeros((cell.n_phases, nv)) if load.tau is None else \

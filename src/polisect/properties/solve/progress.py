@@ -19,6 +19,7 @@ Examples
 
 from __future__ import annotations
 
+import time
 from contextlib import contextmanager
 from contextvars import ContextVar
 from typing import Callable, Iterator
@@ -36,7 +37,10 @@ def observe(callback: Observer) -> Iterator[None]:
     *callback* receives dicts: ``{"event": "load case", "load_case": i, "load_cases": n,
     "method": m, "tolerance": t, "name": what is loaded or None}`` when a load case starts (i from 1), then
     ``{"event": "iteration", "iteration": k, "residual": r, ...}`` after every iteration
-    (with the load-case keys repeated). It must be quick; it runs in the solver's thread.
+    (with the load-case keys repeated), and ``{"event": "transform", "kind": "forward" or
+    "inverse", "seconds": s}`` after every Fourier transform of the solvers (the bench
+    uses these to time the FFT floor inside the same solve). It must be quick; it runs
+    in the solver's thread.
     """
     token = _observer.set(callback)
     try:
@@ -64,3 +68,18 @@ def iteration(k: int, residual: float) -> None:
     if callback is not None:
         callback({"event": "iteration", "iteration": k, "residual": float(residual),
                   **_load.get()})
+
+
+@contextmanager
+def transform(kind: str) -> Iterator[None]:
+    """Time a Fourier transform (*kind* 'forward' or 'inverse') for the observer."""
+    callback = _observer.get()
+    if callback is None:
+        yield
+        return
+    start = time.perf_counter()
+    try:
+        yield
+    finally:
+        callback({"event": "transform", "kind": kind,
+                  "seconds": time.perf_counter() - start})
