@@ -227,3 +227,64 @@ def window_figure(windows):
     axes.ravel()[0].legend(fontsize=8, loc="best")
     fig.tight_layout()
     return fig
+
+
+def over_temperature(curves: dict):
+    """Each effective property against temperature (one panel per property).
+
+    Parameters
+    ----------
+    curves : dict
+        (symbol, kind) → list of (temperature °C, value in the unit people read).
+    """
+    from .units import heading
+
+    n = len(curves)
+    fig, axes = new_axes((2.6 * n, 2.4), 1, n, squeeze=False)
+    for ax, ((sym, kind), pts) in zip(axes[0], curves.items()):
+        t, v = zip(*pts)
+        ax.plot(t, v, "o-", color="#20304f", markersize=4)
+        ax.set_xlabel("temperature (°C)", fontsize=8)
+        ax.set_title(heading(sym, kind), fontsize=9)
+        ax.tick_params(labelsize=7)
+        ax.grid(alpha=0.3)
+    fig.tight_layout()
+    return fig
+
+
+BUDGET_COLORS = {"sampling": "#20304f", "window": "#4fb0c6", "segmentation": "#e0a030",
+                 "discretization": "#3f9e74", "material": "#c8553d", "model_2d_3d": "#7b68b5"}
+
+
+def budget_bars(rows):
+    """One horizontal bar per quantity: its assessed uncertainty components, relative to the
+    value (%), stacked as squares so that the bar's length is the root-sum-square.
+
+    Parameters
+    ----------
+    rows : list of (words, {component: relative half-width})
+    """
+    import numpy as np
+
+    fig, ax = new_axes((6.5, 0.3 * len(rows) + 1.0))
+    y = np.arange(len(rows))[::-1]
+    for yi, (words, comps) in zip(y, rows):
+        total = math.sqrt(sum(v * v for v in comps.values()))
+        left = 0.0
+        for name, v in comps.items():
+            if v <= 0 or total == 0:
+                continue
+            width = 100.0 * total * (v * v) / (total * total)   # share of the variance
+            ax.barh(yi, width, left=left, color=BUDGET_COLORS[name], height=0.6,
+                    label=name.replace("_", " ").replace("model 2d 3d", "2D vs 3D"))
+            left += width
+    ax.set_yticks(y, [w for w, _ in rows], fontsize=7)
+    ax.set_xlabel("combined half-width at 95 % (% of the value), split by share of variance",
+                  fontsize=8)
+    handles, labels = ax.get_legend_handles_labels()
+    unique = dict(zip(labels, handles))
+    ax.legend(unique.values(), unique.keys(), fontsize=7, loc="lower right")
+    ax.tick_params(labelsize=7)
+    ax.grid(axis="x", alpha=0.3)
+    fig.tight_layout()
+    return fig

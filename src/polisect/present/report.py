@@ -19,7 +19,8 @@ from ..properties.shock import INDEX_WORDS
 from . import figures, record
 from .htmlkit import (CAUTION_SECTION, CSS, PALETTE, csp_meta, figure_png, grid, kv_table,
                       new_axes)
-from .units import column_words, heading, number, scale_of, show, tensor_cells, unit_text
+from .units import (column_words, heading, number, scale_of, show, tensor_cells, unit_text,
+                    with_uncertainty, with_unit)
 
 EDGE_NOTES = {
     "periodic": "periodic — each window solved as a periodic cell; a window cut from a "
@@ -676,8 +677,147 @@ def _estimate_3d(analysis, r, colors) -> str:
             "phases need a real volume (docs/methods.md).</p></section>")
 
 
-SECTIONS = [_caution, _warnings, _source, _images, _fractions, _materials, _effective,
-            _estimate_3d, _schemes, _shock, _particles, _windows, _config, _raw_json]
+def _temperatures(analysis, r, colors) -> str:
+    if not r.effective_by_temperature:
+        return ""
+    rows, curves = [], {}
+    cols = (("conductivity", "mean", "conductivity", "k"), ("elasticity", "youngs_modulus",
+            "modulus", "E"), ("elasticity", "poisson_ratio", "poisson", "ν"),
+            ("expansion", "mean", "expansion", "α"))
+    present = [c for c in cols if any(getattr(t.effective, c[0]) is not None
+                                      for t in r.effective_by_temperature)]
+    for t in r.effective_by_temperature:
+        row = [number(t.temperature_C)]
+        for block, attr, kind, sym in present:
+            b = getattr(t.effective, block)
+            v = None if b is None else value_of(getattr(b, attr))
+            row.append("–" if v is None else number(v * scale_of(kind), trim=True))
+            if v is not None:
+                curves.setdefault((sym, kind), []).append((t.temperature_C, v * scale_of(kind)))
+        if t.shock is not None:
+            row.append(number(t.shock.R, trim=True))
+        rows.append(tuple(row))
+    head = ("Temperature (°C)",) + tuple(heading(sym, kind) for _, _, kind, sym in present)
+    if any(t.shock is not None for t in r.effective_by_temperature):
+        head += ("R (K)",)
+    fig = figure_png(figures.over_temperature(curves)) if curves else ""
+    notes = "".join(f"<li>{html.escape(n[len('temperatures: '):])}</li>" for n in r.notes
+                    if n.startswith("temperatures:"))
+    return ("<section><h2>Effective properties over temperature</h2>" + grid(head, rows)
+            + (f'<figure class="wide"><img alt="properties over temperature" src="{fig}"></figure>'
+               if fig else "")
+            + f'<p class="note">The section solved again with every phase at each '
+            "temperature (the library's tables, interpolated linearly); expansion is the "
+            "instantaneous coefficient α(T) of the composite; R is Hasselman's comparative "
+            "crack-initiation index from these values. Same model as above ("
+            f"{html.escape(r.effective.model if r.effective else '')}).</p>"
+            + (f'<ul class="note">{notes}</ul>' if notes else "") + "</section>")
+
+
+_PROPERTY_WORDS = {"conductivity": "conductivity", "youngs_modulus": "Young's modulus",
+                   "shear_modulus": "shear modulus", "poisson_ratio": "Poisson's ratio",
+                   "expansion": "expansion (instantaneous)",
+                   "mean_expansion": "expansion (mean from 20 °C)"}
+
+_MEASURED_KIND = {"conductivity": "conductivity", "youngs_modulus": "modulus",
+                  "shear_modulus": "modulus", "expansion": "expansion",
+                  "mean_expansion": "expansion"}
+
+
+def _measured(analysis, r, colors) -> str:
+    if not r.measured:
+        return ""
+    rows = []
+    for m in r.measured:
+        kind = _MEASURED_KIND[m.property]
+        sc = scale_of(kind)
+        rows.append((html.escape(_PROPERTY_WORDS[m.property]), number(m.temperature_C),
+                     with_uncertainty(m.value, m.uncertainty, sc), html.escape(m.method or "–"),
+                     "–" if m.section is None else number(m.section * sc, trim=True),
+                     "–" if m.estimate_3d is None else number(m.estimate_3d * sc, trim=True),
+                     "–" if m.lower is None else
+                     f"{number(m.lower * sc, trim=True)} – {number(m.upper * sc, trim=True)}",
+                     "–" if m.z_section is None else f"{m.z_section:+.1f}",
+                     html.escape(m.verdict)))
+    head = ("Property", "T (°C)", "Measured (±u)", "Method", "Section model", "3D estimate",
+            "3D bounds", "z (section)", "Verdict")
+    return ("<section><h2>Measured beside computed</h2>" + grid(head, rows, raw=True)
+            + '<p class="note">Values in the units of the tables above (expansion in 10⁻⁶/K). '
+            "z = (computed − measured) / u with the measurement's standard uncertainty u; "
+            "|z| ≤ 2 agrees at about 95 % (JCGM 100:2008). The bounds are Hashin–Shtrikman's "
+            "for any isotropic 3D arrangement of these phases at these fractions: a measured "
+            "value outside them points to the phase map or the phase properties.</p></section>")
+
+
+def _fitted(analysis, r, colors) -> str:
+    fits = [(p, p.fitted) for p in r.phases if p.fitted is not None]
+    if not fits:
+        return ""
+    rows = []
+    for p, f in fits:
+        kind = {"conductivity": "conductivity", "youngs_modulus": "modulus",
+                "poisson_ratio": "poisson", "expansion": "expansion"}[f.property]
+        sc = scale_of(kind)
+        rows.append((html.escape(p.name), html.escape(_PROPERTY_WORDS[f.property]),
+                     with_unit(number(f.value * sc), unit_text(kind)),
+                     f"{number(f.interval[0] * sc)} – {number(f.interval[1] * sc)}",
+                     html.escape(_PROPERTY_WORDS[f.target]),
+                     with_uncertainty(f.measured, f.uncertainty,
+                                      scale_of(_MEASURED_KIND[f.target])), str(f.steps)))
+    head = ("Phase", "Property", "Fitted value", "95 % interval", "Fitted to", "Measured (±u)",
+            "Solves")
+    return ("<section><h2>Phase properties back-calculated from measurements</h2>"
+            + grid(head, rows) + '<p class="note">Each value makes the computed effective '
+            f"property equal the measured one through the {html.escape(fits[0][1].model)} "
+            "(Newton's method with the derivative from the phase's share of the stored energy). "
+            "The interval covers the measurement's uncertainty only (first order).</p></section>")
+
+
+def _uncertainty(analysis, r, colors) -> str:
+    if not r.uncertainty:
+        return ""
+    from ..trust.budget import COMPONENTS
+
+    rows, bars, advice = [], [], {}
+    for key, b in r.uncertainty.items():
+        words, unit, sc = column_words(key)
+        comps = ["–" if b.components.get(c) is None else number(b.components[c] * sc, 2)
+                 for c in COMPONENTS]
+        rows.append((html.escape(words) + (f" ({unit})" if unit else ""),
+                     with_uncertainty(b.value, b.combined, sc), *comps,
+                     html.escape(_COMPONENT_WORDS.get(b.largest, "–"))))
+        if b.largest:
+            advice.setdefault(b.advice, []).append(words)
+        if b.combined and b.value:
+            bars.append((words, {c: (b.components.get(c) or 0.0) / abs(b.value)
+                                 for c in COMPONENTS}))
+    head = (("Quantity", "Value ± combined (95 %)")
+            + tuple(_COMPONENT_WORDS[c] for c in COMPONENTS) + ("Largest",))
+    fig = figure_png(figures.budget_bars(bars)) if bars else ""
+    items = "".join(f"<li><strong>{html.escape(', '.join(qs))}:</strong> {html.escape(text)}"
+                    "</li>" for text, qs in advice.items())
+    return ("<section><h2>How sure are we? The error budget</h2>" + grid(head, rows, raw=True)
+            + (f"<h3>What would tighten them most</h3><ul>{items}</ul>" if items else "")
+            + (f'<figure class="wide"><img alt="error budget" src="{fig}"></figure>'
+               if fig else "")
+            + '<p class="note">Each component is a ± half-width at about 95 % in the quantity\'s '
+            "unit; – means not assessed. The independent components are combined as a "
+            "root-sum-square. Sampling: the field-to-field interval (fractions) or the bootstrap "
+            "interval (D50); window: the window-size study; discretization: the map re-solved "
+            "coarsened by 2 and 4 (Richardson extrapolation); material: the stated "
+            "uncertainties of the phase properties propagated to first order; 2D vs 3D: the "
+            "difference from the 3D estimate. Discretization and 2D-vs-3D are biases carried "
+            "as their size.</p></section>")
+
+
+_COMPONENT_WORDS = {"sampling": "sampling", "window": "window", "segmentation": "segmentation",
+                    "discretization": "pixel size", "material": "material data",
+                    "model_2d_3d": "2D vs 3D"}
+
+
+SECTIONS = [_caution, _warnings, _source, _images, _fractions, _materials, _fitted,
+            _effective, _uncertainty, _measured, _temperatures, _estimate_3d, _schemes, _shock,
+            _particles, _windows, _config, _raw_json]
 
 
 def _png_image(img, pixel_size_um=None) -> str:

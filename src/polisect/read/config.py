@@ -88,6 +88,7 @@ class SolveConfig:
     voxels: int = 160
     realizations: int = 3
     temperatures_C: tuple[float, ...] | None = None
+    verify: bool = False
 
 
 @dataclass(frozen=True)
@@ -106,7 +107,6 @@ class UncertaintyConfig:
     discretization: bool = True
     material: bool = True
 
-    verify: bool = False
 
 @dataclass(frozen=True)
 class WindowsConfig:

@@ -290,4 +290,6 @@ def _material_words(term: MaterialTerm | None, phase_names: Mapping[int, str] | 
         return "the phase properties with the largest stated uncertainty"
     label, prop = term.largest
     name = (phase_names or {}).get(label, f"phase {label}")
-    return f"the {prop.replace('_', ' ')} of {name}"
+    words = {"youngs_modulus": "Young's modulus", "poisson_ratio": "Poisson's ratio",
+             "expansion": "thermal expansion"}.get(prop, prop.replace("_", " "))
+    return f"the {words} of {name}"
