@@ -29,7 +29,7 @@ import numpy as np
 from ..core.errors import InputError
 
 __all__ = ["SegmentResult", "segment_grayscale", "segment_palette", "suggest_classes",
-           "clean_small_features", "noise_sigma"]
+           "clean_small_features", "noise_sigma", "refined_thresholds", "resolve_mixed_rims"]
 
 DENOISE = ("none", "median", "nl-means")
 METHODS = ("multi-otsu", "thresholds")
@@ -296,6 +296,128 @@ def _multi_otsu(image, classes, notes):
     except ValueError as exc:
         raise InputError(f"the grey levels cannot be split into {classes} classes ({exc}); "
                          "lower classes or give thresholds") from None
+
+
+def refined_thresholds(image: np.ndarray, classes: int, *, iterations: int = 20
+                       ) -> np.ndarray:
+    """Multi-Otsu thresholds moved to the midpoints between adjacent class medians.
+
+    Multi-Otsu [1]_ maximises the between-class variance; when the classes are well
+    apart any threshold in the empty valley between them does that equally well, and a
+    rare class (a few per cent of pores) pulls the optimum towards itself. The iterative
+    selection of Ridler and Calvard [2]_ then places each threshold midway between the
+    grey levels of the two classes it separates (here their medians, robust to
+    outliers), repeated until stable: pixels mixing two phases at a boundary are split
+    evenly, which keeps area fractions unbiased.
+
+    Parameters
+    ----------
+    image : ndarray
+        Grey image (denoised).
+    classes : int
+        Number of classes, ≥ 2.
+    iterations : int
+        Largest number of midpoint updates.
+
+    Returns
+    -------
+    ndarray of float, shape (classes − 1,)
+
+    References
+    ----------
+    .. [1] Liao, P.-S., Chen, T.-S., Chung, P.-C. (2001). J. Inf. Sci. Eng. 17, 713-727.
+    .. [2] Ridler, T. W., Calvard, S. (1978). Picture thresholding using an iterative
+       selection method. IEEE Trans. Syst. Man Cybern. 8, 630-632.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> img = np.concatenate([np.full(970, 20.0), np.full(30, 200.0)]).reshape(10, 100)
+    >>> refined_thresholds(img, 2)
+    array([110.])
+    """
+    image = _check_grey(image)
+    _check_contrast(image, _check_classes(classes))
+    values = np.sort(np.asarray(image, dtype=np.float64).ravel())
+    t = np.asarray(_multi_otsu(values, classes, []), float)
+    for _ in range(iterations):
+        edges = np.searchsorted(values, t, side="right")
+        parts = np.split(values, edges)
+        if any(p.size == 0 for p in parts):
+            break
+        medians = np.array([p[p.size // 2] for p in parts])
+        new = (medians[:-1] + medians[1:]) / 2
+        if np.allclose(new, t):
+            break
+        t = new
+    return t
+
+
+def resolve_mixed_rims(labels: np.ndarray, grey: np.ndarray, means: Sequence[float]
+                       ) -> tuple[np.ndarray, int]:
+    """Give thin rims of an intermediate class between a darker and a brighter class to
+    one of the two.
+
+    A pixel straddling the boundary between a dark and a bright phase takes a grey level
+    in between (the partial-volume effect), which a threshold assigns to any class lying
+    in between: a pore in a bright matrix gets a one- or two-pixel rim of the middle
+    phase [1]_. Here a pixel of a middle class k is such a rim pixel when a binary
+    opening of class k with the 3 × 3 cross removes it (the rim is under three pixels
+    wide) and its 3 × 3 neighbourhood holds both a darker and a brighter class; it goes
+    to the darker of those (the nearest darker class present) when its grey level lies
+    below the midpoint of the two classes' grey levels, else to the brighter.
+
+    Parameters
+    ----------
+    labels : ndarray of int, shape (ny, nx)
+        Classes 0..N−1 from dark to bright.
+    grey : ndarray, shape (ny, nx)
+        The grey levels that were classified.
+    means : sequence of float
+        Grey level of every class.
+
+    Returns
+    -------
+    labels : ndarray of int32
+    moved : int
+        Pixels reassigned.
+
+    References
+    ----------
+    .. [1] Russ, J. C., Neal, F. B. (2016). The Image Processing Handbook, 7th ed. CRC
+       Press (thresholding: boundary pixels of intermediate grey level).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> grey = np.full((7, 7), 200.0); grey[2:5, 2:5] = 10; grey[1, 1:6] = 110
+    >>> lab = np.digitize(grey, [60, 150]).astype(int)
+    >>> resolve_mixed_rims(lab, grey, [10, 100, 200])[0][1]
+    array([2, 2, 2, 2, 2, 2, 2], dtype=int32)
+    """
+    from scipy import ndimage
+
+    out = np.asarray(labels).astype(np.int32)
+    means = np.asarray(means, float)
+    n = len(means)
+    cross = ndimage.generate_binary_structure(2, 1)
+    box = np.ones((3, 3), bool)
+    moved = 0
+    for k in range(1, n - 1):
+        mine = out == k
+        thin = mine & ~ndimage.binary_opening(mine, cross)
+        lower = np.where(out < k, out, -1)
+        higher = np.where(out > k, out, n)
+        low = ndimage.maximum_filter(lower, footprint=box)
+        high = ndimage.minimum_filter(higher, footprint=box)
+        rim = thin & (low >= 0) & (high < n)
+        if not rim.any():
+            continue
+        lo, hi = low[rim], high[rim]
+        mid = (means[lo] + means[hi]) / 2
+        out[rim] = np.where(np.asarray(grey)[rim] < mid, lo, hi)
+        moved += int(rim.sum())
+    return out, moved
 
 
 def suggest_classes(image: np.ndarray, max_classes: int = 5) -> int:
