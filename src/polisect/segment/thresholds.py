@@ -29,10 +29,14 @@ import numpy as np
 from ..core.errors import InputError
 
 __all__ = ["SegmentResult", "segment_grayscale", "segment_palette", "suggest_classes",
-           "clean_small_features", "noise_sigma", "refined_thresholds", "resolve_mixed_rims"]
+           "clean_small_features", "noise_sigma", "refined_thresholds", "resolve_mixed_rims",
+           "auto_denoise_px", "default_min_feature_px", "DENOISE_RADII"]
 
 DENOISE = ("none", "median", "nl-means")
 METHODS = ("multi-otsu", "thresholds")
+#: Median radii (pixels) the automatic denoising chooses from; footprints of 5, 9, 13, 21
+#: and 29 pixels.
+DENOISE_RADII = (1.0, 1.5, 2.0, 2.5, 3.0)
 #: Multi-Otsu searches all threshold combinations; beyond this many classes it uses a
 #: coarser histogram to stay fast.
 _FULL_HISTOGRAM_CLASSES = 5
@@ -55,12 +59,15 @@ class SegmentResult:
         ``'multi-otsu'``, ``'thresholds'`` or ``'palette'``.
     notes : tuple of str
         What was done and anything worth a warning (empty classes, merged features).
+    min_feature_px : int
+        Smallest feature kept, pixels (the value used when ``"auto"`` was asked for).
     """
 
     labels: np.ndarray
     thresholds: tuple[float, ...]
     method: str
     notes: tuple[str, ...] = ()
+    min_feature_px: int = 0
 
     def fractions(self) -> dict[int, float]:
         """Pixel fraction of every label present."""
@@ -70,8 +77,8 @@ class SegmentResult:
 
 def segment_grayscale(image: np.ndarray, *, method: str = "multi-otsu",
                       classes: int | None = None, thresholds: Sequence[float] | None = None,
-                      denoise: str = "none", denoise_px: float = 1.0,
-                      min_feature_px: int = 0) -> SegmentResult:
+                      denoise: str = "none", denoise_px: float | str = 1.0,
+                      min_feature_px: int | str = 0) -> SegmentResult:
     """Split a grey image (2D section or 3D stack) into classes by grey level.
 
     Parameters
@@ -90,11 +97,13 @@ def segment_grayscale(image: np.ndarray, *, method: str = "multi-otsu",
         ball in 3D) [3]_, or non-local means [4]_ with patches of side
         ``2 * round(denoise_px) + 1``, a search distance of ``round(3 * denoise_px)``
         and a filter strength of 0.8 times the noise level estimated from the image [5]_.
-    denoise_px : float
-        Denoising radius, pixels (≥ 1).
-    min_feature_px : int
+    denoise_px : float or 'auto'
+        Denoising radius, pixels (≥ 1); ``'auto'`` chooses it from the noise and the gap
+        between the classes' grey levels (`auto_denoise_px`).
+    min_feature_px : int or 'auto'
         Features (connected regions of one class) smaller than this many pixels are
-        merged into the class around them (`clean_small_features`); 0 keeps all.
+        merged into the class around them (`clean_small_features`); 0 keeps all;
+        ``'auto'`` uses `default_min_feature_px` of the denoising radius.
 
     Returns
     -------
@@ -147,6 +156,17 @@ def segment_grayscale(image: np.ndarray, *, method: str = "multi-otsu",
         thresholds = _check_thresholds(thresholds, classes)
         classes = len(thresholds) + 1
     _check_contrast(image, classes)
+    if denoise_px == "auto":
+        denoise_px = 1.0
+        if denoise != "none":
+            cuts = thresholds if method == "thresholds" else _multi_otsu(image, classes, [])
+            parts = np.digitize(image, cuts, right=True)
+            levels = [np.median(image[parts == k]) for k in range(classes) if np.any(parts == k)]
+            gap = float(np.diff(levels).min()) if len(levels) > 1 else float(np.ptp(image))
+            denoise_px = auto_denoise_px(noise_sigma(image), gap)
+            notes.append(f"denoising radius {denoise_px:g} px chosen from the noise")
+    if min_feature_px == "auto":
+        min_feature_px = default_min_feature_px(denoise_px if denoise != "none" else 1.0)
     work = _denoise(image, denoise, denoise_px, notes)
     if method == "multi-otsu":
         thresholds = _multi_otsu(work, classes, notes)
@@ -156,7 +176,46 @@ def segment_grayscale(image: np.ndarray, *, method: str = "multi-otsu",
         notes.append(f"classes {empty} received no pixels; check the thresholds")
     if min_feature_px:
         labels = clean_small_features(labels, min_feature_px, notes=notes)
-    return SegmentResult(labels, tuple(float(t) for t in thresholds), method, tuple(notes))
+    return SegmentResult(labels, tuple(float(t) for t in thresholds), method, tuple(notes),
+                         int(min_feature_px))
+
+
+def default_min_feature_px(denoise_px: float) -> int:
+    """The default smallest feature: the pixels of a disc one pixel wider than the filter.
+
+    A feature smaller than the disc of radius ``denoise_px + 1`` can be made by the
+    noise that the median filter of radius *denoise_px* leaves, so it is merged into
+    its surroundings. With the radius chosen from the noise (`auto_denoise_px`) this is
+    one rule for every entry point: 13 px for a radius of 1, 21 px for 1.5, 29 px for 2.
+    """
+    return int(np.ceil(np.pi * (max(float(denoise_px), 1.0) + 1) ** 2))
+
+
+def _footprint_size(radius: float) -> int:
+    half = int(np.floor(radius))
+    grid = np.indices((2 * half + 1,) * 2) - half
+    return int(((grid ** 2).sum(0) <= radius ** 2).sum())
+
+
+def auto_denoise_px(noise: float, gap: float) -> float:
+    """Median radius for a noise level: the smallest in `DENOISE_RADII` whose footprint of
+    n pixels brings the noise to a sixth of the smallest gap between class grey levels.
+
+    The median of n Gaussian samples has a standard deviation of about
+    1.2533 σ / √n [1]_; n ≥ (7.5 σ / gap)² makes that at most gap / 6, so a pixel in the
+    middle of a phase lands on the wrong side of a midpoint threshold with a probability
+    below 10⁻³.
+
+    References
+    ----------
+    .. [1] Kenney, J. F., Keeping, E. S. (1962). Mathematics of Statistics, Part 1, 3rd ed.
+       Van Nostrand (standard error of the median, √(π/2) σ / √n).
+    """
+    need = (7.5 * noise / max(gap, 1e-12)) ** 2
+    for r in DENOISE_RADII:
+        if _footprint_size(r) >= need:
+            return r
+    return DENOISE_RADII[-1]
 
 
 def _check_grey(image):
