@@ -31,7 +31,7 @@ except ModuleNotFoundError:  # pragma: no cover - Python 3.10
     import tomli as tomllib
 
 KINDS = ("grayscale", "labels", "palette")
-SEGMENT_METHODS = ("multi-otsu", "thresholds")
+SEGMENT_METHODS = ("multi-otsu", "thresholds", "trained")
 DENOISERS = ("median", "nl-means", "none")
 SOLVE_PROPERTIES = ("conductivity", "elasticity", "expansion")
 SOLVE_METHODS = ("auto", "fft", "fe", "ms")
@@ -44,7 +44,7 @@ class ImageConfig:
 
     kind: str = "grayscale"
     pixel_size_um: float | None = None
-    crop_bottom_px: int | str = 0
+    crop_bottom_px: int | str = "auto"
     volume: bool = False
     slice_spacing_um: float | None = None
 
@@ -57,10 +57,17 @@ class SegmentConfig:
     classes: int | None = None
     thresholds: tuple[float, ...] | None = None
     denoise: str = "median"
-    denoise_px: float = 1.0
-    min_feature_px: int = 0
+    denoise_px: float | str = "auto"
+    min_feature_px: int | str = "auto"
     color_tolerance: float = 12.0
     fields: int = 16
+    # corrections before classification, and the trained route (polisect.segment)
+    shading: str = "auto"
+    stripes: str = "auto"
+    speckle: str = "auto"
+    scratches: str = "auto"
+    annotations: str | None = None
+    model: str | None = None
 
 
 @dataclass(frozen=True)
@@ -264,6 +271,7 @@ def _check(cfg: Config) -> None:
         raise InputError(f"[segment] classes = {seg.classes}: give an integer from 2 to 8")
     if seg.method == "thresholds" and not seg.thresholds:
         raise InputError("[segment] method = \"thresholds\" needs thresholds = [t1, t2, ...]")
+    _check_segment_route(seg)
     if seg.fields < 4:
         raise InputError("[segment] fields must be at least 4 (16 or more recommended)")
     for prop in sol.properties:
@@ -291,6 +299,34 @@ def _check(cfg: Config) -> None:
     for p in cfg.phases:
         for prop in sol.properties:
             p.material.require(*needs[prop])
+
+
+CORRECTIONS = {"shading": ("auto", "none"), "stripes": ("auto", "columns", "rows", "none"),
+               "speckle": ("auto", "none"), "scratches": ("auto", "none")}
+
+
+def _check_segment_route(seg: SegmentConfig) -> None:
+    """The [segment] keys of the corrections, the defaults and the trained route."""
+    for key, options in CORRECTIONS.items():
+        _choice(getattr(seg, key), options, f"[segment] {key}")
+    if seg.denoise_px != "auto" and (isinstance(seg.denoise_px, bool) or not isinstance(
+            seg.denoise_px, (int, float)) or seg.denoise_px < 1):
+        raise InputError(f"[segment] denoise_px = {seg.denoise_px!r}: give a radius of at "
+                         "least 1 pixel, or \"auto\" (chosen from the noise)")
+    if seg.min_feature_px != "auto" and (isinstance(seg.min_feature_px, bool) or not isinstance(
+            seg.min_feature_px, int) or seg.min_feature_px < 0):
+        raise InputError(f"[segment] min_feature_px = {seg.min_feature_px!r}: give a whole "
+                         "number of pixels ≥ 0, or \"auto\" (from the noise filter)")
+    for key in ("annotations", "model"):
+        if getattr(seg, key) is not None and not isinstance(getattr(seg, key), str):
+            raise InputError(f"[segment] {key} must be a file name in quotes")
+    if seg.method == "trained" and (seg.annotations is None) == (seg.model is None):
+        raise InputError("[segment] method = \"trained\" needs either annotations = "
+                         "\"strokes.png\" (0 = not annotated, v = phase label v − 1) or "
+                         "model = \"segmenter.npz\", not both")
+    if seg.method != "trained" and (seg.annotations or seg.model):
+        raise InputError("[segment] annotations and model are used by method = "
+                         "\"trained\" only; set it, or remove them")
 
 
 def _choice(value, options, what):

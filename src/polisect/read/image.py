@@ -100,7 +100,7 @@ class Micrograph:
         return len(self.shape) == 3
 
 
-def read_image(path: str | os.PathLike, *, crop_bottom_px: int | str = 0,
+def read_image(path: str | os.PathLike, *, crop_bottom_px: int | str = "auto",
                pixel_size_um: float | None = None, pixel_size_from: str = "config",
                volume: bool = False) -> Micrograph:
     """Read a micrograph (or a stack of sections) from a file.
@@ -112,8 +112,8 @@ def read_image(path: str | os.PathLike, *, crop_bottom_px: int | str = 0,
     path : str or path-like
         TIFF (8/16/32-bit integer, float, RGB/RGBA, multi-page), PNG, JPEG or BMP.
     crop_bottom_px : int or 'auto'
-        Rows to cut from the bottom (an instrument information band); ``'auto'``
-        detects such a band with `find_info_band`.
+        Rows to cut from the bottom (an instrument information band); ``'auto'`` (the
+        default) detects such a band with `find_info_band`; 0 keeps every row.
     pixel_size_um : float, optional
         Pixel edge in micrometres given by the user.
     pixel_size_from : {'config', 'command line'}
@@ -178,7 +178,7 @@ SLICE_SUFFIXES = (".tif", ".tiff", ".png", ".bmp", ".jpg", ".jpeg")
 CUBIC_TOLERANCE = 0.01
 
 
-def read_stack(folder: str | os.PathLike, *, crop_bottom_px: int | str = 0,
+def read_stack(folder: str | os.PathLike, *, crop_bottom_px: int | str = "auto",
                pixel_size_um: float | None = None, pixel_size_from: str = "config",
                slice_spacing_um: float | None = None) -> Micrograph:
     """Read a folder of slice images as one (nz, ny, nx) volume.

@@ -18,7 +18,7 @@ from __future__ import annotations
 import numpy as np
 from scipy import ndimage
 
-__all__ = ["quality_warnings", "separation_warning", "drift_warning", "edge_warning",
+__all__ = ["quality_warnings", "histogram_warning", "separation_warning", "drift_warning", "edge_warning",
            "pullout_warning", "confidence_warning", "band_warning", "SEPARATION_D",
            "CONFIDENCE_LEVEL"]
 
@@ -39,7 +39,7 @@ EDGE_SHARE = 0.2
 #: particle class (not the matrix) ...
 PULLOUT_BORDER = 0.4
 #: ... covering at least this share of the image.
-PULLOUT_AREA = 0.003
+PULLOUT_AREA = 0.005
 #: Speckle on more than this share of the pixels is flagged.
 SPECKLE_SHARE = 0.005
 
@@ -83,6 +83,26 @@ def separation_warning(grey: np.ndarray, labels: np.ndarray) -> str | None:
             f"D < {SEPARATION_D:g}): the thresholds split overlapping grey levels, so the "
             "fractions are uncertain; use method = \"trained\" with annotation strokes, or "
             "image with more contrast")
+
+
+def histogram_warning(grey: np.ndarray, classes: int) -> str | None:
+    """Fewer clearly separated grey-level classes in the histogram than asked for.
+
+    `polisect.segment.thresholds.suggest_classes` fits Gaussian mixtures to the histogram
+    of the filtered image and counts the classes that stay apart (Ashman's D > 2, each
+    holding at least 0.5 % of the pixels). Fewer than *classes* means that the
+    thresholds split one grey-level population (a broad matrix, a second grey level,
+    charging) instead of separating phases.
+    """
+    from .thresholds import suggest_classes
+
+    found = suggest_classes(grey, max_classes=classes)
+    if found >= classes:
+        return None
+    return (f"the filtered grey levels show only {found} clearly separated classes, not the "
+            f"{classes} asked for: thresholds may split one phase in two and merge others "
+            "(a broad or two-toned matrix, strong noise, charging); check the phase map "
+            "against the image, and use method = \"trained\" with annotation strokes")
 
 
 def drift_warning(grey: np.ndarray, labels: np.ndarray, fields: int = 16) -> str | None:
@@ -170,7 +190,7 @@ def pullout_warning(labels: np.ndarray) -> str | None:
     """Pores lying along the edges of particles: possible pull-outs during polishing.
 
     Regions of the darkest class that share at least `PULLOUT_BORDER` of their border
-    with a class other than the matrix (the most common class) and at least a tenth with
+    with a class other than the matrix (the most common class) and at least a fifth with
     the matrix (so not the cores of hollow particles), and cover together at least
     `PULLOUT_AREA` of the image, are flagged [1]_.
 
@@ -197,7 +217,7 @@ def pullout_warning(labels: np.ndarray) -> str | None:
     # at a particle's edge: along the particle and the matrix (cores inside hollow
     # particles touch the particle only)
     suspects = np.flatnonzero((particle >= PULLOUT_BORDER * np.maximum(border, 1))
-                              & (in_matrix >= 0.1 * border) & (border > 0))
+                              & (in_matrix >= 0.2 * border) & (border > 0))
     suspects = suspects[suspects > 0]
     share = float(np.isin(comp, suspects).mean()) if suspects.size else 0.0
     if share < PULLOUT_AREA:
@@ -256,6 +276,7 @@ def quality_warnings(*, image, grey, labels, classes, corrections=(), thresholds
                        "neighbours): check the detector and the scan settings; fine "
                        "features may be lost")
     if confidence is None:
+        out.append(histogram_warning(grey, len(tuple(classes))))
         out.append(separation_warning(grey, labels))
     for check in (drift_warning(grey, labels, fields), edge_warning(grey, labels),
                   pullout_warning(labels), confidence_warning(confidence),

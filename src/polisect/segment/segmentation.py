@@ -41,7 +41,7 @@ from .quality import CONFIDENCE_LEVEL, quality_warnings
 from .thresholds import (_check_grey, _denoise, auto_denoise_px, clean_small_features,
                          default_min_feature_px, refined_thresholds, resolve_mixed_rims,
                          segment_grayscale, suggest_classes)
-from .trained import PROBABILITY_SMOOTHING_PX, Segmenter, train_segmenter
+from .trained import PROBABILITY_SMOOTHING_PX, Segmenter, refine_boundaries, train_segmenter
 from .uncertainty import BoundaryUncertainty, threshold_alternatives
 
 __all__ = ["Segmentation", "ConfidenceSummary", "make_phasemap_labels"]
@@ -318,6 +318,10 @@ def _trained(image, cfg, phase_labels, annotations, segmenter, notes):
     values = np.asarray(segmenter.labels, np.int32)
     labels = values[order[..., -1]]
     confidence = np.take_along_axis(proba, order[..., -1:], -1)[..., 0]
+    labels, moved = refine_boundaries(labels, corrected.image, confidence)
+    if moved:
+        notes.append(f"{moved} boundary pixels placed at the grey-level midpoint between the "
+                     "two phases the classifier found there")
     min_px = _min_feature(cfg, PROBABILITY_SMOOTHING_PX, notes)
     if min_px:
         labels = clean_small_features(labels, min_px, notes=notes)
