@@ -245,6 +245,10 @@ def _thresholds(image, cfg, classes, notes):
         if moved:
             notes.append(f"{moved} pixels of intermediate grey level between a darker and a "
                          "brighter phase (partial-volume rims) given to those phases")
+    labels, moved = refine_boundaries(labels, work, np.ones(labels.shape))
+    if moved:
+        notes.append(f"{moved} boundary pixels placed at the grey-level midpoint of the two "
+                     "phases meeting there")
     min_px = _min_feature(cfg, float(radius), notes)
     if min_px:
         labels = clean_small_features(labels, min_px, notes=notes)

@@ -49,6 +49,8 @@ MAX_SAMPLES_PER_CLASS = 20000
 #: the most probable class is taken.
 PROBABILITY_SMOOTHING_PX = 1.0
 _ROWS_PER_CHUNK = 256
+#: Gaussian smoothing (pixels) of the grey levels that place the boundaries.
+REFINE_SIGMA_PX = 1.0
 
 
 @dataclass(frozen=True, eq=False)
@@ -174,7 +176,8 @@ def refine_boundaries(labels: np.ndarray, grey: np.ndarray, confidence: np.ndarr
     painted closer to edges. Where two classes a and b meet and their grey levels are
     well apart (Ashman's D ≥ *separation* over confidently classified interior pixels),
     every boundary pixel (one whose 3 × 3 neighbourhood holds both) whose grey level
-    (median-filtered with the radius `polisect.segment.thresholds.auto_denoise_px` picks) lies strictly between the two class levels goes to the nearer one: the
+    (smoothed by a Gaussian of `REFINE_SIGMA_PX`, which keeps a straight edge's
+    midpoint crossing in place while it cuts the noise about fourfold) lies strictly between the two class levels goes to the nearer one: the
     midpoint rule of Ridler and Calvard [1]_ used only to place a boundary the forest
     already found. Pixels brighter or darker than both (bright edges in secondary-electron
     images) keep the forest's class.
@@ -198,17 +201,12 @@ def refine_boundaries(labels: np.ndarray, grey: np.ndarray, confidence: np.ndarr
     ----------
     .. [1] Ridler, T. W., Calvard, S. (1978). IEEE Trans. Syst. Man Cybern. 8, 630-632.
     """
-    from .thresholds import _denoise, auto_denoise_px, noise_sigma
-
     out = np.asarray(labels).astype(np.int32)
     grey = np.asarray(grey, float)
     size = 5
     interior = ndimage.maximum_filter(out, size) == ndimage.minimum_filter(out, size)
     sure = interior & (confidence >= 0.9)
-    levels = sorted(float(np.median(grey[sure & (out == v)])) for v in np.unique(out)
-                    if np.count_nonzero(sure & (out == v)) >= 50)
-    gap = float(np.diff(levels).min()) if len(levels) > 1 else float(np.ptp(grey))
-    smooth = _denoise(grey, "median", auto_denoise_px(noise_sigma(grey), gap), [])
+    smooth = ndimage.gaussian_filter(grey, REFINE_SIGMA_PX)
     stats = {}
     for v in np.unique(out):
         sel = smooth[sure & (out == v)]
