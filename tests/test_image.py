@@ -325,3 +325,21 @@ def test_read_stack_bad_input(tmp_path):
     (tmp_path / "c.tif").write_text("not an image")
     with pytest.raises(InputError, match="c.tif"):
         read_stack(tmp_path)
+
+
+def test_information_band_cut_by_default(tmp_path):
+    """read_image cuts a detected information band unless told crop_bottom_px = 0 (issue
+    14: the band is cut by default in every entry point); the rendered band has text."""
+    from polisect.model3d.defects import Defects, render_micrograph
+    from polisect.model3d.synth import rsa_discs
+
+    labels = rsa_discs((200, 160), 0.3, 6.0, seed=1).labels
+    r = render_micrograph(labels, {0: 0.3, 1: 0.7}, Defects(shading=0.3, noise_sd=0.1,
+                                                             info_band_px=24), seed=2)
+    path = tmp_path / "banded.tif"
+    write_tiff(path, r.image)
+    assert read_image(path).cropped_bottom_px == 24
+    assert read_image(path, crop_bottom_px=0).cropped_bottom_px == 0
+    plain = tmp_path / "plain.tif"
+    write_tiff(plain, r.image[:200])
+    assert read_image(plain).cropped_bottom_px == 0

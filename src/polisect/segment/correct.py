@@ -341,9 +341,11 @@ def remove_stripes(image: np.ndarray, labels: np.ndarray, means: np.ndarray, *,
 def remove_speckle(image: np.ndarray) -> tuple[np.ndarray, Correction]:
     """Replace isolated impulse pixels by the median of their 3 × 3 neighbourhood.
 
-    A pixel is speckle when it differs from that median by more than `SPECKLE_SIGMAS`
-    noise standard deviations (Immerkær's estimate [2]_) and by more than a quarter of
-    the image's 1-99 % grey range: the outlier rule of the adaptive median filter [1]_.
+    A pixel is speckle when it is brighter than all eight neighbours or darker than all
+    of them, and differs from their median by more than `SPECKLE_SIGMAS` noise standard
+    deviations (Immerkær's estimate [2]_) and by more than a quarter of the image's
+    1-99 % grey range: the impulse test of the adaptive median filter [1]_. (A corner of
+    a sharp particle has neighbours of its own grey level and is kept.)
 
     Returns
     -------
@@ -360,10 +362,15 @@ def remove_speckle(image: np.ndarray) -> tuple[np.ndarray, Correction]:
     """
     work = np.asarray(image, dtype=np.float64)
     med = ndimage.median_filter(work, size=3, mode="reflect")
+    ring = np.ones((3, 3), bool)
+    ring[1, 1] = False
+    above = work - ndimage.maximum_filter(work, footprint=ring, mode="reflect")
+    below = ndimage.minimum_filter(work, footprint=ring, mode="reflect") - work
     lo, hi = np.percentile(work, [1, 99])
     # the noise of the speckle-free part: Immerkær on the median-replaced image
     sigma = noise_sigma(np.where(np.abs(work - med) > 0.25 * (hi - lo), med, work))
-    hit = np.abs(work - med) > max(SPECKLE_SIGMAS * sigma, 0.25 * (hi - lo))
+    level = max(SPECKLE_SIGMAS * sigma, 0.25 * (hi - lo))
+    hit = (np.abs(work - med) > level) & ((above > 0) | (below > 0))
     share = float(hit.mean())
     if not hit.any():
         return work, Correction("speckle", False, 0.0, "no isolated speckle found")

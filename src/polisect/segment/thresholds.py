@@ -186,7 +186,7 @@ def default_min_feature_px(denoise_px: float) -> int:
     A feature smaller than the disc of radius ``denoise_px + 1`` can be made by the
     noise that the median filter of radius *denoise_px* leaves, so it is merged into
     its surroundings. With the radius chosen from the noise (`auto_denoise_px`) this is
-    one rule for every entry point: 13 px for a radius of 1, 21 px for 1.5, 29 px for 2.
+    one rule for every entry point: 13 px for a radius of 1, 20 px for 1.5, 29 px for 2.
     """
     return int(np.ceil(np.pi * (max(float(denoise_px), 1.0) + 1) ** 2))
 
