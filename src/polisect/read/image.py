@@ -32,7 +32,7 @@ from ..core.atomic import atomic_write
 from ..core.errors import InputError
 
 __all__ = ["Micrograph", "read_image", "read_stack", "check_slice_spacing", "to_grayscale",
-           "find_info_band", "write_tiff"]
+           "find_info_band", "read_annotations", "write_tiff"]
 
 #: Smallest image side accepted, pixels.
 MIN_SIDE_PX = 2
@@ -628,6 +628,34 @@ def find_info_band(image: np.ndarray, *, max_fraction: float = 0.4, min_rows: in
             break
         run += 1
     return run
+
+
+def read_annotations(path: str | os.PathLike, micrograph: Micrograph) -> np.ndarray:
+    """Read an annotation (strokes) image for a micrograph.
+
+    The file holds whole numbers: 0 = not annotated, v = phase label v − 1. It has the
+    size of the micrograph's file (the rows of a cut information band are then cut from
+    it too) or of the micrograph as cut.
+
+    Raises
+    ------
+    InputError
+        Not a single-channel integer image, negative values, or another size.
+    """
+    ann = read_image(path, crop_bottom_px=0, pixel_size_um=1.0).data
+    if ann.ndim != 2 or not np.issubdtype(ann.dtype, np.integer) or ann.min() < 0:
+        raise InputError(f"{os.fspath(path)}: annotations must be a single-channel image of "
+                         "whole numbers ≥ 0 (0 = not annotated, v = phase label v − 1), e.g. "
+                         "an 8-bit PNG")
+    ny, nx = micrograph.shape[-2:]
+    cut = micrograph.cropped_bottom_px
+    if ann.shape == (ny + cut, nx) and cut:
+        ann = ann[:ny]
+    if ann.shape != (ny, nx):
+        raise InputError(f"{os.fspath(path)}: annotations of {ann.shape[1]} × {ann.shape[0]} px "
+                         f"do not match the image ({nx} × {ny + cut} px); paint them on the "
+                         "same image")
+    return ann.astype(np.int32)
 
 
 def write_tiff(path: str | os.PathLike, data: np.ndarray, *, pixel_size_um: float | None = None,
