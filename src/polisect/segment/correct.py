@@ -61,7 +61,8 @@ class Correction:
     applied : bool
         Whether the image was changed.
     amount : float
-        Shading: relative amplitude found ((max − min) / (max + min) of the gain); stripes: standard deviation of
+        Shading: relative amplitude found ((max − min) / (max + min) of the gain);
+        stripes: standard deviation of
         the offsets found, grey levels; speckle: share of pixels found.
     what : str
         One sentence for the report.

@@ -18,7 +18,8 @@ from __future__ import annotations
 import numpy as np
 from scipy import ndimage
 
-__all__ = ["quality_warnings", "histogram_warning", "separation_warning", "drift_warning", "edge_warning",
+__all__ = ["quality_warnings", "histogram_warning", "separation_warning", "drift_warning",
+           "edge_warning",
            "pullout_warning", "confidence_warning", "band_warning", "SEPARATION_D",
            "CONFIDENCE_LEVEL"]
 

@@ -37,7 +37,8 @@ from ..core.errors import InputError
 from .correct import correct_image
 from .features import full_scale, pixel_features
 
-__all__ = ["Segmenter", "train_segmenter", "refine_boundaries", "FORMAT", "TREES", "MAX_SAMPLES_PER_CLASS"]
+__all__ = ["Segmenter", "train_segmenter", "refine_boundaries", "FORMAT", "TREES",
+           "MAX_SAMPLES_PER_CLASS"]
 
 #: Identifies a segmenter file.
 FORMAT = "polisect.segmenter/1"
@@ -177,8 +178,8 @@ def refine_boundaries(labels: np.ndarray, grey: np.ndarray, confidence: np.ndarr
     well apart (Ashman's D ≥ *separation* over confidently classified interior pixels),
     every boundary pixel (one whose 3 × 3 neighbourhood holds both) whose grey level
     (smoothed by a Gaussian of `REFINE_SIGMA_PX`, which keeps a straight edge's
-    midpoint crossing in place while it cuts the noise about fourfold) lies strictly between the two class levels goes to the nearer one: the
-    midpoint rule of Ridler and Calvard [1]_ used only to place a boundary the forest
+    midpoint crossing in place while it cuts the noise about fourfold) lies strictly
+    between the two class levels goes to the nearer one: the midpoint rule of Ridler and Calvard [1]_ used only to place a boundary the forest
     already found. Pixels brighter or darker than both (bright edges in secondary-electron
     images) keep the forest's class.
 
