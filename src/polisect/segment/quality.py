@@ -40,7 +40,7 @@ EDGE_SHARE = 0.2
 #: particle class (not the matrix) ...
 PULLOUT_BORDER = 0.4
 #: ... covering at least this share of the image.
-PULLOUT_AREA = 0.005
+PULLOUT_AREA = 0.01
 #: Speckle on more than this share of the pixels is flagged.
 SPECKLE_SHARE = 0.005
 
@@ -192,8 +192,9 @@ def pullout_warning(labels: np.ndarray) -> str | None:
 
     Regions of the darkest class that share at least `PULLOUT_BORDER` of their border
     with a class other than the matrix (the most common class) and at least a fifth with
-    the matrix (so not the cores of hollow particles), and cover together at least
-    `PULLOUT_AREA` of the image, are flagged [1]_.
+    the matrix, and that are smaller than half the largest particle they touch (so not
+    the cores of hollow particles), and cover together at least `PULLOUT_AREA` of the
+    image, are flagged [1]_.
 
     References
     ----------
@@ -220,6 +221,14 @@ def pullout_warning(labels: np.ndarray) -> str | None:
     suspects = np.flatnonzero((particle >= PULLOUT_BORDER * np.maximum(border, 1))
                               & (in_matrix >= 0.2 * border) & (border > 0))
     suspects = suspects[suspects > 0]
+    # smaller than half the particle it touches (a pulled-out piece, not a core)
+    solid = connected((labels != matrix) & (labels != dark), connectivity=2)
+    solid_area = np.bincount(solid.ravel())
+    touch = ring & (solid > 0)
+    biggest = np.zeros(comp.max() + 1)
+    np.maximum.at(biggest, owner[touch], solid_area[solid[touch]])
+    area = np.bincount(comp.ravel(), minlength=comp.max() + 1)
+    suspects = suspects[area[suspects] < 0.5 * biggest[suspects]]
     share = float(np.isin(comp, suspects).mean()) if suspects.size else 0.0
     if share < PULLOUT_AREA:
         return None
