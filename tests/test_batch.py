@@ -288,3 +288,104 @@ def test_bench_batch_quick_runs():
     rows = bench_batch(quick=True)
     assert [r["case"] for r in rows][1:] == ["batch, 1 job", "batch, 2 jobs"]
     assert rows[2]["speedup"] > 0 and "overhead_pct" in rows[1]
+
+
+def test_lock_with_a_reused_process_id_is_stale(folder, tmp_path):
+    """A lock whose process id now belongs to another process (its start time differs) is
+    taken over; a live batch's lock is refused with the lock file named (common practice,
+    no source)."""
+    from polisect.apps.batch import _start_time
+
+    root, cfg = folder
+    out = tmp_path / "out"
+    out.mkdir()
+    lock = out / ".polisect-batch.lock"
+    lock.write_text(f"{os.getpid()} {_start_time(os.getpid())}")
+    with pytest.raises(InputError, match=r"delete the lock file .*\.polisect-batch\.lock"):
+        run_batch(root, out, config=load_config(cfg), pattern="s0.tif", quiet=True)
+    lock.write_text(f"{os.getpid()} 1")          # this id, started at another time
+    r = run_batch(root, out, config=load_config(cfg), pattern="s0.tif", quiet=True)
+    assert r.done == 2 and not lock.exists()
+
+
+WATCHED = """
+import sys, time
+from polisect.apps.batch import _die_with
+_die_with(int(sys.argv[1]), kernel=False)    # the parent-check thread alone
+print("watching", flush=True)
+time.sleep(60)
+"""
+
+SLEEPY = """
+import os, time
+def sleepy(task, settings):
+    with open(os.path.join(os.environ["PIDS"], str(os.getpid())), "w"):
+        pass
+    time.sleep(60)
+"""
+
+BATCH = """
+import sys
+sys.path.insert(0, sys.argv[1])
+from sleepy import sleepy
+from polisect.apps.batch import _local_results
+list(_local_results(["a", "b", "c"], None, 2, work=sleepy))
+"""
+
+
+def _gone_within(pids, seconds):
+    from polisect.apps.batch import _alive
+
+    end = time.monotonic() + seconds
+    while time.monotonic() < end and any(_alive(p) for p in pids):
+        time.sleep(0.02)
+    return [p for p in pids if _alive(p)]
+
+
+@pytest.mark.slow
+def test_workers_die_within_a_second_of_a_killed_batch(tmp_path):
+    """Issue 17 probe: killed batches left their workers running; now the kernel's
+    parent-death signal ends them (common practice, no source)."""
+    (tmp_path / "sleepy.py").write_text(SLEEPY)
+    pids = tmp_path / "pids"
+    pids.mkdir()
+    env = dict(os.environ, PIDS=str(pids),
+               PYTHONPATH=os.pathsep.join([str(tmp_path)] + sys.path))
+    batch = subprocess.Popen([sys.executable, "-c", BATCH, str(tmp_path)], env=env)
+    end = time.monotonic() + 120
+    while len(os.listdir(pids)) < 2 and time.monotonic() < end and batch.poll() is None:
+        time.sleep(0.05)
+    workers = [int(n) for n in os.listdir(pids)]
+    assert len(workers) == 2
+    batch.kill()
+    batch.wait()
+    assert _gone_within(workers, 1.0) == []
+
+
+@pytest.mark.slow
+def test_parent_check_thread_ends_the_worker(tmp_path):
+    """Where there is no parent-death signal, a thread ends the worker within a second of
+    the batch process (common practice, no source)."""
+    parent = subprocess.Popen([sys.executable, "-c", "import time; time.sleep(60)"])
+    env = dict(os.environ, PYTHONPATH=os.pathsep.join(sys.path))
+    worker = subprocess.Popen([sys.executable, "-c", WATCHED, str(parent.pid)], env=env,
+                              stdout=subprocess.PIPE, text=True)
+    assert worker.stdout.readline().strip() == "watching"
+    parent.kill()
+    parent.wait()
+    assert _gone_within([worker.pid], 1.0) == []
+    worker.wait(timeout=5)
+    assert worker.returncode == 1
+
+
+def test_index_page_escapes_names_and_forbids_scripts():
+    """Issue 17 probe: user strings in written pages must not run as script."""
+    from polisect.apps.batch import index_html
+
+    evil = "<script>alert(1)</script>.tif"
+    manifest = {"folder": "/data/<b>", "pattern": "*<i>", "entries": {
+        evil: {"outputs": {"report": f"{evil}.html", "json": f"{evil}.json"}}}}
+    text = index_html(manifest, [{"batch": "<img src=x onerror=alert(1)>", "image": evil}],
+                      [{"image": evil, "reason": "<script>x</script>"}])
+    assert "<script>" not in text and "<img src=x" not in text
+    assert 'http-equiv="Content-Security-Policy"' in text

@@ -212,3 +212,51 @@ def test_stack_folder(tmp_path, capsys):
     assert d["source"]["shape"] == [12, 24, 24] and d["source"]["pixel_size_um"] == 1.0
     code, _, err = _run(capsys, "analyze", folder / "z00.tif", "--stack", "--kind", "labels")
     assert code == 2 and "not a folder" in err
+
+
+def test_closed_output_pipe_ends_quietly(tmp_path):
+    """Issue 17 probe: `polisect materials --json | head` died with a BrokenPipe traceback
+    (common practice, no source)."""
+    env = dict(os.environ, PYTHONPATH=os.pathsep.join(sys.path))
+    proc = subprocess.Popen([sys.executable, "-m", "polisect.apps.cli", "materials", "--json"],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, env=env)
+    proc.stdout.close()
+    err = proc.stderr.read().decode()
+    assert proc.wait() == 0 and "Traceback" not in err and "BrokenPipe" not in err
+
+
+def _raising(exc):
+    def run(args):
+        raise exc
+    return run
+
+
+@pytest.mark.parametrize("exc, code, words", [
+    (BrokenPipeError(), 0, None),
+    (KeyboardInterrupt(), 130, "interrupted"),
+    (RuntimeError("something odd\nsecond line"), 1, "internal error: RuntimeError: something "
+                                                    "odd (run again with --debug"),
+    (OSError(28, "No space left on device"), 2, "disk full"),
+    (MemoryError(), 2, "out of memory"),
+])
+def test_every_failure_is_one_line_with_its_exit_code(monkeypatch, capsys, exc, code, words):
+    """Common practice (no source): exit 0, 1, 2 or 130 and one line, never a traceback."""
+    import polisect.apps.cli as cli
+
+    monkeypatch.setattr(cli, "_run_materials", _raising(exc))
+    assert main(["materials"]) == code
+    err = capsys.readouterr().err
+    assert "Traceback" not in err and len(err.splitlines()) <= 1
+    if words:
+        assert words in err
+
+
+def test_debug_shows_the_traceback(monkeypatch, capsys):
+    """Common practice (no source): --debug, before or after the command, shows it."""
+    import polisect.apps.cli as cli
+
+    monkeypatch.setattr(cli, "_run_materials", _raising(RuntimeError("odd")))
+    for argv in (["--debug", "materials"], ["materials", "--debug"]):
+        assert main(argv) == 1
+        err = capsys.readouterr().err
+        assert "Traceback" in err and "RuntimeError: odd" in err

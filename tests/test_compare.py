@@ -8,7 +8,11 @@ import pytest
 from polisect.apps.cli import main
 from polisect.apps.compare import Section, compare, html_comparison, load_sections
 from polisect.core.errors import InputError
-from polisect.pipeline.results import PhaseFraction, Result, Source, write_json
+from polisect.core.materials import Material
+from polisect.pipeline.result import PhaseFraction, Result, Source
+from polisect.present.record import write_json
+from polisect.properties.records import Conductivity, Effective, Solver
+from polisect.trust.records import QuantityFit, WindowRecord
 
 
 def _sections():
@@ -45,13 +49,21 @@ def test_compare_batches_end_to_end():
     assert "data:image/png;base64," in page and "Welch" in page and "A/s2.tif" in page
 
 
-def _write_result(path, name, fraction, conductivity, windows=None):
-    phases = (PhaseFraction(0, "matrix", {"name": "m"}, 1 - fraction, (0, 1)),
-              PhaseFraction(1, "SiC", {"name": "SiC"}, fraction, (0, 1)))
+def _write_result(path, name, fraction, conductivity, whole_image_variance=None):
+    phases = (PhaseFraction(0, "matrix", Material(name="m"), 1 - fraction, (0, 1)),
+              PhaseFraction(1, "SiC", Material(name="SiC"), fraction, (0, 1)))
+    effective = Effective(2, "plane-strain", "test model", None, "x, y",
+                          Conductivity(conductivity * np.eye(2), conductivity, 0.0,
+                                       Solver("fft", 1, 0.0, 1e-6, True)))
+    windows = None
+    if whole_image_variance is not None:
+        fit = QuantityFit("conductivity_W_mK", conductivity, None, None, None, None, (),
+                          whole_image_variance, None, None, None, None, None, "")
+        windows = WindowRecord("periodic", 5.0, 0.95, (64, 64), None, 4.0, 8, 20.0, (), (),
+                               {"conductivity_W_mK": fit}, (), "")
     r = Result(source=Source(path=f"/data/{name}", sha256=None, shape=(64, 64),
                              pixel_size_um=None, pixel_size_from="unknown"),
-               phases=phases, version="test",
-               effective={"conductivity": {"mean_W_mK": conductivity}}, windows=windows)
+               phases=phases, version="test", effective=effective, windows=windows)
     write_json(r, path)
 
 
@@ -62,8 +74,7 @@ def test_load_sections_grouping(tmp_path):
         (tmp_path / folder).mkdir()
         for i in range(3):
             _write_result(tmp_path / folder / f"{lot}_s{i}.json", f"{lot}_s{i}.tif", 0.3,
-                          20.0 + i, windows={"quantities": {"conductivity_W_mK": {
-                              "whole_image_variance": 0.25}}})
+                          20.0 + i, whole_image_variance=0.25)
     (tmp_path / "run1" / "notes.json").write_text('{"not": "a result"}')
     secs = load_sections([tmp_path / "run1", tmp_path / "run2"])
     assert sorted({s.batch for s in secs}) == ["run1", "run2"] and len(secs) == 6

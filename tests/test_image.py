@@ -327,6 +327,41 @@ def test_read_stack_bad_input(tmp_path):
         read_stack(tmp_path)
 
 
+def test_huge_tiff_refused_before_decoding(tmp_path, monkeypatch):
+    """Issue 17 probe: a 30000×30000 label TIFF (small on disk, compressed) is refused from its
+    header, before any pixel is decoded (common practice, no source)."""
+    import tifffile
+
+    path = tmp_path / "huge.tif"
+    tiles = (np.zeros((1024, 1024), np.uint8) for _ in range(30 * 30))
+    tifffile.imwrite(path, tiles, shape=(30 * 1024, 30 * 1024), dtype=np.uint8,
+                     tile=(1024, 1024), compression="zlib")
+    assert path.stat().st_size < 20e6
+
+    def no_decoding(*args, **kwargs):
+        raise AssertionError("decoded")
+
+    monkeypatch.setattr(tifffile.TiffPage, "asarray", no_decoding)
+    with pytest.raises(InputError, match="pixels, more than the .* polisect reads; crop"):
+        read_image(path)
+
+
+def test_pixel_limit_applies_to_png_and_to_memory(tmp_path, monkeypatch):
+    """Common practice (no source): PNG is checked from its header too, and an image that
+    fits the limit but not the free memory is refused with the figure."""
+    from polisect.core import memory
+
+    path = tmp_path / "a.png"
+    iio.imwrite(path, np.zeros((300, 200), np.uint8))
+    monkeypatch.setattr(memory, "MAX_PIXELS", 50_000)
+    with pytest.raises(InputError, match="60,000 pixels"):
+        read_image(path)
+    monkeypatch.setattr(memory, "MAX_PIXELS", 10 ** 9)
+    monkeypatch.setattr(memory, "available_bytes", lambda: 1000)
+    with pytest.raises(InputError, match="needs about .* of memory"):
+        read_image(path)
+
+
 def test_information_band_cut_by_default(tmp_path):
     """read_image cuts a detected information band unless told crop_bottom_px = 0 (issue
     14: the band is cut by default in every entry point); the rendered band has text."""

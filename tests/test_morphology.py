@@ -49,7 +49,7 @@ def test_field_grid_shapes():
 def test_absent_phase_and_bad_input():
     """Common practice (no source): an absent phase has zero fraction and no finite %RA."""
     est = field_fractions(np.zeros((32, 32), dtype=np.int32), [0, 7])
-    assert est[7].mean == 0 and est[7].ci95 == 0 and est[7].to_dict()["relative_accuracy_pct"] is None
+    assert est[7].mean == 0 and est[7].ci95 == 0 and not math.isfinite(est[7].relative_accuracy_pct)
     assert est[0].mean == 1.0
     with pytest.raises(InputError):
         field_fractions(np.zeros((32, 32)), [0])
@@ -98,6 +98,7 @@ def test_enclosed_pores_are_kept_apart():
 
 from polisect import Material
 from polisect.measure.morphology import PhaseParticles, particle_phases, phase_particles
+from polisect.measure.summary import summarize_particles
 from polisect.core.phasemap import Phase, PhaseMap
 from polisect.model3d.synth import Inclusions, compose
 
@@ -115,32 +116,28 @@ def mixture():
     return p, pm
 
 
-def test_phase_particles_json_block(mixture):
-    """The particles.<phase> block has the keys of the issue's JSON, in µm, and the hollow
-    fraction of the discs not cut by the border equals that of the construction.
+def test_phase_particles_summary(mixture):
+    """The summary of a phase's particles is in µm, and the hollow fraction of the discs not
+    cut by the border equals that of the construction.
 
-    Source: truth from the synth construction; keys from issue 4.
+    Source: truth from the synth construction.
     """
     p, pm = mixture
     res = phase_particles(pm, "SiC", n_boot=200)
-    d = res.to_dict()
-    for key in ("count", "count_per_mm2", "ecd_um", "aspect_ratio_mean", "hollow_fraction",
-                "inner_outer_ratio_mean", "sphere_diameter_um", "number_per_mm3",
-                "mean_free_path_um", "contiguity"):
-        assert key in d
-    assert set(d["ecd_um"]) >= {"mean", "std", "d10", "d50", "d90"}
-    assert set(d["sphere_diameter_um"]) >= {"mean", "d50"}
-    assert d["units"] == "um" and d["contiguity"] is None
-    assert d["ecd_um"]["d50"] == pytest.approx(10.0, abs=0.5)        # 20 px discs at 0.5 µm
+    s = summarize_particles(res)
+    assert s.units == "um" and s.contiguity is None
+    assert s.spheres.mean > 0 and s.number_per_mm3 > 0 and s.mean_free_path > 0
+    assert s.ecd.d50 == pytest.approx(10.0, abs=0.5)        # 20 px discs at 0.5 µm
+    assert s.ecd.ci95["d50"][0] <= s.ecd.d50 <= s.ecd.ci95["d50"][1]
     ny, nx = p.labels.shape
     inside = [(r + 1 <= c[0] <= ny - 2 - r) and (r + 1 <= c[1] <= nx - 2 - r)
               for c, r in zip(p.centres, p.radii)]
     hollow = p.inner_radii > 0
     assert res.size.count_measured == sum(inside)
-    assert d["hollow_fraction"] == pytest.approx(np.mean(hollow[inside]), abs=0.02)
-    assert d["inner_outer_ratio_mean"] == pytest.approx(0.5, abs=0.03)
-    lo, hi = d["ci95"]["hollow_fraction"]
-    assert lo <= d["hollow_fraction"] <= hi
+    assert s.hollow_fraction == pytest.approx(np.mean(hollow[inside]), abs=0.02)
+    assert s.inner_outer_ratio_mean == pytest.approx(0.5, abs=0.03)
+    lo, hi = s.shape_ci95["hollow_fraction"]
+    assert lo <= s.hollow_fraction <= hi
     rows = res.rows()
     assert len(rows) == res.table.count and rows[0]["phase"] == "SiC"
     assert isinstance(res, PhaseParticles)
@@ -183,9 +180,9 @@ def test_pixel_units_and_errors():
     labels = np.zeros((64, 64), np.int32)
     labels[10:20, 10:20] = 1
     pm = PhaseMap(labels, (Phase(0, "m", M), Phase(1, "p", M)))
-    d = phase_particles(pm, 1, n_boot=0).to_dict()
-    assert d["units"] == "px" and d["count"] == 1
-    assert d["ecd_um"]["mean"] == pytest.approx(2 * math.sqrt(100 / math.pi))
+    s = summarize_particles(phase_particles(pm, 1, n_boot=0))
+    assert s.units == "px" and s.count == 1
+    assert s.ecd.mean == pytest.approx(2 * math.sqrt(100 / math.pi))
     with pytest.raises(InputError, match="no phase"):
         phase_particles(pm, "nothing")
     pm3 = PhaseMap(np.zeros((8, 8, 8), np.int32), (Phase(0, "m", M),))

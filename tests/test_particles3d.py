@@ -6,6 +6,7 @@ from scipy import ndimage
 
 from polisect import Material
 from polisect.measure.particles3d import volume_particles
+from polisect.measure.summary import summarize_volume_particles
 from polisect.core.phasemap import Phase, PhaseMap
 from polisect.model3d.synth import Inclusions, compose
 
@@ -34,12 +35,12 @@ def test_counts_match_an_independent_labelling_and_sizes_are_known():
     pk = compose((48, 48, 48), [Inclusions(1, 0.15, 5.0, min_gap=1.0)], seed=3, matrix_label=0)
     vp = volume_particles(_map(pk.labels, size=2.0), "ball")
     _, n = ndimage.label(pk.labels == 1, structure=np.ones((3, 3, 3)))
-    d = vp.to_dict()
-    assert d["count"] == n
-    assert d["sphere_diameter_um"]["d50"] == pytest.approx(2 * 5.0 * 2.0, abs=2.0)
-    assert d["units"] == "um"
+    s = summarize_volume_particles(vp)
+    assert s.count == n
+    assert s.sphere.d50 == pytest.approx(2 * 5.0 * 2.0, abs=2.0)
+    assert s.units == "um"
     box_mm3 = (48 * 2.0e-3) ** 3
-    assert d["number_per_mm3"] == pytest.approx(len(pk.radii) / box_mm3, rel=0.25)
+    assert s.number_per_mm3 == pytest.approx(len(pk.radii) / box_mm3, rel=0.25)
 
 
 def test_hollow_spheres_and_their_ratio():
@@ -48,7 +49,7 @@ def test_hollow_spheres_and_their_ratio():
     of radius 7)."""
     pk = compose((48, 48, 48), [Inclusions(1, 0.15, 7.0, hollow_ratio=0.6, core_label=2,
                                            min_gap=1.0)], seed=1, matrix_label=0)
-    d = volume_particles(_map(pk.labels), "ball").to_dict()
-    assert d["hollow_fraction"] == pytest.approx(1.0)
-    assert d["inner_outer_ratio_mean"] == pytest.approx(0.6, abs=0.05)
-    assert d["units"] == "px"
+    s = summarize_volume_particles(volume_particles(_map(pk.labels), "ball"))
+    assert s.hollow_fraction == pytest.approx(1.0)
+    assert s.inner_outer_ratio_mean == pytest.approx(0.6, abs=0.05)
+    assert s.units == "px"

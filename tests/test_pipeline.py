@@ -5,7 +5,10 @@ import pytest
 
 from polisect import InputError
 from polisect.read.config import config_from_dict
-from polisect.pipeline.analysis import analyze, write_outputs
+from polisect.apps.run import write_outputs
+from polisect.pipeline.analysis import analyze
+from polisect.present.record import from_dict
+from polisect.present.record import to_dict as json_form
 from polisect.model3d.synth import Inclusions, compose
 
 CONFIG = {"image": {"kind": "labels", "pixel_size_um": 1.0},
@@ -25,7 +28,7 @@ def hollow_section():
 def test_fractions_of_a_label_image_are_exact(hollow_section):
     """Area fractions of a label image are pixel counts (Delesse 1847: A_A = V_V)."""
     a = analyze(hollow_section.labels, config_from_dict(CONFIG))
-    d = a.result.to_dict()
+    d = json_form(a.result)
     for p in d["phases"]:
         assert p["fraction"] == pytest.approx(np.mean(hollow_section.labels == p["label"]))
         lo, hi = p["fraction_ci95"]
@@ -38,7 +41,7 @@ def test_internal_porosity_is_kept_apart(hollow_section):
     edge and not counted as enclosed. Expected: the area of the cores that lie wholly
     inside the image (digital discs, so 5 %)."""
     pk = hollow_section
-    d = analyze(pk.labels, config_from_dict(CONFIG)).result.to_dict()
+    d = json_form(analyze(pk.labels, config_from_dict(CONFIG)).result)
     pore = next(p for p in d["phases"] if p["name"] == "pore")
     n = pk.labels.shape[0]
     r = pk.inner_radii[:, None]
@@ -50,7 +53,7 @@ def test_internal_porosity_is_kept_apart(hollow_section):
 
 def test_hollow_particles_found_and_used_by_the_schemes(hollow_section):
     """Inner/outer ratio 0.6 by construction; the digital ratio is within 0.03 of it."""
-    d = analyze(hollow_section.labels, config_from_dict(CONFIG)).result.to_dict()
+    d = json_form(analyze(hollow_section.labels, config_from_dict(CONFIG)).result)
     sph = d["particles"]["spheres"]
     assert sph["hollow_fraction"] > 0.9
     assert sph["inner_outer_ratio_mean"] == pytest.approx(0.6, abs=0.03)
@@ -72,7 +75,7 @@ def test_bounds_of_hollow_particles_hold_the_measured_fractions():
         Inclusions(1, 0.15, 14.0, hollow_ratio=0.7, core_label=2, min_gap=2.0),
         Inclusions(1, 0.10, 4.0, hollow_ratio=0.3, core_label=2, min_gap=2.0),
         Inclusions(2, 0.04, 3.0)], seed=2, matrix_label=0).labels
-    d = analyze(labels, config_from_dict(CONFIG)).result.to_dict()
+    d = json_form(analyze(labels, config_from_dict(CONFIG)).result)
     assert any("treated as hollow" in n for n in d["notes"])
     f = np.array([np.mean(labels == k) for k in range(3)])
     k = np.array([get_material(m).conductivity for m in ("mullite", "alumina", "air")])
@@ -96,7 +99,7 @@ def test_labels_without_a_phase_entry_are_refused():
 
 def test_without_materials_only_fractions_and_particles():
     labels = compose((96, 96), [Inclusions(1, 0.2, 6.0)], seed=1, matrix_label=0).labels
-    d = analyze(labels, config_from_dict({"image": {"kind": "labels"}})).result.to_dict()
+    d = json_form(analyze(labels, config_from_dict({"image": {"kind": "labels"}})).result)
     assert d["schemes"] is None and d["effective"] is None
     assert any("pixel size unknown" in w for w in d["warnings"])
     assert d["particles"]["phase-1"]["units"] == "px"
@@ -124,12 +127,13 @@ def test_multipage_tiff_volume_through_the_pipeline(tmp_path):
     write_tiff(path, labels.astype(np.uint8), pixel_size_um=2.0)
     cfg = config_from_dict({**CONFIG, "image": {"kind": "labels", "volume": True,
                                                 "slice_spacing_um": 2.0}})
-    d = analyze(path, cfg).result.to_dict()
+    d = json_form(analyze(path, cfg).result)
     assert d["source"]["shape"] == [16, 24, 32]
     assert d["source"]["pixel_size_um"] == pytest.approx(2.0)
     for p in d["phases"]:
         assert p["fraction"] == pytest.approx(np.mean(labels == p["label"]))
     assert d["effective"]["dimension"] == 3
+    assert json_form(from_dict(d)) == d
     bad = config_from_dict({**CONFIG, "image": {"kind": "labels", "volume": True,
                                                 "slice_spacing_um": 3.0}})
     with pytest.raises(InputError, match="cubic voxels"):
@@ -142,12 +146,13 @@ def test_estimate_3d_block(hollow_section):
     cfg = config_from_dict({**CONFIG, "solve": {"properties": ["conductivity"],
                                                 "estimate_3d": True, "voxels": 24,
                                                 "realizations": 2}})
-    d = analyze(hollow_section.labels, cfg).result.to_dict()
+    d = json_form(analyze(hollow_section.labels, cfg).result)
     e3 = d["effective_3d"]
     assert e3["dimension"] == 3 and e3["realizations"] == 2
     assert e3["versus_2d"][0]["section_2d"] == pytest.approx(
         d["effective"]["conductivity"]["mean_W_mK"])
     assert "estimate_3d" in d["timings_s"]
+    assert json_form(from_dict(d)) == d                     # the JSON form reads back exactly
 
 
 def test_estimate_3d_that_cannot_be_built_leaves_a_warning():
@@ -159,7 +164,7 @@ def test_estimate_3d_that_cannot_be_built_leaves_a_warning():
     cfg = config_from_dict({**CONFIG, "phase": CONFIG["phase"][:2],
                             "solve": {"properties": ["conductivity"], "estimate_3d": True,
                                       "voxels": 16, "realizations": 1}})
-    d = analyze(layers, cfg).result.to_dict()
+    d = json_form(analyze(layers, cfg).result)
     assert d["effective_3d"] is None and d["effective"]["conductivity"] is not None
     assert any(w.startswith("3D estimate not built") and "interconnected" in w
                for w in d["warnings"])
@@ -175,8 +180,69 @@ def test_volume_with_solve_writes_a_report(tmp_path):
                                       {"label": 1, "material": "silicon-carbide"}],
                             "solve": {"properties": ["conductivity"]}})
     a = analyze(labels, cfg)
-    assert a.result.effective["dimension"] == 3
+    assert a.result.effective.dimension == 3
     assert a.field_maps["heat_flux"].shape == (24, 24)
     paths = write_outputs(a, tmp_path, stem="vol", config=cfg)
     html = (tmp_path / paths.report).read_text()
     assert "orthogonal sections" in html and "Effective properties" in html
+
+
+TEMPERATURES = [20.0, 500.0, 1000.0, 1200.0]
+
+
+def _hot_config(phases):
+    return config_from_dict({"image": {"kind": "labels", "pixel_size_um": 1.0},
+                             "phase": phases,
+                             "solve": {"properties": ["conductivity", "elasticity"],
+                                       "temperatures_C": TEMPERATURES, "fields": False}})
+
+
+def test_single_phase_gives_its_own_values_at_every_temperature():
+    """A one-phase image is its phase: k(T) and E(T) of sintered alumina as tabulated
+    (Munro, J. Am. Ceram. Soc. 80 (1997) 1919, E = 416, 390, 364, 354 GPa at 20, 500, 1000,
+    1200 °C), interpolated by the library."""
+    labels = np.zeros((32, 32), dtype=np.int32)
+    r = analyze(labels, _hot_config([{"label": 0, "name": "a", "material": "alumina"}])).result
+    from polisect import get_material
+
+    alumina = get_material("alumina")
+    assert [t.temperature_C for t in r.effective_by_temperature] == TEMPERATURES
+    for t in r.effective_by_temperature:
+        hot = alumina.at(t.temperature_C)
+        assert t.effective.conductivity.mean == pytest.approx(hot.conductivity, rel=1e-6)
+        assert t.effective.elasticity.youngs_modulus == pytest.approx(hot.youngs_modulus,
+                                                                      rel=1e-6)
+    assert [round(t.effective.elasticity.youngs_modulus) for t in
+            r.effective_by_temperature] == [416, 390, 364, 354]
+
+
+def test_laminate_gives_the_wiener_bounds_at_every_temperature():
+    """Layers of alumina and mullite: along the layers the arithmetic, across them the
+    harmonic mean of the phases' conductivities at each temperature (Wiener 1912)."""
+    labels = np.zeros((32, 32), dtype=np.int32)
+    labels[:, 16:] = 1
+    cfg = _hot_config([{"label": 0, "name": "a", "material": "alumina"},
+                       {"label": 1, "name": "m", "material": "mullite"}])
+    r = analyze(labels, cfg).result
+    from polisect import get_material
+
+    for t in r.effective_by_temperature:
+        k1 = get_material("alumina").at(t.temperature_C).conductivity
+        k2 = get_material("mullite").at(t.temperature_C).conductivity
+        k = t.effective.conductivity.tensor
+        assert k[1, 1] == pytest.approx((k1 + k2) / 2, rel=1e-6)       # along (y)
+        assert k[0, 0] == pytest.approx(2 / (1 / k1 + 1 / k2), rel=1e-6)   # across (x)
+
+
+def test_a_temperature_without_data_is_left_out_with_a_warning():
+    """A phase given as single numbers (20 °C only) cannot be solved hot: that temperature is
+    left out with a warning naming the material; the room-temperature result stands (common
+    practice, no source)."""
+    labels = np.zeros((16, 16), dtype=np.int32)
+    cfg = config_from_dict({"image": {"kind": "labels"},
+                            "phase": [{"label": 0, "name": "bond", "conductivity": 2.0}],
+                            "solve": {"properties": ["conductivity"],
+                                      "temperatures_C": [20.0, 800.0]}})
+    r = analyze(labels, cfg).result
+    assert [t.temperature_C for t in r.effective_by_temperature] == [20.0]
+    assert any(w.startswith("not solved at 800 °C") and "bond" in w for w in r.warnings)

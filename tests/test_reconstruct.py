@@ -11,9 +11,24 @@ from polisect.core.errors import InputError
 from polisect.core.materials import get_material
 from polisect.model3d.packing import pack_spheres
 from polisect.core.phasemap import Phase, PhaseMap
-from polisect.model3d.reconstruct import (Spread, compare_2d, draw_diameters,
-                                  estimate_3d, plan_volume, reconstruct, section_statistics)
+from polisect.model3d.reconstruct import (compare_2d, draw_diameters, estimate_3d, plan_volume,
+                                          reconstruct, section_statistics)
+from polisect.properties.records import (Conductivity, Effective, Elasticity, Expansion, Solver,
+                                         Spread, value_of)
+
+
+def _two_d(k=None, E=None, alpha=None):
+    """A 2D section's effective properties with only the isotropic values set."""
+    solver = Solver("fft", 1, 0.0, 1e-6, True)
+    return Effective(
+        2, "generalized-plane-strain", "2D test section", None, "x, y",
+        None if k is None else Conductivity(k * np.eye(2), k, 0.0, solver),
+        None if E is None else Elasticity(np.eye(3), E, None, None, None, 0.0,
+                                          "generalized-plane-strain", solver),
+        None if alpha is None else Expansion(alpha * np.eye(2), alpha, alpha, 0.0, solver))
 from polisect.model3d.synth import Inclusions, compose, laminate
+from polisect.pipeline.result import Result, Source
+from polisect.present import record
 
 MATRIX, SHELL, PORE, SOLID = 1, 2, 0, 3
 
@@ -260,10 +275,12 @@ def test_estimate_json_has_the_effective_keys_and_the_spread(section_stats):
     mats = {MATRIX: get_material("mullite"), SHELL: get_material("alumina"),
             SOLID: get_material("silicon-carbide"), PORE: get_material("air")}
     pm = PhaseMap(lab, tuple(Phase(v, m.name, m) for v, m in mats.items()), 0.5)
-    two_d = {"conductivity": {"mean_W_mK": 10.0}, "elasticity": {"youngs_modulus_GPa": 200.0},
-             "expansion": {"mean_per_K": 5e-6}}
+    two_d = _two_d(k=10.0, E=200.0, alpha=5e-6)
     est = estimate_3d(pm, voxels=20, realizations=2, tol=1e-4, effective_2d=two_d)
-    d = est.to_dict()
+    s = est.summary()
+    assert s.effective.elasticity.poisson_ratio.ci95 is not None
+    d = record.to_dict(Result(Source(None, None, lab.shape, 0.5, "given"), (), "test",
+                              effective_3d=s))["effective_3d"]
     assert d["dimension"] == 3 and d["realizations"] == 2
     for prop, keys in (("conductivity", ("tensor_W_mK", "mean_W_mK", "anisotropy", "solver")),
                        ("elasticity", ("stiffness_GPa", "youngs_modulus_GPa", "poisson_ratio",
@@ -288,7 +305,7 @@ def test_compare_2d_within_spread_says_so():
     """A 2D value inside the realizations' interval is reported as agreeing."""
     est = type("E", (), {"conductivity": Spread.of([9.0, 10.0, 11.0]), "youngs_modulus": None,
                          "shear_modulus": None, "poisson_ratio": None, "expansion": None})
-    (c,) = compare_2d(est, {"conductivity": {"mean_W_mK": 10.5}})
+    (c,) = compare_2d(est, _two_d(k=10.5))
     assert "agree" in c.sentence and c.difference_pct == pytest.approx(-100 / 21)
 
 
@@ -337,11 +354,11 @@ def _validation(shape, scale, properties, voxels, realizations, seed=7, tol=1e-5
                        seed=seed, matrix_label=MATRIX).labels
     pm = PhaseMap(original[shape[0] // 2], tuple(Phase(v, m.name, m) for v, m in mats.items()),
                   1.0)
-    two_d = solve_effective(pm, properties, tol=1e-6, maps=False).block
+    two_d = solve_effective(pm, properties, tol=1e-6, maps=False).effective
     est = estimate_3d(pm, properties, voxels=voxels, realizations=realizations, tol=tol,
                       voxel_size=1.0, effective_2d=two_d)
     volume = np.ascontiguousarray(original.T)
-    truth, e3 = {}, est.to_dict()
+    truth, e3 = {}, est.summary().effective
     if "conductivity" in properties:
         truth["mean_W_mK"] = conductivity(volume, mats, tol=tol).mean()
     if "elasticity" in properties or "expansion" in properties:
@@ -353,13 +370,16 @@ def _validation(shape, scale, properties, voxels, realizations, seed=7, tol=1e-5
         if "expansion" in properties:
             truth["mean_per_K"] = expansion(volume, mats, tol=tol, stiffness=stiff).mean()
     rows = []
-    for prop, key in (("conductivity", "mean_W_mK"), ("elasticity", "youngs_modulus_GPa"),
-                      ("elasticity", "shear_modulus_GPa"), ("elasticity", "bulk_modulus_GPa"),
-                      ("expansion", "mean_per_K")):
+    for prop, key, attr in (("conductivity", "mean_W_mK", "mean"),
+                            ("elasticity", "youngs_modulus_GPa", "youngs_modulus"),
+                            ("elasticity", "shear_modulus_GPa", "shear_modulus"),
+                            ("elasticity", "bulk_modulus_GPa", "bulk_modulus"),
+                            ("expansion", "mean_per_K", "mean")):
         if key in truth:
-            block = e3[prop]
-            rows.append((key, truth[key], block[key], block[key + "_ci95"],
-                         (two_d[prop] or {}).get(key)))
+            spread = getattr(getattr(e3, prop), attr)
+            block_2d = getattr(two_d, prop)
+            rows.append((key, truth[key], spread.mean, spread.ci95,
+                         None if block_2d is None else value_of(getattr(block_2d, attr))))
     print(f"\n3D estimate from one {shape[1]}×{shape[2]} section of a {shape} volume "
           f"({realizations} reconstructions of {voxels}³):")
     for key, t, v, ci, v2 in rows:

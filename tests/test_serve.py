@@ -24,6 +24,7 @@ from polisect.read.config import load_config
 from polisect.core.errors import InputError
 from polisect.read.image import write_tiff
 from polisect.pipeline.analysis import analyze
+from polisect.present.record import to_dict as json_form
 from polisect.apps.serve.runconfig import run_config_toml
 from polisect.apps.serve.server import is_loopback, serve
 from polisect.apps.serve.uploads import safe_stem, sniff
@@ -378,7 +379,7 @@ def test_run_writes_what_analyze_writes(served, image):
     config_path = os.path.join(str(folder), "again.toml")
     with open(config_path, "wb") as f:
         f.write(raw)
-    direct = analyze(image, load_config(config_path)).result.to_dict()
+    direct = json_form(analyze(image, load_config(config_path)).result)
     status, served_json = client.json("GET", f"/api/runs/{st['id']}/files/json")
     assert status == 200
     for a, b in zip(served_json["phases"], direct["phases"]):
@@ -681,3 +682,125 @@ def test_label_image_is_recognised_and_used_as_is(served, tmp_path):
     _, d = client.json("GET", f"/api/runs/{st['id']}/files/json")
     expect = {v: np.count_nonzero(labels == v) / labels.size for v in (0, 3, 7)}
     assert {p["label"]: p["fraction"] for p in d["phases"]} == pytest.approx(expect, abs=1e-12)
+
+
+# -- hardening (issue 17) -------------------------------------------------------------------
+
+def _host_checks(server, capsys):
+    client = Client(server)
+    port = server.port
+    assert client.json("GET", "/api/info", headers={"Host": "evil.example"})[0] == 421
+    assert client.json("GET", "/api/info", headers={"Host": f"evil.example:{port}"})[0] == 421
+    assert client.json("GET", "/api/info", headers={"Host": f"localhost:{port + 1}"})[0] == 421
+    assert client.json("GET", "/api/info", headers={"Host": f"localhost:{port}"})[0] == 200
+    status, _ = client.json("POST", "/api/runs", {}, headers={"Origin": "http://evil.example"})
+    assert status == 403
+    status, _ = client.json("POST", "/api/runs", {}, headers={"Origin": "null"})
+    assert status == 403
+    return client
+
+
+def test_host_and_origin_checked_for_a_shorthand_loopback_address(tmp_path, capsys):
+    """Issue 17 probe: `--host 127.1` warned falsely and then accepted any Host and a
+    cross-site POST (DNS rebinding); now it is loopback, quiet, and checked."""
+    assert is_loopback("127.1") and is_loopback("127.0.0.2") and not is_loopback("10.1")
+    server, thread = _start(tmp_path, host="127.1")
+    try:
+        assert server.address == f"127.0.0.1:{server.port}" and not server.any_host
+        _host_checks(server, capsys)
+        assert "other machines" not in capsys.readouterr().err
+    finally:
+        server.shutdown()
+        thread.join(30)
+
+
+def test_host_checked_when_listening_on_every_address(tmp_path, capsys):
+    """On 0.0.0.0 the warning is true and printed; a foreign Host is still refused, while
+    an IP address or this machine's name is accepted (common practice, no source)."""
+    server, thread = _start(tmp_path, host="0.0.0.0")
+    try:
+        client = _host_checks(server, capsys)
+        for host in ("192.0.2.7", socket.gethostname()):
+            status, _ = client.json("GET", "/api/info", headers={"Host": f"{host}:{server.port}"})
+            assert status == 200, host
+        assert "reachable from other machines" in capsys.readouterr().err
+    finally:
+        server.shutdown()
+        thread.join(30)
+
+
+def test_deep_or_huge_json_is_a_400(served):
+    """Issue 17 probe: deeply nested JSON raised RecursionError → 500; a number beyond the
+    float range became infinity."""
+    client, _ = served
+    for body in (b"[" * 100_000 + b"]" * 100_000, b'{"a":' * 40 + b"1" + b"}" * 40,
+                 b'{"upload": 1e999}', b'{"upload": -1e400}'):
+        status, _, data = client.request("POST", "/api/runs", body,
+                                         headers={"Content-Type": "application/json"})
+        assert status == 400 and "not valid JSON" in json.loads(data)["error"]
+    status, _, data = client.request("POST", "/api/runs", b'{"a": "' + b"[" * 50 + b'"}',
+                                     headers={"Content-Type": "application/json"})
+    assert "not valid JSON" not in json.loads(data)["error"]   # brackets in a string count not
+
+
+def test_a_burst_of_requests_is_queued_not_dropped(served):
+    """Issue 17 probe: with a listen backlog of 5, 100 concurrent requests lost 72 %."""
+    client, _ = served
+    assert client.server.request_queue_size >= 128
+    start, codes = threading.Barrier(100), []
+
+    def one():
+        start.wait()
+        try:
+            codes.append(client.json("POST", "/api/runs", {"upload": "none"})[0])
+        except OSError as exc:
+            codes.append(repr(exc))
+
+    threads = [threading.Thread(target=one) for _ in range(100)]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join(120)
+    assert codes == [400] * 100
+
+
+@pytest.mark.parametrize("argv, words", [
+    (["--port", "99999"], "--port 99999"), (["--port", "-1"], "--port -1"),
+    (["--max-upload-mb", "inf"], "--max-upload-mb inf"),
+    (["--max-upload-mb", "nan"], "--max-upload-mb nan"), (["--jobs", "0"], "--jobs 0"),
+    (["--host", "no-such-host.invalid"], "cannot listen"),
+])
+def test_bad_serve_arguments_exit_2(tmp_path, capsys, argv, words):
+    """Issue 17 probe: `--port 99999` and `--max-upload-mb inf` gave tracebacks."""
+    from polisect.apps.cli import main
+
+    assert main(["serve", "--out", str(tmp_path / "o")] + argv) == 2
+    err = capsys.readouterr().err
+    assert words in err and "Traceback" not in err
+
+
+def test_upload_over_the_pixel_limit_refused_before_decoding(tmp_path):
+    """Issue 17 probe: an uploaded 33 MB TIFF took the page's worker to 9 GB; a compressed
+    32768² TIFF is now refused from its header."""
+    import tifffile
+
+    path = tmp_path / "huge.tif"
+    tiles = (np.zeros((4096, 4096), np.uint8) for _ in range(64))
+    tifffile.imwrite(path, tiles, shape=(32768, 32768), dtype=np.uint8, tile=(4096, 4096),
+                     compression="zlib")
+    server, thread = _start(tmp_path, max_upload_mb=50.0)
+    try:
+        status, body = Client(server).upload(str(path))
+        assert status == 400 and "pixels, more than" in body["error"], body
+    finally:
+        server.shutdown()
+        thread.join(30)
+
+
+def test_malformed_request_line_gets_plain_text(served):
+    """Common practice (no source): the base server's own error answers carry no HTML."""
+    client, _ = served
+    with socket.create_connection(("127.0.0.1", client.port), timeout=30) as sock:
+        sock.sendall(b"GET /<script> HTTP/1.1\r\n" + b"X-Many: <b>\r\n" * 101 + b"\r\n")
+        answer = _read_all(sock)
+    assert answer.startswith("HTTP/1.1 431") and "text/plain" in answer and "<" not in answer

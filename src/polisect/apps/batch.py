@@ -3,7 +3,7 @@
 `run_batch` finds the images under a folder (recursively), analyses each one in a local
 process pool (or on a Dask distributed cluster) and writes, in the output folder:
 
-* per image, the outputs of `polisect.pipeline.analysis.write_outputs` (every file atomic), in
+* per image, the outputs of `polisect.apps.run.run_section` (written as a whole set), in
   ``sections/<relative folder>/``;
 * ``manifest.json`` (atomic): for every input its content hash, the configuration hash,
   its status (``done`` / ``failed`` with a one-line reason) and its output paths;
@@ -54,9 +54,9 @@ from ..core.atomic import atomic_write_text
 from ..read.config import Config, config_from_dict
 from ..core.errors import InputError
 from ..present.htmlkit import CAUTION_SECTION, page
-from ..pipeline.analysis import analyze, write_outputs
-from ..pipeline.results import csv_text, headline, quantity_keys, quantity_label, read_json
-from ..trust.rve import add_window_study
+from ..core.quantities import quantity_keys, quantity_label
+from ..present.record import csv_text, headline, read_result
+from .run import run_section
 from ..trust.sectionstats import sig
 from ..model3d.synth import rsa_discs
 
@@ -172,27 +172,17 @@ def file_sha256(path: str | os.PathLike, chunk: int = 1 << 20) -> str:
 # ------------------------------------------------------------------------------ settings
 
 @dataclass(frozen=True)
-class WindowOptions:
-    """Window-size study per image (see `polisect.trust.rve.window_study`)."""
-
-    edges: str = "periodic"
-    target_error: float = 0.05
-
-
-@dataclass(frozen=True)
 class Settings:
     """What every image of a batch is analysed with (sent to the workers)."""
 
     config: object
     pixel_size_um: float | None = None
-    windows: WindowOptions | None = None
 
     def sha256(self) -> str:
         """Hash of everything that changes the outputs (the config file's path excluded)."""
         cfg = dataclasses.replace(self.config, source="")
-        text = json.dumps({"config": repr(cfg), "pixel_size_um": self.pixel_size_um,
-                           "windows": None if self.windows is None
-                           else dataclasses.asdict(self.windows)}, sort_keys=True)
+        text = json.dumps({"config": repr(cfg), "pixel_size_um": self.pixel_size_um},
+                          sort_keys=True)
         return hashlib.sha256(text.encode("utf-8")).hexdigest()
 
 
@@ -220,13 +210,9 @@ def analyze_one(task: Task, settings: Settings) -> dict:
     """
     t0 = time.perf_counter()
     try:
-        analysis = analyze(task.path, settings.config, pixel_size_um=settings.pixel_size_um)
-        if settings.windows is not None:
-            analysis = add_window_study(analysis, settings.config,
-                                        edges=settings.windows.edges,
-                                        target_error=settings.windows.target_error)
-        paths = write_outputs(analysis, task.out_dir, stem=task.stem, config=settings.config)
-        outputs = {k: v for k, v in dataclasses.asdict(paths).items() if v}
+        _, paths = run_section(task.path, settings.config, task.out_dir, stem=task.stem,
+                               pixel_size_um=settings.pixel_size_um)
+        outputs = paths.files()
         return {"status": "done", "reason": "", "retry": False, "outputs": outputs,
                 "seconds": time.perf_counter() - t0}
     except InputError as exc:
@@ -270,7 +256,9 @@ def _write_manifest(out: str, manifest: dict) -> None:
 
 
 class _Lock:
-    """One batch at a time per output folder (a lock file holding the process id)."""
+    """One batch at a time per output folder: a lock file holding the process id and the
+    process's start time, so that a lock left by a killed batch whose id was since given to
+    another process is known to be stale."""
 
     def __init__(self, out: str):
         self.path = os.path.join(out, LOCK)
@@ -280,24 +268,32 @@ class _Lock:
             try:
                 fd = os.open(self.path, os.O_CREAT | os.O_EXCL | os.O_WRONLY)
             except FileExistsError:
-                pid = self._holder()
-                if pid is not None and _alive(pid):
+                pid, started = self._holder()
+                if pid is not None and _alive(pid) and started in (None, _start_time(pid)):
                     raise InputError(f"another polisect batch (process {pid}) is writing into "
-                                     f"{os.path.dirname(self.path)}; wait for it or use "
-                                     "another --out folder") from None
-                os.unlink(self.path)
+                                     f"{os.path.dirname(self.path)}; wait for it or use another "
+                                     f"--out folder (if no batch is running, delete the lock "
+                                     f"file {self.path})") from None
+                try:
+                    os.unlink(self.path)
+                except FileNotFoundError:
+                    pass
                 continue
             with os.fdopen(fd, "w") as f:
-                f.write(str(os.getpid()))
+                f.write(f"{os.getpid()} {_start_time(os.getpid()) or ''}".strip())
             return self
-        raise InputError(f"cannot take the lock {self.path}; remove it if no batch is running")
+        raise InputError(f"cannot take the lock file {self.path}; delete it if no batch is "
+                         "running")
 
-    def _holder(self) -> int | None:
+    def _holder(self) -> tuple[int | None, str | None]:
+        """Process id and start time recorded in the lock (start time None if not recorded)."""
         try:
             with open(self.path) as f:
-                return int(f.read().strip() or 0) or None
+                parts = f.read().split()
+            return (int(parts[0]) or None if parts else None), \
+                (parts[1] if len(parts) > 1 else None)
         except (OSError, ValueError):
-            return None
+            return None, None
 
     def __exit__(self, *exc):
         try:
@@ -306,14 +302,29 @@ class _Lock:
             pass
 
 
+def _start_time(pid: int) -> str | None:
+    """When process *pid* started, in clock ticks since boot (Linux ``/proc``); None where
+    that cannot be read."""
+    try:
+        with open(f"/proc/{pid}/stat") as f:
+            return f.read().rsplit(")", 1)[1].split()[19]
+    except (OSError, IndexError):
+        return None
+
+
 def _alive(pid: int) -> bool:
+    """Whether process *pid* runs (a killed process not yet reaped by its parent does not)."""
     try:
         os.kill(pid, 0)
     except ProcessLookupError:
         return False
     except PermissionError:
         return True
-    return True
+    try:
+        with open(f"/proc/{pid}/stat") as f:
+            return f.read().rsplit(")", 1)[1].split()[0] != "Z"
+    except (OSError, IndexError):
+        return True
 
 
 def _remove_stale_temporaries(out: str) -> int:
@@ -399,8 +410,10 @@ def _clock(seconds: float) -> str:
 
 # ------------------------------------------------------------------------------ executors
 
-def _worker_init(threads: int) -> None:
-    """Limit each worker's threads so that jobs × threads matches the cores."""
+def _worker_init(threads: int, parent: int) -> None:
+    """Tie the worker's life to the batch process *parent* and limit its threads so that
+    jobs × threads matches the cores."""
+    _die_with(parent)
     for var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS",
                 "POLISECT_THREADS"):
         os.environ[var] = str(threads)
@@ -409,6 +422,37 @@ def _worker_init(threads: int) -> None:
     import numba
 
     numba.set_num_threads(min(threads, numba.config.NUMBA_NUM_THREADS))
+
+
+PR_SET_PDEATHSIG = 1  # linux/prctl.h
+
+
+def _die_with(parent: int, kernel: bool = True) -> None:
+    """End this worker when the batch process ends, however it ends (killed included).
+
+    On Linux the kernel sends SIGKILL when the worker's parent exits (``PR_SET_PDEATHSIG``):
+    the parent is the forkserver, which exits when the batch process does. Elsewhere, and
+    as a guard against the batch process ending before this ran, a daemon thread checks
+    every 0.2 s that *parent* is still alive (the only guard when *kernel* is False).
+    """
+    import signal
+    import threading
+
+    if kernel and sys.platform.startswith("linux"):
+        import ctypes
+
+        try:
+            ctypes.CDLL(None, use_errno=True).prctl(PR_SET_PDEATHSIG, int(signal.SIGKILL), 0, 0, 0)
+        except (OSError, AttributeError):
+            pass
+    started = _start_time(parent)
+
+    def watch():
+        while _alive(parent) and _start_time(parent) == started:
+            time.sleep(0.2)
+        os._exit(1)
+
+    threading.Thread(target=watch, name="polisect-parent-watch", daemon=True).start()
 
 
 def _local_results(tasks: list[Task], settings: Settings, jobs: int, work=analyze_one
@@ -465,12 +509,11 @@ def _pool(jobs: int, threads: int):
     warm. Elsewhere they are spawned afresh."""
     if "forkserver" in multiprocessing.get_all_start_methods():
         ctx = multiprocessing.get_context("forkserver")
-        ctx.set_forkserver_preload(["polisect.pipeline.analysis", "polisect.present.report",
-                                    "polisect.trust.rve"])
+        ctx.set_forkserver_preload(["polisect.apps.run"])
     else:
         ctx = multiprocessing.get_context("spawn")
     return ProcessPoolExecutor(max_workers=jobs, mp_context=ctx, initializer=_worker_init,
-                               initargs=(threads,))
+                               initargs=(threads, os.getpid()))
 
 
 def _died(task: Task) -> dict:
@@ -558,7 +601,7 @@ class BatchResult:
 def run_batch(folder: str | os.PathLike, out: str | os.PathLike, *, config=None,
               pattern: str = "*.tif", jobs: int = 1, scheduler=None, resume: bool = False,
               group_by: str | None = None, pixel_size_um: float | None = None,
-              windows: WindowOptions | None = None, quiet: bool = False,
+              quiet: bool = False,
               stream=None) -> BatchResult:
     """Analyse every image under *folder* into *out*.
 
@@ -583,8 +626,6 @@ def run_batch(folder: str | os.PathLike, out: str | os.PathLike, *, config=None,
         ``"folder"`` (default) or a regex with ``(?P<batch>...)`` on the file name.
     pixel_size_um : float, optional
         Pixel size override for every image.
-    windows : WindowOptions, optional
-        Run a window-size study on every image.
     quiet : bool
         No progress bar.
     stream : file, optional
@@ -605,7 +646,7 @@ def run_batch(folder: str | os.PathLike, out: str | os.PathLike, *, config=None,
     if not isinstance(jobs, int) or jobs < 1:
         raise InputError(f"--jobs {jobs!r}: give a whole number of worker processes ≥ 1")
     grouping = Grouping.parse(group_by)
-    settings = Settings(config or Config(), pixel_size_um, windows)
+    settings = Settings(config or Config(), pixel_size_um)
     config_sha = settings.sha256()
     rels = discover(folder, pattern, exclude=[out])
     if not rels:
@@ -711,8 +752,8 @@ def _outputs_ok(out: str, outputs: dict) -> bool:
                                           for p in outputs.values()):
         return False
     try:
-        read_json(os.path.join(out, outputs["json"]))
-    except (OSError, ValueError):
+        read_result(os.path.join(out, outputs["json"]))
+    except (OSError, ValueError, InputError):
         return False
     return True
 
@@ -736,12 +777,11 @@ def summary_rows(out: str, manifest: dict) -> tuple[list[dict], list[dict]]:
     for rel in sorted(manifest["entries"]):
         e = manifest["entries"][rel]
         if e["status"] == "done":
-            d = read_json(os.path.join(out, e["outputs"]["json"]))
-            row = {"image": rel, "batch": e["group"], **headline(d)}
-            win = d.get("windows")
-            if win:
-                row["window_verdict_enough"] = all(q.get("enough") is not False
-                                                   for q in win["quantities"].values())
+            result = read_result(os.path.join(out, e["outputs"]["json"]))
+            row = {"image": rel, "batch": e["group"], **headline(result)}
+            if result.windows:
+                row["window_verdict_enough"] = all(q.enough is not False
+                                                   for q in result.windows.quantities.values())
             rows.append(row)
         else:
             failures.append({"image": rel, "batch": e["group"], "status": e["status"],
@@ -808,7 +848,7 @@ def bench_batch(quick: bool = False) -> list[dict]:
     100 images of 512² (quick: 8 of 128²), two phases (conductivity 1 and 10 W/(m·K),
     random discs). Figures: images per second at 1 and 2 jobs, the speed-up, and the batch
     overhead over the sum of the analyses run one after another in this (warmed-up) process
-    (analyze + write_outputs per image, the work of ``polisect analyze``); the overhead
+    (`run_section` per image, the work of ``polisect analyze``); the overhead
     includes starting the workers. ``overhead_in_workers_pct`` compares the batch's wall
     time with the per-image times measured inside its workers.
 
@@ -830,12 +870,10 @@ def bench_batch(quick: bool = False) -> list[dict]:
             lab = rsa_discs((side, side), 0.3, side / 40.0, seed=i).labels.astype(np.uint8)
             tifffile.imwrite(os.path.join(src, f"s{i:03d}.tif"), lab)
         names = sorted(os.listdir(src))
-        write_outputs(analyze(os.path.join(src, names[0]), cfg), os.path.join(tmp, "warm"),
-                      config=cfg)
+        run_section(os.path.join(src, names[0]), cfg, os.path.join(tmp, "warm"))
         t0 = time.perf_counter()
         for name in names:
-            write_outputs(analyze(os.path.join(src, name), cfg), os.path.join(tmp, "serial"),
-                          config=cfg)
+            run_section(os.path.join(src, name), cfg, os.path.join(tmp, "serial"))
         serial = time.perf_counter() - t0
         rows.append({"case": "sum of analyses (serial, in process)", "images": n,
                      "side_px": side, "seconds": serial, "images_per_s": n / serial})

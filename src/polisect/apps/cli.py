@@ -8,6 +8,8 @@ traceback); 1 internal error.
 from __future__ import annotations
 
 import argparse
+import dataclasses
+import errno
 import json
 import os
 import sys
@@ -92,8 +94,6 @@ def _whole(least: int):
 
 def _with_3d_options(cfg, args):
     """The config with --stack, --estimate-3d, --voxels and --realizations applied."""
-    import dataclasses
-
     if args.stack:
         if not os.path.isdir(args.image):
             raise InputError(f"{args.image}: --stack reads a folder of slice images, and this "
@@ -119,91 +119,111 @@ def _add_window_options(p) -> None:
                         "or mirrored windows (implies --windows)")
 
 
-def _window_options(args):
-    """The window-study options given on the command line, or None."""
+def _with_window_options(cfg, args):
+    """The configuration with the window-study options of the command line."""
     if not (args.windows or args.target_error or args.edges):
-        return None
-    from .batch import WindowOptions
-    from ..trust.rve import parse_target_error
+        return cfg
+    win = cfg.windows
+    win = dataclasses.replace(win, study=True, edges=args.edges or win.edges,
+                              target_error=(parse_target_error(args.target_error)
+                                            if args.target_error else win.target_error))
+    return dataclasses.replace(cfg, windows=win)
 
-    return WindowOptions(edges=args.edges or "periodic",
-                         target_error=parse_target_error(args.target_error or "5%"))
+
+def parse_target_error(text: str) -> float:
+    """``"2%"`` or ``"0.02"`` → 0.02.
+
+    Examples
+    --------
+    >>> parse_target_error("2%"), parse_target_error("0.05")
+    (0.02, 0.05)
+    """
+    s = str(text).strip()
+    try:
+        value = float(s[:-1]) / 100.0 if s.endswith("%") else float(s)
+    except ValueError:
+        raise InputError(f"--target-error {text!r}: give a percentage such as 2% or a "
+                         "fraction such as 0.02") from None
+    if not 0.0 < value < 1.0:
+        raise InputError(f"--target-error {text!r} must be between 0 and 100 %")
+    return value
 
 
 def _run_analyze(args) -> int:
-    from ..read.config import load_config, quick_config
-    from ..pipeline.analysis import analyze, write_outputs
+    from ..present.record import to_json
     from ..properties.solve import progress as solver_progress
+    from .run import run_section
 
     progress = _Progress(args.quiet)
-    cfg = load_config(args.config) if args.config else None
-    if any(v is not None for v in (args.classes, args.assign, args.kind)) or cfg is None:
-        cfg = quick_config(classes=args.classes, assign=args.assign, kind=args.kind, base=cfg)
-    cfg = _with_3d_options(cfg, args)
+    cfg = _with_window_options(_with_3d_options(_config(args), args), args)
     try:
         with solver_progress.observe(progress.solver):
-            analysis = analyze(args.image, cfg, pixel_size_um=args.pixel_size,
-                               progress=progress)
+            analysis, paths = run_section(args.image, cfg, args.out,
+                                          pixel_size_um=args.pixel_size, progress=progress)
     except InputError as exc:
-        if str(args.image) in str(exc):
+        if str(args.image) in str(exc) or str(args.out) in str(exc):
             raise
         raise InputError(f"{args.image}: {exc}") from None
-    windows = _window_options(args)
-    if windows is not None:
-        from ..trust.rve import add_window_study
-
-        analysis = add_window_study(analysis, cfg, edges=windows.edges,
-                                    target_error=windows.target_error, progress=progress)
-    progress("writing outputs")
-    paths = write_outputs(analysis, args.out, config=cfg)
-    _emit_json(args.json, analysis.result.to_json())
+    _emit_json(args.json, to_json(analysis.result))
     if not args.quiet:
         _summary(analysis.result, paths)
     return EXIT_OK
 
 
+def _config(args):
+    """The run configuration of --config with the quick options applied."""
+    from ..read.config import load_config, quick_config
+
+    cfg = load_config(args.config) if args.config else None
+    if any(v is not None for v in (args.classes, args.assign, args.kind)) or cfg is None:
+        cfg = quick_config(classes=args.classes, assign=args.assign, kind=args.kind, base=cfg)
+    return cfg
+
+
 def _summary(result, paths) -> None:
-    d = result.to_dict()
-    lines = [f"{d['source']['path']}: {' × '.join(map(str, d['source']['shape']))} px"]
-    for p in d["phases"]:
-        lo, hi = p["fraction_ci95"]
-        lines.append(f"  {p['name']:<18} fraction {p['fraction']:.4f}  (95 % {lo:.4f}–{hi:.4f})")
-    eff = d.get("effective") or {}
-    if eff.get("conductivity"):
-        lines.append(f"  conductivity      {eff['conductivity']['mean_W_mK']:#.4g} W/(m·K)")
-    if eff.get("elasticity"):
-        el = eff["elasticity"]
-        lines.append(f"  Young's modulus   {el['youngs_modulus_GPa']:#.4g} GPa, "
-                     f"Poisson's ratio {el['poisson_ratio']:.3f}")
-    if eff.get("expansion"):
-        lines.append(f"  expansion         {eff['expansion']['mean_per_K'] * 1e6:#.4g} ×10⁻⁶/K")
-    if eff:
-        lines.append(f"  ({eff.get('model', '')})")
-    lines += _summary_3d(d.get("effective_3d") or {})
-    for w in d["warnings"]:
+    src = result.source
+    lines = [f"{src.path}: {' × '.join(map(str, src.shape))} px"]
+    for p in result.phases:
+        lo, hi = p.fraction_ci95
+        lines.append(f"  {p.name:<18} fraction {p.fraction:.4f}  (95 % {lo:.4f}–{hi:.4f})")
+    lines += _summary_model(result.effective, "")
+    if result.effective_3d:
+        lines += _summary_model(result.effective_3d.effective, "3D ")
+    for w in result.warnings:
         lines.append(f"  warning: {w}")
-    if d.get("windows"):
-        lines.append(f"  window study: {d['windows']['verdict']}")
+    if result.windows:
+        lines.append(f"  window study: {result.windows.verdict}")
     lines.append(f"  report: {paths.report}")
     lines.append(f"  json:   {paths.json}")
     print("\n".join(lines), file=sys.stderr)
 
 
-def _summary_3d(e3: dict) -> list[str]:
-    """Lines for the 3D estimate: mean and 95 % interval over the realizations."""
-    rows = [("conductivity", "mean_W_mK", "conductivity", 1.0, "W/(m·K)"),
-            ("elasticity", "youngs_modulus_GPa", "Young's modulus", 1.0, "GPa"),
-            ("expansion", "mean_per_K", "expansion", 1e6, "×10⁻⁶/K")]
+def _summary_model(eff, prefix: str) -> list[str]:
+    """Lines for one model's effective properties, with the 95 % interval over the
+    realizations of a 3D estimate."""
+    from ..properties.records import Spread, value_of
+
+    if eff is None:
+        return []
+
+    def show(x, scale=1.0):
+        value = f"{value_of(x) * scale:#.4g}"
+        if isinstance(x, Spread) and x.ci95:
+            value += f" (95 % {x.ci95[0] * scale:#.4g}–{x.ci95[1] * scale:#.4g})"
+        return value
+
     lines = []
-    for prop, key, words, scale, unit in rows:
-        block = e3.get(prop)
-        if not block:
-            continue
-        ci = block.get(key + "_ci95")
-        spread = f" (95 % {ci[0] * scale:#.4g}–{ci[1] * scale:#.4g})" if ci else ""
-        lines.append(f"  3D {words:<14} {block[key] * scale:#.4g} {unit}{spread}")
+    if eff.conductivity:
+        lines.append(f"  {prefix + 'conductivity':<17} {show(eff.conductivity.mean)} W/(m·K)")
+    if eff.elasticity:
+        el = eff.elasticity
+        label = prefix + "Young's modulus"
+        lines.append(f"  {label:<17} {show(el.youngs_modulus)} GPa, "
+                     f"Poisson's ratio {value_of(el.poisson_ratio):.3f}")
+    if eff.expansion:
+        lines.append(f"  {prefix + 'expansion':<17} {show(eff.expansion.mean, 1e6)} ×10⁻⁶/K")
     if lines:
-        lines.append(f"  ({e3.get('model', '')})")
+        lines.append(f"  ({eff.model})")
     return lines
 
 
@@ -227,8 +247,9 @@ def _add_demo(sub):
 
 
 def _run_demo(args) -> int:
+    from ..present.record import headline
     from ..read.config import load_config
-    from ..pipeline.analysis import analyze, write_outputs
+    from .run import run_section
     from .samples import demo_sections
 
     progress = _Progress(args.quiet)
@@ -236,9 +257,9 @@ def _run_demo(args) -> int:
     for section in demo_sections():
         progress(f"demo: {section.title}")
         cfg = load_config(section.config)
-        analysis = analyze(section.image, cfg, progress=progress)
-        paths = write_outputs(analysis, os.path.join(args.out, section.group), config=cfg)
-        written.append((section.title, analysis.result.headline(), paths.report))
+        analysis, paths = run_section(section.image, cfg, os.path.join(args.out, section.group),
+                                      progress=progress)
+        written.append((section.title, headline(analysis.result), paths.report))
     print("Demo: sections of the fictional Kestrel Foundry Supply's two product lines")
     print("(2D sections solved as prismatic structures, generalized plane strain)\n")
     for title, row, report in written:
@@ -255,18 +276,34 @@ def _run_demo(args) -> int:
 
 
 def _add_materials(sub):
-    p = sub.add_parser("materials", help="list the built-in material library")
+    p = sub.add_parser("materials", help="list the built-in material library",
+                       description="The material library: values at 20 °C, or one "
+                       "material's tables over temperature with their sources.")
     p.add_argument("--json", action="store_true", help="print the library as JSON")
+    p.add_argument("--show", metavar="NAME",
+                   help="print one material's tables over temperature with their sources")
+    p.add_argument("--file", metavar="TOML",
+                   help="a lab's own grades in the library's format, merged over the library")
     p.set_defaults(run=_run_materials)
 
 
 def _run_materials(args) -> int:
-    from ..core.materials import describe_library, library
+    from ..core.materials import (describe_library, describe_material, get_material,
+                                  library, load_library_file)
 
-    if args.json:
-        print(json.dumps({k: m.to_dict() for k, m in library().items()}, indent=2))
+    lib = load_library_file(args.file) if args.file else library()
+    if args.show:
+        material = get_material(args.show, lib)
+        if args.json:
+            print(json.dumps({**material.to_dict(), "tables": material.tables_dict()},
+                             indent=2))
+        else:
+            print(describe_material(material))
+    elif args.json:
+        print(json.dumps({k: {**m.to_dict(), "tables": m.tables_dict()} for k, m in lib.items()},
+                         indent=2))
     else:
-        print(describe_library())
+        print(describe_library(lib))
     return EXIT_OK
 
 
@@ -287,7 +324,7 @@ def _add_estimate(sub):
 
 
 def _run_estimate(args) -> int:
-    from ..properties.schemes import run_estimate
+    from .estimate import run_estimate
 
     text = run_estimate(args.phase, args.matrix, args.two_d, args.hollow, args.json)
     if text:
@@ -370,15 +407,11 @@ def _add_batch(sub):
 
 def _run_batch(args) -> int:
     from .batch import run_batch
-    from ..read.config import load_config, quick_config
 
-    cfg = load_config(args.config) if args.config else None
-    if any(v is not None for v in (args.classes, args.assign, args.kind)) or cfg is None:
-        cfg = quick_config(classes=args.classes, assign=args.assign, kind=args.kind, base=cfg)
+    cfg = _with_window_options(_config(args), args)
     r = run_batch(args.folder, args.out, config=cfg, pattern=args.pattern, jobs=args.jobs,
                   scheduler=args.scheduler, resume=args.resume, group_by=args.group_by,
-                  pixel_size_um=args.pixel_size, windows=_window_options(args),
-                  quiet=args.quiet)
+                  pixel_size_um=args.pixel_size, quiet=args.quiet)
     for note in r.notes:
         print(f"polisect: note: {note}", file=sys.stderr)
     if not args.quiet:
@@ -478,36 +511,68 @@ def build_parser() -> argparse.ArgumentParser:
     for add in (_add_analyze, _add_batch, _add_compare, _add_demo, _add_materials,
                 _add_estimate, _add_bench, _add_serve, _add_train):
         add(sub)
+    parser.add_argument("--debug", action="store_true",
+                        help="show the traceback of an internal error")
+    for command in sub.choices.values():
+        command.add_argument("--debug", action="store_true", default=argparse.SUPPRESS,
+                             help="show the traceback of an internal error")
     return parser
 
 
 def main(argv: list[str] | None = None) -> int:
-    """Entry point of the ``polisect`` command."""
-    parser = build_parser()
-    args = parser.parse_args(argv)
+    """Entry point of the ``polisect`` command.
+
+    Every failure ends in one line on stderr: bad input, a missing file or a full disk exit
+    2; an interrupt exits 130; a closed output pipe (``| head``) ends quietly; any other
+    exception exits 1 with a pointer to ``--debug``, which shows its traceback.
+    """
+    debug = False
     try:
-        return args.run(args)
-    except InputError as exc:
-        print(f"polisect: error: {exc}", file=sys.stderr)
-        return EXIT_INPUT
-    except OSError as exc:
-        if exc.filename is None:
-            raise
-        print(f"polisect: error: {exc.filename}: {exc.strerror}; check the path and its "
-              "permissions", file=sys.stderr)
-        return EXIT_INPUT
+        parser = build_parser()
+        args = parser.parse_args(argv)
+        debug = args.debug
+        code = args.run(args)
+        sys.stdout.flush()  # a closed pipe shows here, not at interpreter exit
+        return code
     except BrokenPipeError:
-        devnull = os.open(os.devnull, os.O_WRONLY)
-        os.dup2(devnull, sys.stdout.fileno())
+        try:  # no second error when Python flushes stdout at exit
+            os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        except (OSError, ValueError):
+            pass
         return EXIT_OK
     except KeyboardInterrupt:
         print("polisect: interrupted", file=sys.stderr)
         return 130
-    except Exception:  # noqa: BLE001 - the last line of defence: report and exit 1
-        print("polisect: internal error (please report it with the traceback below)",
-              file=sys.stderr)
+    except InputError as exc:
+        print(f"polisect: error: {exc}", file=sys.stderr)
+        return EXIT_INPUT
+    except MemoryError:
+        print("polisect: error: out of memory; crop the image, lower --voxels or ask for fewer "
+              "[solve] properties", file=sys.stderr)
+        return EXIT_INPUT
+    except OSError as exc:
+        if exc.errno == errno.ENOSPC:
+            print(f"polisect: error: disk full writing {exc.filename or 'the outputs'}; free "
+                  "some space or choose another --out", file=sys.stderr)
+            return EXIT_INPUT
+        if exc.filename is not None:
+            print(f"polisect: error: {exc.filename}: {exc.strerror}; check the path and its "
+                  "permissions", file=sys.stderr)
+            return EXIT_INPUT
+        return _internal(exc, debug)
+    except Exception as exc:  # noqa: BLE001 - the last line of defence: report and exit 1
+        return _internal(exc, debug)
+
+
+def _internal(exc: BaseException, debug: bool) -> int:
+    """One line for an unexpected exception (its traceback with ``--debug``); exit 1."""
+    if debug:
         traceback.print_exc()
-        return EXIT_INTERNAL
+    text = (str(exc).strip().splitlines() or [""])[0][:200]
+    print(f"polisect: internal error: {type(exc).__name__}: {text}"
+          + ("" if debug else " (run again with --debug for the traceback; please report it)"),
+          file=sys.stderr)
+    return EXIT_INTERNAL
 
 
 if __name__ == "__main__":  # pragma: no cover

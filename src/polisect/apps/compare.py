@@ -5,7 +5,7 @@ n, mean, standard deviation, standard error, the 95 % confidence interval of the
 Student's t and the relative accuracy %RA of ASTM E562. Sections that do not belong are
 flagged with Grubbs' two-sided test. Two batches are compared with Welch's t-test, more
 with one-way ANOVA and Welch's ANOVA; the result is also said in a plain sentence. When
-the sections carry a window study (`polisect.trust.rve`), the section-to-section spread is
+the sections carry a window study (`polisect.trust.windows`), the section-to-section spread is
 tested against the spread one section's window study predicts. The statistics themselves
 are in `polisect.trust.sectionstats`.
 
@@ -36,7 +36,8 @@ from ..core.atomic import atomic_write_text
 from .batch import Grouping, read_manifest
 from ..core.errors import InputError
 from ..present.htmlkit import CAUTION_SECTION, PALETTE, figure_png, grid, new_axes, page
-from ..pipeline.results import SCHEMA, _plain, headline, quantity_keys, quantity_label, read_json
+from ..core.quantities import quantity_keys, quantity_label
+from ..present.record import SCHEMA, headline, plain, read_result, whole_image_variances
 from ..trust.sectionstats import (ALPHA, Grubbs, difference, gitman_chi2, grubbs, holm, json_number,
                            one_way_anova, p_text, section_spread, sig, summarize, welch_anova,
                            welch_t)
@@ -72,17 +73,12 @@ class Section:
     report: str | None = None
 
 
-def section_from_result(d: dict, *, name: str, batch: str, json_path: str | None = None,
+def section_from_result(result, *, name: str, batch: str, json_path: str | None = None,
                         report: str | None = None) -> Section:
-    """A `Section` from a result's JSON form (its headline numbers and window study)."""
-    row = headline(d)
+    """A `Section` from a `Result` (its headline numbers and window study)."""
+    row = headline(result)
     values = {k: float(row[k]) for k in quantity_keys(row)}
-    within = {}
-    windows = d.get("windows") or {}
-    for key, fit in (windows.get("quantities") or {}).items():
-        if fit.get("whole_image_variance") is not None:
-            within[key] = float(fit["whole_image_variance"])
-    return Section(name, batch, values, within, json_path, report)
+    return Section(name, batch, values, whole_image_variances(result), json_path, report)
 
 
 def load_sections(dirs, group_by: str | None = None) -> list[Section]:
@@ -122,19 +118,19 @@ def load_sections(dirs, group_by: str | None = None) -> list[Section]:
                      for p in _result_files(folder)]
         for path, rel, group, report in paths:
             try:
-                d = read_json(path)
+                result = read_result(path)
             except (OSError, ValueError) as exc:
                 if manifest is not None:
                     raise InputError(f"{path}: listed as done in the manifest but unreadable "
                                      f"({exc}); run polisect batch --resume again") from None
                 continue
             if grouping is not None:
-                batch = grouping.group(d["source"]["path"] or path)
+                batch = grouping.group(result.source.path or path)
             elif group_by is None and group is not None:
                 batch = group
             else:
                 batch = dir_name
-            sections.append(section_from_result(d, name=rel, batch=batch, json_path=path,
+            sections.append(section_from_result(result, name=rel, batch=batch, json_path=path,
                                                 report=report))
     if not sections:
         raise InputError(f"no result JSON files found in {', '.join(map(str, dirs))}; run "
@@ -199,7 +195,7 @@ class QuantityComparison:
     differences : tuple of Difference
         Every batch against the first one.
     spreads : dict
-        Batch → `Spread` (batches whose sections carry window studies).
+        Batch → `BatchSpread` (batches whose sections carry window studies).
     sentences : tuple of str
         The findings in plain words.
     """
@@ -245,7 +241,7 @@ class Comparison:
                 "quantities": [q.to_dict() for q in self.quantities]}
 
     def to_json(self) -> str:
-        return json.dumps(_plain(self.to_dict()), indent=2, allow_nan=False)
+        return json.dumps(plain(self.to_dict()), indent=2, allow_nan=False)
 
     def sentences(self) -> list[str]:
         """All findings in plain words, quantity by quantity."""

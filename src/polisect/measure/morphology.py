@@ -95,12 +95,6 @@ class FractionEstimate:
     relative_accuracy_pct: float
     std: float
 
-    def to_dict(self) -> dict:
-        ra = self.relative_accuracy_pct
-        return {"mean": self.mean, "ci95": self.ci95, "n_fields": self.n_fields,
-                "relative_accuracy_pct": ra if math.isfinite(ra) else None, "std": self.std}
-
-
 def field_grid(shape: tuple[int, ...], n_fields: int) -> tuple[int, ...]:
     """Number of fields along each axis: a grid of exactly *n_fields* nearly cubic fields.
 
@@ -242,10 +236,6 @@ class EnclosedFraction:
     host: int
     fraction: FractionEstimate
 
-    def to_dict(self) -> dict:
-        return {"phase": self.phase, "host": self.host, **self.fraction.to_dict()}
-
-
 def enclosed_fractions(labels: np.ndarray, host_labels, n_fields: int = 16
                        ) -> tuple[EnclosedFraction, ...]:
     """Fractions of every phase that lie enclosed inside particles of each host phase.
@@ -355,33 +345,9 @@ class PhaseParticles:
     def units(self) -> str:
         return self.table.units
 
-    def to_dict(self) -> dict:
-        """The ``particles.<phase name>`` block of the result JSON.
-
-        With ``units == "px"`` every ``_um`` value is in pixels and every per-mm value is per
-        1000 pixels (what a 1 µm pixel would give); the pipeline says so in a warning.
-        """
-        out = {"label": self.label, "split_touching": self.split_touching, **self.size.to_dict()}
-        out["sphere_diameter_um"] = self.spheres.to_dict()
-        out["number_per_mm3"] = _per_mm3(self.spheres.number_per_volume)
-        spacing_block = self.spacing.to_dict()
-        out["mean_free_path_um"] = spacing_block["mean_free_path"]
-        out["mean_intercept_um"] = spacing_block["mean_intercept"]
-        out["surface_density_per_um"] = spacing_block["surface_density"]
-        out["contiguity"] = spacing_block["contiguity"]
-        nn = self.neighbours.to_dict()
-        out["nearest_neighbour_um"] = {"mean": nn["mean"], "clark_evans": nn["clark_evans"],
-                                       "n_used": nn["n_used"]}
-        return out
-
     def rows(self) -> list[dict]:
         """Per-particle rows for the CSV, each with the phase name first."""
         return [{"phase": self.name, **row} for row in self.table.rows()]
-
-
-def _per_mm3(per_um3: float) -> float | None:
-    value = per_um3 * 1e9
-    return float(value) if math.isfinite(value) else None
 
 
 def phase_particles(phasemap: PhaseMap, phase: int | str, *, split_touching: bool = False,
@@ -421,7 +387,7 @@ def phase_particles(phasemap: PhaseMap, phase: int | str, *, split_touching: boo
     >>> m = Material(conductivity=1.0)
     >>> pm = PhaseMap(p.labels, (Phase(0, "matrix", m), Phase(1, "SiC", m)), voxel_size_um=0.5)
     >>> res = phase_particles(pm, "SiC", n_boot=100)
-    >>> res.to_dict()["units"], round(res.to_dict()["ecd_um"]["d50"], 1)
+    >>> res.units, round(res.size.ecd_d50.value, 1)
     ('um', 6.0)
     """
     try:

@@ -25,7 +25,6 @@ from skimage.measure import regionprops
 
 from .particles import label_particles
 from ..core.phasemap import PhaseMap
-from .sizestats import weighted_quantile
 
 
 @dataclass(frozen=True, eq=False)
@@ -72,38 +71,6 @@ class VolumeParticles:
     @property
     def hollow(self) -> np.ndarray:
         return self.inner_outer_ratio > 0
-
-    def to_dict(self) -> dict:
-        """The ``particles.<phase name>`` block of a volume."""
-        keep = self.weight > 0
-        w, d = self.weight[keep], self.esd[keep]
-        order = np.argsort(d, kind="stable")
-        d, w = d[order], w[order]
-        per_mm3 = 1e9  # µm³ per mm³; without a voxel size: per 1000³ voxels
-        total = float(w.sum())
-        hollow = self.hollow[keep][order]
-        ratio = self.inner_outer_ratio[keep][order]
-
-        def q(p):
-            return float(weighted_quantile(d, w, p)) if total > 0 else None
-
-        mean = float(np.sum(w * d) / total) if total > 0 else None
-        std = (float(math.sqrt(np.sum(w * (d - mean) ** 2) / total)) if total > 0 else None)
-        vol_w = w * d ** 3
-        return {
-            "label": self.label, "dimension": 3, "units": self.units,
-            "count": int(self.volume.size), "count_measured": int(keep.sum()),
-            "number_per_mm3": total / self.box_volume * per_mm3,
-            "sphere_diameter_um": {
-                "mean": mean, "std": std, "d10": q(0.1), "d50": q(0.5), "d90": q(0.9),
-                "volume_weighted": {
-                    "d10": float(weighted_quantile(d, vol_w, 0.1)) if total > 0 else None,
-                    "d50": float(weighted_quantile(d, vol_w, 0.5)) if total > 0 else None,
-                    "d90": float(weighted_quantile(d, vol_w, 0.9)) if total > 0 else None}},
-            "hollow_fraction": float(np.sum(w * hollow) / total) if total > 0 else None,
-            "inner_outer_ratio_mean": (float(np.sum(w * hollow * ratio) / np.sum(w * hollow))
-                                       if total > 0 and np.any(hollow) else None),
-        }
 
     def rows(self) -> list[dict]:
         """One row per particle for the CSV table."""

@@ -42,18 +42,11 @@ from .particles import ParticleTable
 
 
 @dataclass(frozen=True)
-class Estimate:
+class SampleEstimate:
     """A statistic with its bootstrap 95 % percentile interval (``None`` if not computed)."""
 
     value: float
     ci95: tuple[float, float] | None = None
-
-    def to_dict(self) -> dict:
-        def num(x):
-            return float(x) if x is not None and math.isfinite(x) else None
-        ci = None if self.ci95 is None else [num(self.ci95[0]), num(self.ci95[1])]
-        return {"value": num(self.value), "ci95": ci}
-
 
 @dataclass(frozen=True)
 class SizeStatistics:
@@ -70,17 +63,17 @@ class SizeStatistics:
         Particles not touching the border (used for the statistics).
     count_per_mm2 : float
         Miles–Lantuéjoul estimate of the number per unit area, Σw / frame area.
-    ecd_mean, ecd_std : Estimate
+    ecd_mean, ecd_std : SampleEstimate
         Number-weighted mean and standard deviation of the equivalent circle diameter.
-    ecd_d10, ecd_d50, ecd_d90 : Estimate
+    ecd_d10, ecd_d50, ecd_d90 : SampleEstimate
         Number-weighted ECD quantiles.
-    ecd_area_d10, ecd_area_d50, ecd_area_d90 : Estimate
+    ecd_area_d10, ecd_area_d50, ecd_area_d90 : SampleEstimate
         Area-weighted ECD quantiles (the diameter below which 10/50/90 % of the area lies).
-    aspect_ratio_mean, circularity_mean, solidity_mean : Estimate
+    aspect_ratio_mean, circularity_mean, solidity_mean : SampleEstimate
         Number-weighted means of the shape measures.
-    hollow_fraction : Estimate
+    hollow_fraction : SampleEstimate
         Number fraction of particles that enclose another phase.
-    inner_outer_ratio_mean : Estimate
+    inner_outer_ratio_mean : SampleEstimate
         Mean inner/outer equivalent-diameter ratio of the hollow particles (NaN if none).
     units : str
     """
@@ -88,39 +81,20 @@ class SizeStatistics:
     count: int
     count_measured: int
     count_per_mm2: float
-    ecd_mean: Estimate
-    ecd_std: Estimate
-    ecd_d10: Estimate
-    ecd_d50: Estimate
-    ecd_d90: Estimate
-    ecd_area_d10: Estimate
-    ecd_area_d50: Estimate
-    ecd_area_d90: Estimate
-    aspect_ratio_mean: Estimate
-    circularity_mean: Estimate
-    solidity_mean: Estimate
-    hollow_fraction: Estimate
-    inner_outer_ratio_mean: Estimate
+    ecd_mean: SampleEstimate
+    ecd_std: SampleEstimate
+    ecd_d10: SampleEstimate
+    ecd_d50: SampleEstimate
+    ecd_d90: SampleEstimate
+    ecd_area_d10: SampleEstimate
+    ecd_area_d50: SampleEstimate
+    ecd_area_d90: SampleEstimate
+    aspect_ratio_mean: SampleEstimate
+    circularity_mean: SampleEstimate
+    solidity_mean: SampleEstimate
+    hollow_fraction: SampleEstimate
+    inner_outer_ratio_mean: SampleEstimate
     units: str
-
-    def to_dict(self) -> dict:
-        """The ``particles.<phase>`` size block of the result JSON (with ci95 entries)."""
-        def val(e: Estimate):
-            return e.to_dict()["value"]
-
-        ecd = {k: val(getattr(self, f"ecd_{k}")) for k in ("mean", "std", "d10", "d50", "d90")}
-        ecd["area_weighted"] = {k: val(getattr(self, f"ecd_area_{k}")) for k in ("d10", "d50", "d90")}
-        ecd["ci95"] = {k: getattr(self, f"ecd_{k}").to_dict()["ci95"]
-                       for k in ("mean", "std", "d10", "d50", "d90")}
-        shape = ("aspect_ratio_mean", "circularity_mean", "solidity_mean", "hollow_fraction",
-                 "inner_outer_ratio_mean")
-        out = {"units": self.units, "count": self.count, "count_measured": self.count_measured,
-               "count_per_mm2": self.count_per_mm2, "ecd_um": ecd}
-        for k in shape:
-            out[k] = val(getattr(self, k))
-        out["ci95"] = {k: getattr(self, k).to_dict()["ci95"] for k in shape}
-        return out
-
 
 def weighted_quantile(sorted_values: np.ndarray, weights: np.ndarray, q: float) -> np.ndarray:
     """Quantile *q* of the weighted inverted empirical distribution function.
@@ -210,13 +184,13 @@ def size_statistics(table: ParticleTable, n_boot: int = 1000, seed: int = 0) -> 
     w = table.weight[used][order]
     n = int(w.size)
     count_per_mm2 = float(table.weight.sum() / table.window_area * 1e6)
-    names = [f.name for f in fields(SizeStatistics) if f.type == "Estimate"]
+    names = [f.name for f in fields(SizeStatistics) if f.type == "SampleEstimate"]
     if n == 0:
-        est = {k: Estimate(math.nan) for k in names}
+        est = {k: SampleEstimate(math.nan) for k in names}
     else:
         point = {k: float(v[0]) for k, v in _statistics(t, w[None, :], n).items()}
         boot = _bootstrap(t, w, n, n_boot, seed) if n_boot else None
-        est = {k: Estimate(point[k], None if boot is None else _percentile_interval(boot[k]))
+        est = {k: SampleEstimate(point[k], None if boot is None else _percentile_interval(boot[k]))
                for k in names}
     return SizeStatistics(count=table.count, count_measured=n, count_per_mm2=count_per_mm2,
                           units=table.units, **est)

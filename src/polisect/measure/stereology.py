@@ -37,10 +37,6 @@ from ..core.errors import InputError
 SALTYKOV_RATIO = 10.0 ** -0.1
 
 
-def _num(x) -> float | None:
-    return float(x) if x is not None and math.isfinite(x) else None
-
-
 @dataclass(frozen=True, eq=False)
 class SphereDistribution:
     """Sphere-diameter distribution unfolded from section diameters.
@@ -79,13 +75,6 @@ class SphereDistribution:
     number_per_volume: float
     volume_fraction: float
     units: str
-
-    def to_dict(self) -> dict:
-        return {"mean": _num(self.mean_diameter), "d50": _num(self.d50),
-                "volume_fraction": _num(self.volume_fraction),
-                "classes": {"edges": self.edges.tolist(),
-                            "number_per_volume": self.number_density.tolist()}}
-
 
 def saltykov_matrix(edges: np.ndarray) -> np.ndarray:
     """Sections per unit area in each class from one sphere per unit volume in each class.
@@ -346,13 +335,6 @@ class Spacing:
     contiguity: float | None
     units: str
 
-    def to_dict(self) -> dict:
-        return {"units": self.units, "mean_intercept": _num(self.mean_intercept),
-                "mean_free_path": _num(self.mean_free_path),
-                "surface_density": _num(self.surface_density),
-                "contiguity": _num(self.contiguity) if self.contiguity is not None else None}
-
-
 def spacing(densities: LineDensities) -> Spacing:
     """Mean intercept length, mean free path and contiguity from boundary line densities.
 
@@ -414,11 +396,6 @@ class NearestNeighbour:
     clark_evans: float
     distances: np.ndarray
     units: str
-
-    def to_dict(self) -> dict:
-        return {"units": self.units, "mean": _num(self.mean), "n_used": self.n_used,
-                "clark_evans": _num(self.clark_evans)}
-
 
 def nearest_neighbour(points: np.ndarray, window, periodic: bool = False,
                       units: str = "um") -> NearestNeighbour:
@@ -511,12 +488,6 @@ class CorrelationFunction:
     correlation_length: float
     periodic: bool
     units: str
-
-    def to_dict(self) -> dict:
-        return {"units": self.units, "fraction": self.fraction, "periodic": self.periodic,
-                "correlation_length": _num(self.correlation_length),
-                "r": self.r.tolist(), "s2": self.s2.tolist()}
-
 
 def two_point_correlation(phase_mask: np.ndarray, r_max: int | None = None,
                           periodic: bool = False, voxel_size_um: float | None = None,

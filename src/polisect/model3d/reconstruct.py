@@ -40,11 +40,13 @@ from skimage.segmentation import relabel_sequential
 
 from ..core.errors import InputError
 from ..core.memory import PeakRSS
-from ..measure.morphology import student_t
 from .packing import SpherePacking, pack_spheres, rasterize
 from ..measure.particles import label_particles, measure_particles
 from ..core.phasemap import Phase, PhaseMap
 from ..measure.stereology import saltykov
+from ..properties.records import (Conductivity, Effective, Elasticity, Expansion, Solver, Spread,
+                                  value_of)
+from .summary import (Estimate3DRecord, FamilyRecord, PackingRecord, Versus2D, VolumeRecord)
 
 #: Diameter classes of the unfolding: 20 geometric classes, each limit 10^-0.06 times the
 #: next (1.2 decades; finer than Saltykov's 10^-0.1 so that the class-limit diameters the
@@ -114,16 +116,13 @@ class FamilyStatistics:
         """Diameter below which a share *q* of the spheres' volume lies."""
         return _volume_quantile(self.diameters, self.weights * self.diameters ** 3, q)
 
-    def to_dict(self) -> dict:
+    def summary(self) -> FamilyRecord:
+        """The family as the result records it."""
         w = self.weights / self.weights.sum()
-        return {"label": self.label, "fraction": self.fraction, "sections": self.sections,
-                "sphere_diameter": {"mean": float(w @ self.diameters),
-                                    "volume_d10": self.volume_quantile(0.1),
-                                    "volume_d50": self.volume_quantile(0.5),
-                                    "volume_d90": self.volume_quantile(0.9)},
-                "hollow_share": self.hollow_share, "hollow_ratio": self.hollow_ratio,
-                "core_label": self.core_label, "aspect_ratio_mean": self.aspect_ratio,
-                "solidity_mean": self.solidity}
+        return FamilyRecord(self.label, self.fraction, self.sections, float(w @ self.diameters),
+                            self.volume_quantile(0.1), self.volume_quantile(0.5),
+                            self.volume_quantile(0.9), self.hollow_share, self.hollow_ratio,
+                            self.core_label, self.aspect_ratio, self.solidity)
 
 
 @dataclass(frozen=True, eq=False)
@@ -157,9 +156,6 @@ class SectionStatistics:
                             / np.sum(f.weights * f.diameters ** 3) for f in self.families])
         return _volume_quantile(d, w, q)
 
-    def to_dict(self) -> dict:
-        return {"units": self.units, "matrix_label": self.matrix_label,
-                "families": [f.to_dict() for f in self.families]}
 
 
 def _volume_quantile(d: np.ndarray, volume: np.ndarray, q: float) -> float:
@@ -400,11 +396,11 @@ class VolumePlan:
         """Edge of the cube, ``units``."""
         return self.voxels * self.voxel_size
 
-    def to_dict(self) -> dict:
-        return {"voxels": [self.voxels] * 3, "voxel_size": self.voxel_size,
-                "box": self.box, "units": self.units, "d10": self.d10, "d90": self.d90,
-                "d10_voxels": self.d10 / self.voxel_size, "box_over_d90": self.box / self.d90,
-                "compromise": self.compromise}
+    def summary(self) -> VolumeRecord:
+        """The plan as the result records it."""
+        return VolumeRecord((self.voxels,) * 3, self.voxel_size, self.box, self.units,
+                            self.d10, self.d90, self.d10 / self.voxel_size,
+                            self.box / self.d90, self.compromise)
 
 
 def plan_volume(stats: SectionStatistics, voxels: int = 160,
@@ -619,35 +615,6 @@ def reconstruct(stats: SectionStatistics, plan: VolumePlan, *, seed) -> Reconstr
 PROPERTIES = ("conductivity", "elasticity", "expansion")
 
 
-@dataclass(frozen=True)
-class Spread:
-    """A quantity over the realizations: the mean and its 95 % confidence interval.
-
-    The interval is mean ± t·s/√n with Student's t for n − 1 degrees of freedom and s the
-    standard deviation over the n realizations (``None`` for a single realization).
-    """
-
-    mean: float
-    ci95: tuple[float, float] | None
-    values: tuple[float, ...]
-
-    @classmethod
-    def of(cls, values) -> "Spread":
-        v = np.asarray(values, float)
-        mean = float(v.mean())
-        if v.size < 2:
-            return cls(mean, None, tuple(v.tolist()))
-        half = student_t(v.size) * float(v.std(ddof=1)) / math.sqrt(v.size)
-        return cls(mean, (mean - half, mean + half), tuple(v.tolist()))
-
-    @property
-    def half_width_pct(self) -> float | None:
-        """Half-width of the interval over the mean, %."""
-        if self.ci95 is None or self.mean == 0:
-            return None
-        return 50.0 * (self.ci95[1] - self.ci95[0]) / abs(self.mean)
-
-
 @dataclass(frozen=True, eq=False)
 class Realization:
     """One reconstructed volume and its solver results (``None`` where not asked for)."""
@@ -662,26 +629,13 @@ class Realization:
     expansion: object | None = None
 
 
-@dataclass(frozen=True)
-class Comparison:
-    """A 3D estimate beside the 2D section's value of the same quantity."""
-
-    quantity: str
-    section_2d: float
-    estimate_3d: float
-    difference_pct: float
-    sentence: str
-
-    def to_dict(self) -> dict:
-        return dataclasses.asdict(self)
-
-
-#: (property, key in the effective block, words) of the scalars compared with 2D.
-_COMPARED = (("conductivity", "mean_W_mK", "mean conductivity"),
-             ("elasticity", "youngs_modulus_GPa", "Young's modulus"),
-             ("elasticity", "shear_modulus_GPa", "shear modulus"),
-             ("elasticity", "poisson_ratio", "Poisson's ratio"),
-             ("expansion", "mean_per_K", "mean thermal expansion"))
+#: (property, its attribute, the quantity's name in the result, words) of the scalars
+#: compared with 2D.
+_COMPARED = (("conductivity", "mean", "mean_W_mK", "mean conductivity"),
+             ("elasticity", "youngs_modulus", "youngs_modulus_GPa", "Young's modulus"),
+             ("elasticity", "shear_modulus", "shear_modulus_GPa", "shear modulus"),
+             ("elasticity", "poisson_ratio", "poisson_ratio", "Poisson's ratio"),
+             ("expansion", "mean", "mean_per_K", "mean thermal expansion"))
 
 
 @dataclass(frozen=True, eq=False)
@@ -702,7 +656,7 @@ class Estimate3D:
         Moduli of the nearest isotropic stiffness (`polisect.core.tensors.isotropic_projection`).
     expansion : Spread or None
         Mean linear expansion tr(α)/3.
-    versus_2d : tuple of Comparison
+    versus_2d : tuple of Versus2D
         The 2D section's values beside (empty when none were given).
     seed : int
     warnings : tuple of str
@@ -718,7 +672,7 @@ class Estimate3D:
     bulk_modulus: Spread | None
     shear_modulus: Spread | None
     expansion: Spread | None
-    versus_2d: tuple[Comparison, ...]
+    versus_2d: tuple[Versus2D, ...]
     seed: int
     warnings: tuple[str, ...]
 
@@ -728,62 +682,47 @@ class Estimate3D:
     def _anisotropy(self, prop: str) -> float:
         return float(np.mean([getattr(r, prop).anisotropy() for r in self.realizations]))
 
-    def _solver(self, prop: str) -> dict:
+    def _solver(self, prop: str) -> Solver:
         facts = [getattr(r, prop).facts for r in self.realizations]
-        return {"method": facts[0].method, "iterations": sum(f.iterations for f in facts),
-                "seconds": round(sum(f.seconds for f in facts), 4),
-                "tolerance": facts[0].tolerance, "converged": all(f.converged for f in facts),
-                "realizations": len(facts)}
+        return Solver(facts[0].method, sum(f.iterations for f in facts),
+                      round(sum(f.seconds for f in facts), 4), facts[0].tolerance,
+                      all(f.converged for f in facts), realizations=len(facts))
 
-    def to_dict(self) -> dict:
-        """The ``effective_3d`` block: the keys of ``effective`` plus the realizations' spread.
-
-        Every scalar ``key`` has ``key_ci95`` ([low, high], 95 % over the realizations)
-        and ``key_realizations`` (one value per realization) beside it; tensors are the
-        means over the realizations.
-        """
+    def summary(self) -> Estimate3DRecord:
+        """The estimate as the result records it: the effective properties of the 3D model
+        (every scalar a `Spread` over the realizations, tensors their means), the volume,
+        the section statistics it was built from, the packings and the comparison with 2D."""
         n = len(self.realizations)
-        out = {"dimension": 3, "plane": None,
-               "model": (f"3D estimate from the section's statistics: {n} periodic "
-                         f"reconstructions of {self.plan.voxels}³ voxels, (hollow) spheres "
-                         "with the section's fractions and unfolded size distributions"),
-               "note": LIMITS_NOTE,
-               "axes": "x, y, z of the reconstructed volumes (statistically isotropic)",
-               "realizations": n, "seed": self.seed,
-               "confidence": "95 % interval of the mean over the realizations, Student t "
-                             "with n − 1 degrees of freedom; it covers the variation between "
-                             "reconstructions, not the sampling error of the section's own "
-                             "fractions and sizes (see the fractions' intervals)",
-               "conductivity": None, "elasticity": None, "expansion": None,
-               "volume": self.plan.to_dict(), "section": self.statistics.to_dict(),
-               "packings": [{"seed": r.seed, "spheres": r.spheres, "method": r.packing,
-                             "fractions": r.fractions, "seconds": round(r.seconds, 3)}
-                            for r in self.realizations],
-               "versus_2d": [c.to_dict() for c in self.versus_2d],
-               "warnings": list(self.warnings)}
+        c = e = x = None
         if self.conductivity is not None:
-            out["conductivity"] = {
-                "tensor_W_mK": self._mean_tensor("conductivity", "tensor"),
-                **_spread_keys("mean_W_mK", self.conductivity),
-                "anisotropy": self._anisotropy("conductivity"),
-                "solver": self._solver("conductivity")}
+            c = Conductivity(self._mean_tensor("conductivity", "tensor"), self.conductivity,
+                             self._anisotropy("conductivity"), self._solver("conductivity"))
         if self.youngs_modulus is not None:
-            out["elasticity"] = {
-                "stiffness_GPa": self._mean_tensor("elasticity", "stiffness"),
-                **_spread_keys("youngs_modulus_GPa", self.youngs_modulus),
-                **_spread_keys("poisson_ratio", self.poisson_ratio),
-                **_spread_keys("bulk_modulus_GPa", self.bulk_modulus),
-                **_spread_keys("shear_modulus_GPa", self.shear_modulus),
-                "anisotropy": self._anisotropy("elasticity"),
-                "plane": None, "solver": self._solver("elasticity")}
+            e = Elasticity(self._mean_tensor("elasticity", "stiffness"), self.youngs_modulus,
+                           self.poisson_ratio, self.bulk_modulus, self.shear_modulus,
+                           self._anisotropy("elasticity"), None, self._solver("elasticity"))
         if self.expansion is not None:
-            out["expansion"] = {
-                "tensor_per_K": self._mean_tensor("expansion", "tensor"),
-                **_spread_keys("mean_per_K", self.expansion), "axial_per_K": None,
-                "anisotropy": self._anisotropy("expansion"),
-                "solver": self._solver("expansion")}
-        return out
+            x = Expansion(self._mean_tensor("expansion", "tensor"), self.expansion, None,
+                          self._anisotropy("expansion"), self._solver("expansion"))
+        model = (f"3D estimate from the section's statistics: {n} periodic reconstructions of "
+                 f"{self.plan.voxels}³ voxels, (hollow) spheres with the section's fractions "
+                 "and unfolded size distributions")
+        effective = Effective(3, None, model, LIMITS_NOTE,
+                              "x, y, z of the reconstructed volumes (statistically isotropic)",
+                              c, e, x)
+        return Estimate3DRecord(
+            effective, n, self.seed, CONFIDENCE_WORDS, self.plan.summary(),
+            self.statistics.units, self.statistics.matrix_label,
+            tuple(f.summary() for f in self.statistics.families),
+            tuple(PackingRecord(r.seed, r.spheres, r.packing, r.fractions, round(r.seconds, 3))
+                  for r in self.realizations),
+            self.versus_2d, self.warnings)
 
+
+CONFIDENCE_WORDS = ("95 % interval of the mean over the realizations, Student t with n − 1 "
+                    "degrees of freedom; it covers the variation between reconstructions, not "
+                    "the sampling error of the section's own fractions and sizes (see the "
+                    "fractions' intervals)")
 
 LIMITS_NOTE = (
     "The reconstructions are packings of spheres (hollow where the section shows hollow "
@@ -791,11 +730,6 @@ LIMITS_NOTE = (
     "They stand for the 3D particle composite only if its particles are sphere-like; "
     "elongated, irregular or interconnected phases (e.g. a continuous porous network) need "
     "a real volume (a voxel stack).")
-
-
-def _spread_keys(key: str, s: Spread) -> dict:
-    return {key: s.mean, key + "_ci95": list(s.ci95) if s.ci95 else None,
-            key + "_realizations": list(s.values)}
 
 
 def _matrix_of(phasemap: PhaseMap) -> int:
@@ -810,7 +744,7 @@ def _matrix_of(phasemap: PhaseMap) -> int:
 
 def estimate_3d(phasemap: PhaseMap, properties=PROPERTIES, *, voxels: int = 160,
                 realizations: int = 3, seed: int = 0, tol: float = 1e-6,
-                method: str = "auto", effective_2d: dict | None = None,
+                method: str = "auto", effective_2d: Effective | None = None,
                 voxel_size: float | None = None, progress=None) -> Estimate3D:
     """Estimate a section's 3D effective properties from reconstructed sphere packings.
 
@@ -832,8 +766,8 @@ def estimate_3d(phasemap: PhaseMap, properties=PROPERTIES, *, voxels: int = 160,
         (`numpy.random.SeedSequence.spawn`), so the same seed gives the same estimate.
     tol, method
         Passed to the solvers.
-    effective_2d : dict, optional
-        The ``effective`` block of the 2D section, to compare with.
+    effective_2d : Effective, optional
+        The effective properties of the 2D section, to compare with.
     voxel_size : float, optional
         Voxel edge of the reconstructions (µm, or pixels when the pixel size is unknown)
         instead of the resolution rule's (`plan_volume`); e.g. the section's pixel size.
@@ -924,27 +858,29 @@ def _summarise(props, runs, stats, plan, seed, warnings) -> Estimate3D:
                       seed=seed, warnings=tuple(warnings))
 
 
-def compare_2d(est: Estimate3D, effective_2d: dict) -> tuple[Comparison, ...]:
+def compare_2d(est: Estimate3D, effective_2d: Effective) -> tuple[Versus2D, ...]:
     """The 3D estimate beside the 2D section's values, with the difference and its meaning.
 
     Parameters
     ----------
     est : Estimate3D
-    effective_2d : dict
-        The ``effective`` block of the 2D section (a prismatic structure).
+    effective_2d : Effective
+        The effective properties of the 2D section (a prismatic structure).
 
     Returns
     -------
-    tuple of Comparison
+    tuple of Versus2D
         One per quantity both hold.
     """
-    spreads = {"mean_W_mK": est.conductivity, "youngs_modulus_GPa": est.youngs_modulus,
-               "shear_modulus_GPa": est.shear_modulus, "poisson_ratio": est.poisson_ratio,
-               "mean_per_K": est.expansion}
+    spreads = {("conductivity", "mean"): est.conductivity,
+               ("elasticity", "youngs_modulus"): est.youngs_modulus,
+               ("elasticity", "shear_modulus"): est.shear_modulus,
+               ("elasticity", "poisson_ratio"): est.poisson_ratio,
+               ("expansion", "mean"): est.expansion}
     out = []
-    for prop, key, words in _COMPARED:
-        block = effective_2d.get(prop) or {}
-        v2, s3 = block.get(key), spreads[key]
+    for prop, attr, key, words in _COMPARED:
+        block = getattr(effective_2d, prop)
+        v2, s3 = None if block is None else value_of(getattr(block, attr)), spreads[(prop, attr)]
         if v2 is None or s3 is None or v2 == 0:
             continue
         diff = 100.0 * (s3.mean - v2) / abs(v2)
@@ -959,7 +895,7 @@ def compare_2d(est: Estimate3D, effective_2d: dict) -> tuple[Comparison, ...]:
         sentence = (f"The 3D estimate of the {words} is {abs(diff):.1f} % "
                     f"{'higher' if diff > 0 else 'lower'} than the 2D section's value: "
                     f"{meaning}.")
-        out.append(Comparison(key, float(v2), s3.mean, diff, sentence))
+        out.append(Versus2D(key, float(v2), s3.mean, diff, sentence))
     return tuple(out)
 
 

@@ -1,0 +1,1 @@
+"""Pipeline: `analyze` runs one section through every stage into a typed `Result`."""

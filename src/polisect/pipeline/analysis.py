@@ -1,14 +1,19 @@
-"""`analyze`: one section (a file or an array) to a `Result`, and `write_outputs`.
+"""`analyze`: one section (a file or an array) to an `Analysis` holding its typed `Result`.
 
 The pipeline is the only place that knows about every stage; each stage is a plain
-function over plain data (see DESIGN.md):
+function over plain data (see DEVELOPERS.md):
 
-    file → Micrograph → PhaseMap → fractions, particles, schemes, effective → Result
+    file → Micrograph → PhaseMap → fractions, particles, schemes, effective,
+           shock, 3D estimate, window study → Result
+
+The optional steps run when the configuration asks for them (``[solve] estimate_3d``,
+``[windows] study``); a new step is one function here and one line in `analyze`. Writing
+the outputs is `polisect.apps.run.run_section`'s job: nothing here knows about files
+other than the one it reads.
 """
 
 from __future__ import annotations
 
-import dataclasses
 import datetime as _dt
 import os
 import time
@@ -18,13 +23,20 @@ from typing import Callable
 import numpy as np
 
 from .. import __version__
-from ..read.config import Config
 from ..core.errors import InputError
-from ..read.image import Micrograph, check_slice_spacing, read_image, read_stack, to_grayscale
 from ..core.materials import Material
-from ..measure.morphology import enclosed_fractions, field_fractions, particle_phases, phase_particles
 from ..core.phasemap import Phase, PhaseMap
-from .results import PhaseFraction, Result, Source
+from ..core.quantities import SOLVED_COLUMNS, fraction_column
+from ..measure.morphology import (enclosed_fractions, field_fractions, particle_phases,
+                                  phase_particles)
+from ..measure.summary import (summarize_correlation, summarize_particles,
+                               summarize_volume_particles)
+from ..properties.records import Effective, value_of
+from ..properties.shock import ShockIndices
+from ..read.config import Config, check_grey_range, validate
+from ..read.image import Micrograph, check_slice_spacing, read_image, read_stack, to_grayscale
+from .guard import check_analysis
+from .result import AtTemperature, PhaseFraction, Result, SchemeTable, Source
 
 Progress = Callable[[str], None]
 
@@ -37,10 +49,28 @@ class Analysis:
     phasemap: PhaseMap
     image: np.ndarray | None
     thresholds: tuple[float, ...] = ()
-    particle_rows: list = field(default_factory=list)
     particles: tuple = ()
     correlations: dict = field(default_factory=dict)
     field_maps: dict = field(default_factory=dict)
+
+    @property
+    def particle_rows(self) -> list[dict]:
+        """One row per particle of every measured phase (the particles CSV)."""
+        return [{"phase": pp.name, **row} for pp in self.particles
+                for row in (pp.table.rows() if self.phasemap.ndim == 2 else pp.rows())]
+
+
+class _Clock:
+    """Wall time of each stage, for the result's ``timings_s``."""
+
+    def __init__(self):
+        self.timings: dict[str, float] = {}
+
+    def __call__(self, stage: str, work: Callable, *args, **kwargs):
+        tick = time.perf_counter()
+        out = work(*args, **kwargs)
+        self.timings[stage] = time.perf_counter() - tick
+        return out
 
 
 def analyze(source, config: Config | None = None, *, pixel_size_um: float | None = None,
@@ -50,8 +80,8 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
     Parameters
     ----------
     source : path or ndarray
-        An image file (TIFF, PNG, JPEG, BMP) or an array: a grey/RGB image, or a label
-        image when ``config.image.kind == "labels"``.
+        An image file (TIFF, PNG, JPEG, BMP), a folder of slices, or an array: a grey/RGB
+        image, or a label image when ``config.image.kind == "labels"``.
     config : Config, optional
         The run configuration (defaults: grayscale, multi-Otsu, no materials).
     pixel_size_um : float, optional
@@ -63,82 +93,90 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
     -------
     Analysis
         ``.result`` is the `Result`; the rest is for the report.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from polisect import analyze, config_from_dict
+    >>> labels = np.zeros((64, 64), dtype=np.int32); labels[16:48, 16:48] = 1
+    >>> cfg = config_from_dict({"image": {"kind": "labels"}, "solve": {"properties": []}})
+    >>> round(analyze(labels, cfg).result.phases[1].fraction, 4)
+    0.25
     """
     cfg = config or Config()
+    validate(cfg)
     say = progress or (lambda msg: None)
-    timings: dict[str, float] = {}
+    clock = _Clock()
     warnings: list[str] = []
-    tick = time.perf_counter()
 
     say("reading image")
-    micro = _micrograph(source, cfg, pixel_size_um)
-    timings["read"] = time.perf_counter() - tick
-
-    tick = time.perf_counter()
+    micro = clock("read", _micrograph, source, cfg, pixel_size_um)
+    check_analysis(micro.data.shape[:2] if micro.is_rgb else micro.data.shape,
+                   cfg.solve.properties if cfg.phases else (), cfg.solve.method,
+                   cfg.solve.fields,
+                   cfg.solve.voxels if cfg.solve.estimate_3d and cfg.phases else None)
     say("building the phase map")
-    labels, thresholds, seg_notes = _labels(micro, cfg)
-    phases = _phase_table(labels, cfg)
-    phasemap = PhaseMap(labels.astype(np.int32, copy=False), phases, micro.pixel_size_um)
-    timings["segment"] = time.perf_counter() - tick
+    phasemap, thresholds, seg_notes, seg_warnings = clock("segment", _phasemap, micro, cfg)
+    warnings.extend(seg_warnings)
     if micro.pixel_size_um is None:
         warnings.append("pixel size unknown: sizes are in pixels; give [image] pixel_size_um "
                         "or --pixel-size, or use a TIFF with resolution tags")
     notes = [n for n in micro.notes if not n.startswith("pixel size unknown")] + seg_notes
 
-    tick = time.perf_counter()
     say("measuring phase fractions")
-    fractions = _fractions(phasemap, cfg)
-    timings["fractions"] = time.perf_counter() - tick
+    fractions = clock("fractions", _fractions, phasemap, cfg)
+    particles, summaries, correlations = clock("particles", _particles, phasemap, cfg, say)
+    schemes = clock("schemes", _schemes, phasemap, fractions, summaries, notes)
+    solved = clock("solve", _effective, phasemap, cfg, say, warnings, notes)
+    effective = solved.effective if solved else None
+    if effective is not None:
+        warnings.extend(clock("resolution", _resolution, phasemap, cfg, notes))
+    if effective is not None and schemes.get(phasemap.ndim) is not None:
+        warnings.extend(bounds_warnings(effective, schemes[phasemap.ndim]))
+    shock = _shock(effective, cfg, notes)
+    effective_3d = None
+    if cfg.solve.estimate_3d:
+        effective_3d = clock("estimate_3d", _effective_3d, phasemap, cfg, effective, say,
+                             warnings, notes)
+    by_temperature = ()
+    if cfg.solve.temperatures_C and effective is not None:
+        by_temperature = clock("temperatures", _temperatures, phasemap, cfg, effective, say,
+                               warnings, notes)
+    measured = (_measured(cfg, effective, by_temperature, effective_3d, schemes.get(3))
+                if cfg.measured else ())
+    windows = None
+    if cfg.windows.study:
+        windows = clock("windows", _window_study, phasemap, cfg, effective, say)
 
-    tick = time.perf_counter()
-    measured, correlations = (_particles(phasemap, cfg, say) if phasemap.ndim == 2
-                              else (_volume_particles(phasemap, cfg, say), {}))
-    timings["particles"] = time.perf_counter() - tick
-
-    tick = time.perf_counter()
-    schemes = _schemes(phasemap, fractions, measured, notes)
-    timings["schemes"] = time.perf_counter() - tick
-
-    tick = time.perf_counter()
-    effective = _effective(phasemap, cfg, say, warnings, notes)
-    timings["solve"] = time.perf_counter() - tick
-    if effective is not None and schemes.get("bounds"):
-        warnings.extend(bounds_warnings(effective.block, schemes["bounds"]))
-    shock = _shock(effective.block if effective else None, cfg, notes)
-
-    tick = time.perf_counter()
-    effective_3d = _effective_3d(phasemap, cfg, effective, say, warnings, notes)
-    if effective_3d is not None:
-        timings["estimate_3d"] = time.perf_counter() - tick
+    uncertainty = {}
+    if cfg.uncertainty.budget:
+        uncertainty = clock("uncertainty", _uncertainty, phasemap, cfg, fractions, summaries,
+                            effective, effective_3d, windows, say, warnings)
 
     src = Source(path=micro.path, sha256=micro.sha256, shape=tuple(phasemap.shape),
                  pixel_size_um=micro.pixel_size_um, pixel_size_from=micro.pixel_size_from,
                  cropped_bottom_px=micro.cropped_bottom_px)
+    two_d_section = phasemap.ndim == 2
     result = Result(source=src, phases=fractions, version=__version__,
-                    particles={pp.name: pp.to_dict() for pp in measured} or None,
-                    effective=effective.block if effective else None, shock=shock,
-                    effective_3d=effective_3d,
-                    schemes=schemes.get("schemes"), bounds=schemes.get("bounds"),
-                    schemes_3d=schemes.get("schemes_3d"), bounds_3d=schemes.get("bounds_3d"),
-                    correlation={name: {"correlation_length": c.correlation_length,
-                                        "units": c.units, "fraction": c.fraction}
+                    particles=summaries or None, effective=effective, shock=shock,
+                    effective_3d=effective_3d, effective_by_temperature=by_temperature,
+                    schemes=schemes.get(phasemap.ndim),
+                    schemes_3d=schemes.get(3) if two_d_section else None,
+                    windows=windows,
+                    correlation={name: summarize_correlation(c)
                                  for name, c in correlations.items()} or None,
+                    measured=measured, uncertainty=uncertainty,
                     config_toml=cfg.raw, warnings=tuple(warnings), notes=tuple(notes),
-                    timings_s=timings,
+                    timings_s=clock.timings,
                     created=_dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"))
-    rows = [{"phase": pp.name, **row} for pp in measured
-            for row in (pp.table.rows() if phasemap.ndim == 2 else pp.rows())]
     return Analysis(result=result, phasemap=phasemap, image=micro.data,
-                    thresholds=tuple(thresholds), particle_rows=rows, particles=measured,
-                    correlations=correlations,
-                    field_maps=effective.maps if effective else {})
+                    thresholds=tuple(thresholds), particles=particles,
+                    correlations=correlations, field_maps=solved.maps if solved else {})
 
 
-def _effective_3d(phasemap: PhaseMap, cfg: Config, effective, say: Progress, warnings: list,
-                  notes: list) -> dict | None:
+def _effective_3d(phasemap: PhaseMap, cfg: Config, effective: Effective | None, say: Progress,
+                  warnings: list, notes: list):
     """The 3D estimate from the section's statistics (``[solve] estimate_3d``), or None."""
-    if not cfg.solve.estimate_3d:
-        return None
     if phasemap.ndim == 3:
         notes.append("estimate_3d: the input is a volume, solved in 3D as it is (effective)")
         return None
@@ -150,17 +188,276 @@ def _effective_3d(phasemap: PhaseMap, cfg: Config, effective, say: Progress, war
     try:
         est = estimate_3d(phasemap, cfg.solve.properties, voxels=cfg.solve.voxels,
                           realizations=cfg.solve.realizations, tol=cfg.solve.tolerance,
-                          method=cfg.solve.method,
-                          effective_2d=effective.block if effective else None, progress=say)
+                          method=cfg.solve.method, effective_2d=effective, progress=say)
     except InputError as exc:
         warnings.append(f"3D estimate not built: {exc}")
         return None
     warnings.extend(f"3D estimate: {w}" for w in est.warnings)
-    return est.to_dict()
+    return est.summary()
+
+
+_EFFECTIVE_VALUES = {"conductivity_W_mK": ("conductivity", "mean"),
+                     "youngs_modulus_GPa": ("elasticity", "youngs_modulus"),
+                     "poisson_ratio": ("elasticity", "poisson_ratio"),
+                     "shear_modulus_GPa": ("elasticity", "shear_modulus"),
+                     "bulk_modulus_GPa": ("elasticity", "bulk_modulus"),
+                     "expansion_per_K": ("expansion", "mean")}
+"""Headline column of an effective property → (block, attribute) of `Effective`."""
+
+_SENSITIVITY_NAMES = {"conductivity_W_mK": "conductivity", "youngs_modulus_GPa": "youngs_modulus",
+                      "poisson_ratio": "poisson_ratio", "shear_modulus_GPa": "shear_modulus",
+                      "bulk_modulus_GPa": "bulk_modulus", "expansion_per_K": "expansion"}
+
+
+def _effective_values(effective: Effective | None) -> dict[str, float]:
+    """Headline column → the value of every effective property *effective* holds."""
+    out = {}
+    for key, (block, attr) in _EFFECTIVE_VALUES.items():
+        b = getattr(effective, block) if effective is not None else None
+        if b is not None and value_of(getattr(b, attr)) is not None:
+            out[key] = value_of(getattr(b, attr))
+    return out
+
+
+def _uncertainty(phasemap: PhaseMap, cfg: Config, fractions, summaries, effective,
+                 effective_3d, windows, say: Progress, warnings: list) -> dict:
+    """The error budget of every headline number: sampling (field-to-field interval of the
+    fractions, bootstrap interval of the particle D50), window size (the window study, when
+    it ran), discretization (the map re-solved coarsened by 2 and 4, Richardson), material
+    data (first order, from each phase's share of the stored energy and the stated
+    uncertainties of the phase properties) and 2D versus 3D (when the 3D estimate ran),
+    combined as a root-sum-square (`polisect.trust.budget`). Segmentation is assessed where
+    the phase map reports its uncertainty."""
+    from ..core.quantities import quantity_label
+    from ..trust.budget import error_budget, model_2d_3d_term
+
+    def window(key, value):
+        q = windows.quantities.get(key) if windows is not None else None
+        if q is None or q.supported_error_pct is None:
+            return None
+        return abs(value) * q.supported_error_pct / 100.0
+
+    names = {p.label: p.name for p in phasemap.phases}
+    out = {}
+    for f in fractions:
+        key = fraction_column(f.name)
+        out[key] = error_budget(key, f.fraction, sampling=(f.fraction_ci95[1] - f.fraction_ci95[0])
+                                / 2.0, window=window(key, f.fraction), phase_names=names)
+    for name, s in summaries.items():
+        d50 = getattr(getattr(s, "ecd", None), "d50", None)
+        ci = (getattr(s, "ecd", None) and s.ecd.ci95.get("d50")) or None
+        if d50 is not None:
+            key = f"particles_{name}_ecd_d50"
+            out[key] = error_budget(key, d50, unit=quantity_label(key)[1],
+                                    sampling=(ci[1] - ci[0]) / 2.0 if ci and None not in ci
+                                    else None, phase_names=names)
+    values = _effective_values(effective)
+    if not values:
+        return out
+    discretization = {}
+    if cfg.uncertainty.discretization:
+        say("discretization error: the map re-solved coarsened by 2 and 4")
+        discretization = _discretization(phasemap, cfg, values, warnings)
+    material = {}
+    if cfg.uncertainty.material:
+        say("material data: sensitivity of each property to each phase property")
+        material = _material_terms(phasemap, cfg, warnings)
+    three_d = _effective_values(effective_3d.effective) if effective_3d else {}
+    for key, value in values.items():
+        out[key] = error_budget(
+            key, value, unit=quantity_label(key)[1], window=window(key, value),
+            discretization=discretization.get(key), material=material.get(
+                _SENSITIVITY_NAMES[key]),
+            model_2d_3d=(model_2d_3d_term(value, three_d[key]) if key in three_d else None),
+            phase_names=names)
+    return out
+
+
+def _discretization(phasemap: PhaseMap, cfg: Config, fine: dict, warnings: list) -> dict:
+    """Headline column → `DiscretizationEstimate` of every effective property."""
+    from ..properties.effective import solve_effective
+    from ..trust.discretization import discretization_study
+
+    def evaluate(labels):
+        pm = PhaseMap(np.ascontiguousarray(labels), phasemap.phases, phasemap.voxel_size_um)
+        return _effective_values(solve_effective(
+            pm, cfg.solve.properties, method=cfg.solve.method, tol=cfg.solve.tolerance,
+            plane=cfg.solve.plane, maps=False).effective)
+
+    try:
+        return dict(discretization_study(phasemap.labels, evaluate, fine=fine).estimates)
+    except InputError as exc:
+        warnings.append(f"discretization error not assessed: {exc}")
+        return {}
+
+
+def _material_terms(phasemap: PhaseMap, cfg: Config, warnings: list) -> dict:
+    """Sensitivity name → `MaterialTerm` from the stated uncertainties of the phases."""
+    from ..properties.effective import solver_labels
+    from ..properties.sensitivity import conductivity_sensitivity, elasticity_sensitivity
+    from ..trust.budget import material_terms
+
+    uncertainties = {p.label: dict(p.material.uncertainty) for p in phasemap.phases
+                     if p.material.uncertainty}
+    if not uncertainties:
+        return {}
+    labels, mats = solver_labels(phasemap.labels), phasemap.materials
+    tol = max(cfg.solve.tolerance, 1e-4)   # the shares are energies: quadratic in the error
+    results = []
+    props = cfg.solve.properties
+    try:
+        if "conductivity" in props:
+            results.append(conductivity_sensitivity(labels, mats, tol=tol))
+        if "elasticity" in props or "expansion" in props:
+            plane = cfg.solve.plane if phasemap.ndim == 2 else "generalized-plane-strain"
+            results.append(elasticity_sensitivity(labels, mats, plane=plane, tol=tol,
+                                                  expansion="expansion" in props))
+    except InputError as exc:
+        warnings.append(f"material-data uncertainty not assessed: {exc}")
+        return {}
+    return material_terms(results, uncertainties)
+
+
+RESOLUTION_WARN_SHARE = 0.10
+"""Small particles holding at least this share of their phase's area are a warning (fewer
+are a note: the discretization estimate of the budget carries their effect)."""
+
+
+def _resolution(phasemap: PhaseMap, cfg: Config, notes: list) -> list[str]:
+    """Warnings for particles resolved by too few pixels and for gaps narrower than two
+    pixels between particles that contrast strongly with the matrix (the property that
+    matters: conductivity, else Young's modulus), each with what to do."""
+    from ..trust.resolution import resolution_check
+
+    prop = "conductivity" if "conductivity" in cfg.solve.properties else "youngs_modulus"
+    values = {p.label: getattr(p.material, prop) for p in phasemap.phases}
+    if any(v is None or np.ndim(v) for v in values.values()):
+        values = None
+    check = resolution_check(phasemap.labels, values,
+                             names={p.label: p.name for p in phasemap.phases},
+                             pixel_size_um=phasemap.voxel_size_um)
+    out = []
+    for w in check.warnings:
+        if w.kind == "small-particles" and w.share < RESOLUTION_WARN_SHARE:
+            notes.append(f"resolution: {w.message}")
+        else:
+            out.append(f"{w.message} {w.advice}")
+    return out
+
+
+def _measured(cfg: Config, effective: Effective | None, by_temperature, effective_3d,
+              bounds_3d):
+    """The ``[[measured]]`` values beside the computed ones (at the solved temperatures) and
+    the bounds of the isotropic 3D composite."""
+    from ..trust.measured import ROOM_C, compare_measured
+
+    solved = {ROOM_C: effective} if effective else {}
+    solved.update({t.temperature_C: t.effective for t in by_temperature})
+    return compare_measured(cfg.measured, solved,
+                            effective_3d.effective if effective_3d else None,
+                            dict(bounds_3d.bounds) if bounds_3d else None)
+
+
+def _temperatures(phasemap: PhaseMap, cfg: Config, effective: Effective, say: Progress,
+                  warnings: list, notes: list) -> tuple[AtTemperature, ...]:
+    """The section solved with the phase properties at each of ``[solve] temperatures_C``.
+
+    Every phase is evaluated at the temperature from its tables (`Material.at`); a pore
+    phase conducts the gas at that temperature plus radiation across pores of the pore
+    phase's mean intercept length measured on the image (Loeb 1954, on from
+    `radiation.RADIATION_ON_ABOVE_C`); porosity below the pixel is applied after. A
+    temperature a material has no data for is left out with a warning. At the library's
+    own temperature (20 °C) the analysis's solve is the answer and is not repeated.
+    """
+    from ..properties.effective import solve_effective
+    from ..properties.radiation import RADIATION_ON_ABOVE_C, pore_phase
+    from ..trust.measured import ROOM_C
+
+    pore_size = _pore_sizes(phasemap)
+    out = []
+    for t in cfg.solve.temperatures_C:
+        if abs(t - ROOM_C) < 1e-9:
+            out.append(AtTemperature(t, effective, _shock(effective, cfg, [])
+                                     if cfg.service.strength_MPa else None))
+            continue
+        say(f"solving at {t:g} °C")
+        try:
+            phases = []
+            for p in phasemap.phases:
+                pc = cfg.phase(p.label)
+                base = pc.material if pc is not None else p.material
+                if base.is_pore and base.name == "air":
+                    hot = pore_phase(t, pore_size.get(p.label, 0.0),
+                                     radiation=None if pore_size.get(p.label) else False)
+                else:
+                    hot = base.at(t, _needed(cfg.solve.properties))
+                phases.append(Phase(p.label, p.name, hot if pc is None
+                                    else _with_porosity(pc, hot), p.particles))
+        except InputError as exc:
+            warnings.append(f"not solved at {t:g} °C: {exc}")
+            continue
+        pm = PhaseMap(phasemap.labels, tuple(phases), phasemap.voxel_size_um)
+        solved = solve_effective(pm, cfg.solve.properties, method=cfg.solve.method,
+                                 tol=cfg.solve.tolerance, plane=cfg.solve.plane, maps=False)
+        warnings.extend(f"at {t:g} °C: {w}" for w in solved.warnings)
+        warnings.extend(f"at {t:g} °C: effective properties refused: {why}"
+                        for why in solved.refused)
+        out.append(AtTemperature(t, solved.effective,
+                                 _shock(solved.effective, cfg, []) if cfg.service.strength_MPa
+                                 else None))
+    if any(t >= RADIATION_ON_ABOVE_C for t in cfg.solve.temperatures_C) and pore_size:
+        sizes = ", ".join(f"{phasemap.phase(k).name} {v:.3g} µm" for k, v in pore_size.items())
+        notes.append(f"temperatures: radiation across pores from {RADIATION_ON_ABOVE_C:g} °C "
+                     f"(Loeb 1954), pore size = mean intercept length on the image ({sizes})")
+    return tuple(out)
+
+
+def _needed(properties) -> tuple[str, ...]:
+    """The material properties the solves of *properties* need."""
+    need = {"conductivity": ("conductivity",),
+            "elasticity": ("youngs_modulus", "poisson_ratio"),
+            "expansion": ("youngs_modulus", "poisson_ratio", "expansion")}
+    return tuple(dict.fromkeys(p for prop in properties for p in need[prop]))
+
+
+def _pore_sizes(phasemap: PhaseMap) -> dict[int, float]:
+    """Label → mean intercept length (µm) of every gas-filled pore phase, for radiation; empty
+    when the pixel size is unknown (no radiation then)."""
+    from ..measure.stereology import boundary_densities, spacing
+
+    if not phasemap.voxel_size_um:
+        return {}
+    out = {}
+    for p in phasemap.phases:
+        mask = phasemap.labels == p.label
+        if p.material.is_pore and mask.any():
+            length = spacing(boundary_densities(mask, None, phasemap.voxel_size_um)).mean_intercept
+            if np.isfinite(length):
+                out[p.label] = float(length)
+    return out
+
+
+def _window_study(phasemap: PhaseMap, cfg: Config, effective: Effective | None, say: Progress):
+    """The window-size study (``[windows] study``): the effective properties the analysis
+    computed are studied per window with its solver settings; with periodic edges the
+    analysis's own whole-image values stand for the largest window."""
+    from ..trust.windows import window_study
+
+    props = tuple(p for p in cfg.solve.properties
+                  if effective is not None and getattr(effective, p) is not None)
+    attrs = {"conductivity": "mean", "elasticity": "youngs_modulus", "expansion": "mean"}
+    whole = {SOLVED_COLUMNS[p]: value_of(getattr(getattr(effective, p), attrs[p]))
+             for p in props}
+    study = window_study(phasemap, props, method=cfg.solve.method, tol=cfg.solve.tolerance,
+                         plane=cfg.solve.plane, edges=cfg.windows.edges,
+                         target_error=cfg.windows.target_error, progress=say,
+                         whole=whole if len(whole) == len(props) else None)
+    return study.summary()
 
 
 def _effective(phasemap: PhaseMap, cfg: Config, say: Progress, warnings: list, notes: list):
-    """The solvers' block, or None (with a note) when the materials do not allow it."""
+    """The solved effective properties, or None (with a note) when the materials do not
+    allow them."""
     from ..properties.effective import solve_effective
 
     props = cfg.solve.properties
@@ -170,55 +467,62 @@ def _effective(phasemap: PhaseMap, cfg: Config, say: Progress, warnings: list, n
         notes.append("no materials assigned to the phases: effective properties not computed "
                      "(give [[phase]] entries or --assign)")
         return None
-    eff = solve_effective(phasemap, props, method=cfg.solve.method, tol=cfg.solve.tolerance,
-                          plane=cfg.solve.plane, maps=cfg.solve.fields, progress=say)
-    warnings.extend(eff.warnings)
-    return eff
+    solved = solve_effective(phasemap, props, method=cfg.solve.method, tol=cfg.solve.tolerance,
+                             plane=cfg.solve.plane, maps=cfg.solve.fields, progress=say)
+    warnings.extend(solved.warnings)
+    warnings.extend(f"effective properties refused: {why}" for why in solved.refused)
+    return solved
 
 
-def _shock(block: dict | None, cfg: Config, notes: list) -> dict | None:
+def _shock(effective: Effective | None, cfg: Config, notes: list) -> ShockIndices | None:
     """Hasselman's thermal-shock indices from the computed effective properties."""
     from ..properties.shock import thermal_shock_indices
 
     svc = cfg.service
     if svc.strength_MPa is None:
         return None
-    el = (block or {}).get("elasticity")
-    ex = (block or {}).get("expansion")
-    if not el or not ex:
+    el = effective.elasticity if effective else None
+    ex = effective.expansion if effective else None
+    if el is None or ex is None:
         notes.append("[service] strength given, but thermal-shock indices need the computed "
                      "elasticity and expansion: add both to [solve] properties")
         return None
-    k = ((block.get("conductivity") or {}).get("mean_W_mK"))
-    ind = thermal_shock_indices(el["youngs_modulus_GPa"], el["poisson_ratio"], ex["mean_per_K"],
-                                k, svc.strength_MPa, svc.fracture_energy_J_m2)
-    return {**ind.to_dict(), "model": block["model"]}
+    k = value_of(effective.conductivity.mean) if effective.conductivity else None
+    ind = thermal_shock_indices(value_of(el.youngs_modulus), value_of(el.poisson_ratio),
+                                value_of(ex.mean), k, svc.strength_MPa,
+                                svc.fracture_energy_J_m2)
+    return ShockIndices(ind.R, ind.R_prime, ind.R_4prime, ind.caution, effective.model)
 
 
 ISOTROPIC_LOOKING = 0.05
 
 
-def bounds_warnings(block: dict, bounds: dict, tol: float = 0.01) -> list[str]:
+def bounds_warnings(effective: Effective, table: SchemeTable, tol: float = 0.01) -> list[str]:
     """Warnings for computed values of an isotropic-looking structure outside the bounds.
 
     A value outside the Hashin–Shtrikman bounds by more than *tol* (relative) means the
-    structure is not isotropic, the image is too small, or the phase map is wrong.
+    structure is not isotropic, the image is too small, or the phase map is wrong. For a 2D
+    section the moduli compared are those the 2D schemes give (``scheme_comparable``).
     """
     from ..properties.schemes import place
 
     out = []
-    checks = [("conductivity", "conductivity_W_mK", "mean_W_mK", "conductivity"),
-              ("elasticity", "bulk_modulus_GPa", "bulk_modulus_GPa", "bulk modulus"),
-              ("elasticity", "shear_modulus_GPa", "shear_modulus_GPa", "shear modulus")]
-    for prop, bkey, vkey, label in checks:
-        res = block.get(prop)
-        if not res or (res.get("anisotropy") or 0) > ISOTROPIC_LOOKING:
+    c, el = effective.conductivity, effective.elasticity
+    checks = []
+    if c is not None:
+        checks.append((c.anisotropy, "conductivity", value_of(c.mean), "conductivity"))
+    if el is not None:
+        comp = el.scheme_comparable
+        bulk = comp.bulk_modulus if comp is not None else value_of(el.bulk_modulus)
+        shear = comp.shear_modulus if comp is not None else value_of(el.shear_modulus)
+        checks += [(el.anisotropy, "bulk_modulus", bulk, "bulk modulus"),
+                   (el.anisotropy, "shear_modulus", shear, "shear modulus")]
+    for anisotropy, prop, value, label in checks:
+        b = table.bounds.get(prop)
+        if (anisotropy or 0) > ISOTROPIC_LOOKING or value is None or b is None \
+                or b.lower is None or b.upper is None:
             continue
-        src = res.get("scheme_comparable", res)
-        value, b = src.get(vkey), bounds.get(bkey) or {}
-        if value is None or b.get("lower") is None or b.get("upper") is None:
-            continue
-        warning = place(value, b["lower"], b["upper"], tol).warning(label)
+        warning = place(value, b.lower, b.upper, tol).warning(label)
         if warning:
             out.append(warning)
     return out
@@ -238,19 +542,21 @@ def _fractions(phasemap: PhaseMap, cfg: Config) -> tuple[PhaseFraction, ...]:
     for p in phases:
         est = estimates[p.label]
         out.append(PhaseFraction(
-            label=p.label, name=p.name, material=p.material.to_dict(), fraction=est.mean,
+            label=p.label, name=p.name, material=p.material, fraction=est.mean,
             fraction_ci95=(max(0.0, est.mean - est.ci95), min(1.0, est.mean + est.ci95)),
-            relative_accuracy_pct=est.to_dict()["relative_accuracy_pct"], fields=est.n_fields,
+            relative_accuracy_pct=(est.relative_accuracy_pct
+                                   if np.isfinite(est.relative_accuracy_pct) else None),
+            fields=est.n_fields,
             inside_particles=inside.get(p.label) if hosts else None))
     return tuple(out)
 
 
-def _schemes(phasemap: PhaseMap, fractions, measured, notes: list) -> dict:
+def _schemes(phasemap: PhaseMap, fractions, summaries: dict, notes: list) -> dict:
     """Bounds and mean-field estimates for the measured fractions.
 
-    ``schemes``/``bounds`` match the model the solvers use (2D: circular cylinders in the
-    transverse plane, the prismatic structure of a solved section; 3D: spheres); for a 2D
-    section ``schemes_3d``/``bounds_3d`` add the spherical-particle composite. A particle
+    Returns ``{dimension: SchemeTable}``: the table of the model the solvers use (2D:
+    circular cylinders in the transverse plane, the prismatic structure of a solved section;
+    3D: spheres) and, for a 2D section, the spherical-particle composite (3). A particle
     phase whose particles are mostly hollow is treated as hollow spheres (cylinders), the
     pores inside it counted in its envelope. The core's share of the envelope is the
     measured one (area fractions, equal to volume fractions by Delesse's principle), so the
@@ -266,18 +572,17 @@ def _schemes(phasemap: PhaseMap, fractions, measured, notes: list) -> dict:
         return {}
     frac = {f.name: f.fraction for f in fractions}
     core_share = {}
-    for pp in measured:
-        d = pp.to_dict()
-        ratio = d.get("inner_outer_ratio_mean")
-        if (d.get("hollow_fraction") or 0) >= 0.5 and ratio:
-            core = _enclosed_by(phasemap, pp.label)
+    for host, summary in summaries.items():
+        ratio = summary.inner_outer_ratio_mean
+        if (summary.hollow_fraction or 0) >= 0.5 and ratio:
+            core = _enclosed_by(phasemap, summary.label)
             if core is not None:
                 name, f_core = core
-                frac[pp.name] += f_core
+                frac[host] += f_core
                 frac[name] = max(0.0, frac[name] - f_core)
-                core_share[pp.name] = f_core / frac[pp.name]
-                notes.append(f"schemes: {pp.name} treated as hollow particles; the {name} "
-                             f"inside them is their core, {core_share[pp.name]:.3g} of the "
+                core_share[host] = f_core / frac[host]
+                notes.append(f"schemes: {host} treated as hollow particles; the {name} "
+                             f"inside them is their core, {core_share[host]:.3g} of the "
                              f"envelope (measured; particles' mean inner/outer diameter "
                              f"{ratio:.3g})")
     phases = [(n, mats[n], f) for n, f in frac.items() if f > 0]
@@ -285,11 +590,9 @@ def _schemes(phasemap: PhaseMap, fractions, measured, notes: list) -> dict:
     dims = (2, 3) if phasemap.ndim == 2 else (3,)
     for dim in dims:
         hollow = {n: share ** (1.0 / dim) for n, share in core_share.items()}
-        res = evaluate(phases, dim=dim, hollow=hollow).to_dict()
-        suffix = "_3d" if (dim == 3 and phasemap.ndim == 2) else ""
-        out["schemes" + suffix] = res["schemes"]
-        out["bounds" + suffix] = res["bounds"]
-        notes.extend(f"schemes ({dim}D): {n}" for n in res["notes"])
+        res = evaluate(phases, dim=dim, hollow=hollow)
+        out[dim] = SchemeTable(dict(res.schemes), dict(res.bounds))
+        notes.extend(f"schemes ({dim}D): {n}" for n in res.notes)
     return out
 
 
@@ -303,35 +606,32 @@ def _enclosed_by(phasemap: PhaseMap, host: int):
     return best
 
 
-def _volume_particles(phasemap: PhaseMap, cfg: Config, say: Progress) -> tuple:
-    """True 3D particle statistics of every particle phase of a volume."""
-    from ..measure.particles3d import volume_particles
-
-    out = []
-    for p in particle_phases(phasemap):
-        say(f"measuring particles of {p.name} in 3D")
-        pc = cfg.phase(p.label)
-        out.append(volume_particles(phasemap, p.label,
-                                    split_touching=bool(pc and pc.split_touching)))
-    return tuple(out)
-
-
 def _particles(phasemap: PhaseMap, cfg: Config, say: Progress):
-    """Particle statistics of every particle phase, and S2 of every phase."""
+    """Particle statistics of every particle phase (true 3D statistics for a volume), their
+    summaries by phase name, and the two-point correlation of every phase (sections)."""
+    from ..measure.particles3d import volume_particles
     from ..measure.stereology import two_point_correlation
 
     measured = []
     for p in particle_phases(phasemap):
-        say(f"measuring particles of {p.name}")
         pc = cfg.phase(p.label)
-        measured.append(phase_particles(phasemap, p.label,
-                                        split_touching=bool(pc and pc.split_touching)))
+        split = bool(pc and pc.split_touching)
+        if phasemap.ndim == 2:
+            say(f"measuring particles of {p.name}")
+            measured.append(phase_particles(phasemap, p.label, split_touching=split))
+        else:
+            say(f"measuring particles of {p.name} in 3D")
+            measured.append(volume_particles(phasemap, p.label, split_touching=split))
+    summaries = {pp.name: (summarize_particles(pp) if phasemap.ndim == 2
+                           else summarize_volume_particles(pp)) for pp in measured}
+    if phasemap.ndim != 2:
+        return tuple(measured), summaries, {}
     say("two-point correlation")
     r_max = max(4, min(phasemap.shape) // 4)
     correlations = {p.name: two_point_correlation(phasemap.labels == p.label, r_max=r_max,
                                                   voxel_size_um=phasemap.voxel_size_um)
                     for p in phasemap.phases}
-    return tuple(measured), correlations
+    return tuple(measured), summaries, correlations
 
 
 def _micrograph(source, cfg: Config, pixel_size_um: float | None) -> Micrograph:
@@ -355,6 +655,15 @@ def _micrograph(source, cfg: Config, pixel_size_um: float | None) -> Micrograph:
     return check_slice_spacing(micro, cfg.image.slice_spacing_um) if micro.is_volume else micro
 
 
+def _phasemap(micro: Micrograph, cfg: Config) -> tuple[PhaseMap, tuple, list, list]:
+    """The phase map of a micrograph, the thresholds used, the segmentation's notes and its
+    warnings (what a user must know before trusting the phase map)."""
+    labels, thresholds, notes, warnings = _labels(micro, cfg)
+    phasemap = PhaseMap(labels.astype(np.int32, copy=False), _phase_table(labels, cfg),
+                        micro.pixel_size_um)
+    return phasemap, thresholds, notes, warnings
+
+
 def _labels(micro: Micrograph, cfg: Config):
     from ..segment import thresholds as segment
 
@@ -370,11 +679,11 @@ def _labels(micro: Micrograph, cfg: Config):
                 raise InputError(f"{micro.path or 'image'}: [image] kind = \"labels\" needs "
                                  "integer labels; this image has fractional values")
             data = data.astype(np.int64)
-        return data, (), ["labels used as given"]
+        return data, (), ["labels used as given"], []
     if kind == "palette":
         res = segment.segment_palette(data, {p.label: p.color for p in cfg.phases},
                                       tolerance=cfg.segment.color_tolerance)
-        return res.labels, (), list(res.notes)
+        return res.labels, (), list(res.notes), []
     grey = to_grayscale(data) if micro.is_rgb else data
     seg = cfg.segment
     classes = seg.classes
@@ -387,10 +696,21 @@ def _labels(micro: Micrograph, cfg: Config):
             classes = segment.suggest_classes(grey)
             notes.append(f"classes = {classes} suggested from the histogram; set [segment] "
                          "classes or --classes to choose")
+    warnings = check_grey_range(cfg, float(np.min(grey)), float(np.max(grey)))
     res = segment.segment_grayscale(grey, method=seg.method, classes=classes,
                                     thresholds=seg.thresholds, denoise=seg.denoise,
                                     denoise_px=seg.denoise_px, min_feature_px=seg.min_feature_px)
-    return res.labels, tuple(res.thresholds), notes + list(res.notes)
+    return res.labels, tuple(res.thresholds), notes + list(res.notes), warnings
+
+
+def _with_porosity(pc, material: Material, pore_conductivity: float | None = None) -> Material:
+    """A phase's material with its ``porosity`` below the pixel size (`porous`), or as it is."""
+    if not pc.porosity:
+        return material
+    from ..properties.porous import porous
+
+    return porous(material, pc.porosity, pore_shape=pc.pore_shape,
+                  aspect_ratio=pc.pore_aspect_ratio, pore_conductivity=pore_conductivity)
 
 
 def _phase_table(labels: np.ndarray, cfg: Config) -> tuple[Phase, ...]:
@@ -402,70 +722,9 @@ def _phase_table(labels: np.ndarray, cfg: Config) -> tuple[Phase, ...]:
             raise InputError(f"the phase map holds labels {missing} that no [[phase]] entry "
                              f"describes (configured labels: {sorted(known)}); add a "
                              "[[phase]] for each, or change [segment] classes")
-        return tuple(Phase(p.label, p.name, p.material, p.particles) for p in cfg.phases)
+        return tuple(Phase(p.label, p.name, _with_porosity(p, p.material), p.particles)
+                     for p in cfg.phases)
     return tuple(Phase(v, f"phase-{v}", Material(name=f"phase-{v}", source="no material given"))
                  for v in present)
 
 
-@dataclass(frozen=True)
-class Outputs:
-    """Paths of the files `write_outputs` wrote."""
-
-    json: str
-    csv: str
-    report: str
-    phasemap: str
-    overlay: str
-    particles_csv: str | None = None
-
-
-def write_outputs(analysis: Analysis, out_dir: str | os.PathLike, *, stem: str | None = None,
-                  config: Config | None = None) -> Outputs:
-    """Write the JSON, the headline CSV, the label TIFF, the overlay PNG and the HTML report.
-
-    Every file is written atomically: an interrupted run leaves no half-written output.
-    """
-    from ..present import report
-    from ..core.atomic import atomic_write
-    from .results import write_csv, write_json
-
-    out_dir = os.fspath(out_dir)
-    os.makedirs(out_dir, exist_ok=True)
-    res = analysis.result
-    stem = stem or _stem(res.source.path)
-    base = os.path.join(out_dir, stem)
-    given = {p.label: p.color for p in config.phases} if config else {}
-    colors = report.phase_colors(analysis.phasemap.phases, given)
-    paths = Outputs(json=base + ".json", csv=base + ".csv", report=base + "_report.html",
-                    phasemap=base + "_phases.tif", overlay=base + "_overlay.png",
-                    particles_csv=base + "_particles.csv" if analysis.particle_rows else None)
-    analysis.phasemap.save(paths.phasemap)
-    atomic_write(paths.overlay, lambda tmp: _save_overlay(tmp, analysis, colors))
-    if paths.particles_csv:
-        write_csv(analysis.particle_rows, paths.particles_csv)
-    write_csv([res.headline()], paths.csv)
-    report.write_report(analysis, paths.report, colors)
-    write_json(res, paths.json)
-    return paths
-
-
-def _stem(path: str | None) -> str:
-    if not path:
-        return "section"
-    return os.path.splitext(os.path.basename(path))[0]
-
-
-def _save_overlay(tmp: str, analysis: Analysis, colors: dict[int, str]) -> None:
-    import imageio.v3 as iio
-    from matplotlib.colors import to_rgb
-
-    pm = analysis.phasemap
-    labels = pm.labels if pm.ndim == 2 else pm.labels[pm.shape[0] // 2]
-    rgb = np.zeros(labels.shape + (3,), dtype=np.float32)
-    for label, color in colors.items():
-        rgb[labels == label] = to_rgb(color)
-    img = analysis.image
-    if img is not None and img.ndim == 2 and img.shape == labels.shape:
-        g = (img - img.min()) / max(float(np.ptp(img)), 1e-12)
-        rgb = 0.45 * g[..., None] + 0.55 * rgb
-    iio.imwrite(tmp, (np.clip(rgb, 0, 1) * 255).astype(np.uint8), extension=".png")

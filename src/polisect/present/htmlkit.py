@@ -1,8 +1,9 @@
 """HTML and figure helpers shared by the section report, the batch index and the comparison page.
 
 The pages are self-contained: one style sheet (`CSS`) inlined, figures embedded as PNG
-``data:`` URIs (`figure_png`). Figures are drawn on matplotlib's Agg backend, chosen here
-before pyplot is loaded, so that reports render without a display.
+``data:`` URIs (`figure_png`). Figures are `matplotlib.figure.Figure` objects rendered
+without pyplot, so drawing a report needs no display and never changes the caller's
+matplotlib backend.
 
 Examples
 --------
@@ -18,10 +19,7 @@ import base64
 import html
 import io
 
-import matplotlib
-
-matplotlib.use("Agg")
-import matplotlib.pyplot as plt  # noqa: E402
+from matplotlib.figure import Figure
 
 CAUTION = (
     "These numbers are estimates computed from one image of one section. They are meant for "
@@ -37,6 +35,17 @@ CAUTION_SECTION = (f'<section class="caution"><strong>Caution.</strong> {html.es
 PALETTE = ("#20304f", "#e0a030", "#3f9e74", "#c8553d", "#7b68b5", "#4fb0c6", "#d98cb3",
            "#8c8c6a")
 """Colours of phases and batches, in order."""
+
+
+STANDALONE_CSP = ("default-src 'none'; img-src data:; style-src 'unsafe-inline'; "
+                  "base-uri 'none'; form-action 'none'")
+"""Content-Security-Policy of every page written to disk: no script runs, nothing loads
+from elsewhere, even if a user's string slipped through unescaped."""
+
+
+def csp_meta(policy: str = STANDALONE_CSP) -> str:
+    """The ``<meta http-equiv>`` element that carries *policy* in a written page."""
+    return f'<meta http-equiv="Content-Security-Policy" content="{html.escape(policy)}">'
 
 
 def page(title: str, meta: str, body: str) -> str:
@@ -56,8 +65,9 @@ def page(title: str, meta: str, body: str) -> str:
     str
     """
     t = html.escape(title)
-    return (f'<!DOCTYPE html>\n<html lang="en"><head><meta charset="utf-8"><title>{t}</title>'
-            f'<meta name="viewport" content="width=device-width, initial-scale=1">'
+    return (f'<!DOCTYPE html>\n<html lang="en"><head><meta charset="utf-8">{csp_meta()}'
+            f'<title>{t}</title><meta name="viewport" content="width=device-width, '
+            'initial-scale=1">'
             f"<style>{CSS}</style></head><body><header><h1>{t}</h1>"
             f'<p class="meta">{meta}</p></header><main>{body}</main></body></html>\n')
 
@@ -91,16 +101,16 @@ def grid(head, rows, raw: bool = False) -> str:
     return f'<table class="grid"><thead><tr>{h}</tr></thead><tbody>{b}</tbody></table>'
 
 
-def new_axes(figsize: tuple[float, float]):
-    """A figure with one axes (on the Agg backend), to be turned into a URI by `figure_png`."""
-    return plt.subplots(figsize=figsize)
+def new_axes(figsize: tuple[float, float], nrows: int = 1, ncols: int = 1, **kwargs):
+    """A figure and its axes (``Figure.subplots``), to be turned into a URI by `figure_png`."""
+    fig = Figure(figsize=figsize)
+    return fig, fig.subplots(nrows, ncols, **kwargs)
 
 
 def figure_png(fig) -> str:
     """A matplotlib figure as a ``data:`` URI (and close it)."""
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=110, bbox_inches="tight")
-    plt.close(fig)
     return "data:image/png;base64," + base64.b64encode(buf.getvalue()).decode("ascii")
 
 

@@ -1,4 +1,4 @@
-"""The ``effective`` block of a result: the solvers run on a `PhaseMap`.
+"""Effective properties of a `PhaseMap`: the solvers run and their results as `Effective`.
 
 The solvers take arrays indexed (x, y[, z]); an image is indexed (row = y, column = x),
 so the labels are transposed on the way in and the field maps on the way out. Every
@@ -15,7 +15,10 @@ import numpy as np
 
 from ..core import tensors
 from ..core.phasemap import PhaseMap
-from .solve import conductivity, elasticity, expansion
+from .sanity import check_result, fractions_of, refusals
+from .records import (AxialModuli, ComparableModuli, Conductivity, Effective, Elasticity,
+                      Expansion, Solver)
+from .solve import SolverFacts, conductivity, elasticity, expansion
 
 PLANE_WORDS = {
     "generalized-plane-strain": "generalized plane strain (free uniform axial strain, zero "
@@ -31,20 +34,39 @@ PRISMATIC_NOTE = (
 )
 
 
-@dataclass(frozen=True, eq=False)
-class Effective:
-    """The JSON block, the warnings it raised, and per-pixel maps for the report."""
+AXES_2D = "x = image columns (left to right), y = image rows (top to bottom)"
 
-    block: dict
+
+@dataclass(frozen=True, eq=False)
+class Solved:
+    """The effective properties, the warnings the solves raised, per-pixel maps for the
+    report (image-indexed arrays), and why a physically meaningless result was refused
+    (`polisect.properties.sanity`; the refused property is left out of ``effective``)."""
+
+    effective: Effective
     warnings: tuple[str, ...] = ()
     maps: dict = field(default_factory=dict)
+    refused: tuple[str, ...] = ()
+
+
+def solver_record(facts: SolverFacts) -> Solver:
+    """The `Solver` record of a solve: seconds to 0.1 ms, residuals to four digits."""
+    return Solver(facts.method, facts.iterations, round(facts.seconds, 4), facts.tolerance,
+                  facts.converged,
+                  tuple(tuple(float(f"{v:.3e}") for v in r) for r in facts.residuals))
+
+
+def model_words(ndim: int, plane: str) -> str:
+    """Which model the numbers of a solved `PhaseMap` describe."""
+    return (f"2D section as a prismatic structure, {PLANE_WORDS[plane]}" if ndim == 2
+            else "3D volume")
 
 
 def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
                     tol: float = 1e-6, plane: str = "generalized-plane-strain",
                     maps: bool = True, progress: Callable[[str], None] | None = None
-                    ) -> Effective:
-    """Run the solvers asked for and build the ``effective`` block.
+                    ) -> Solved:
+    """Run the solvers asked for on a phase map.
 
     Parameters
     ----------
@@ -61,29 +83,33 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
 
     Returns
     -------
-    Effective
+    Solved
     """
     say = progress or (lambda msg: None)
     props = tuple(properties)
     two_d = phasemap.ndim == 2
-    labels = np.ascontiguousarray(phasemap.labels.T)
+    labels = solver_labels(phasemap.labels)
     mats = phasemap.materials
     warnings: list[str] = []
+    refused: list[str] = []
     out_maps: dict[str, np.ndarray] = {}
-    block: dict = {"dimension": phasemap.ndim, "plane": plane if two_d else None,
-                   "model": (f"2D section as a prismatic structure, {PLANE_WORDS[plane]}"
-                             if two_d else "3D volume"),
-                   "note": PRISMATIC_NOTE if two_d else None,
-                   "axes": "x = image columns (left to right), y = image rows (top to "
-                           "bottom)" + ("" if two_d else ", z = slices"),
-                   "conductivity": None, "elasticity": None, "expansion": None}
+    c_rec = e_rec = x_rec = None
+    fractions = fractions_of(labels)
+
+    def sane(result) -> bool:
+        """Warnings of the sanity checks kept; False when the result must be refused."""
+        findings = check_result(result, mats, fractions)
+        warnings.extend(f.message for f in findings if f.level != "refuse")
+        refused.extend(refusals(findings))
+        return not refusals(findings)
+
     if "conductivity" in props:
         say("solving for the effective conductivity")
         c = conductivity(labels, mats, method=method, tol=tol, fields=maps)
-        block["conductivity"] = {"tensor_W_mK": c.tensor, "mean_W_mK": c.mean(),
-                                 "anisotropy": c.anisotropy(), "solver": c.facts.to_dict()}
         _converged(c, "conductivity", warnings)
-        if maps and c.fields is not None:
+        if sane(c):
+            c_rec = Conductivity(c.tensor, c.mean(), c.anisotropy(), solver_record(c.facts))
+        if c_rec is not None and maps and c.fields is not None:
             out_maps["heat_flux"] = _image_plane(c.fields.flux_magnitude("x"))
     stiff = None
     if "elasticity" in props or "expansion" in props:
@@ -91,21 +117,31 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
         stiff = elasticity(labels, mats, plane=plane, method=method, tol=tol,
                            fields=maps and "elasticity" in props)
         _converged(stiff, "elasticity", warnings)
-    if "elasticity" in props:
-        block["elasticity"] = _elastic_block(stiff, two_d)
+    stiff_ok = stiff is not None and sane(stiff)
+    if "elasticity" in props and stiff_ok:
+        e_rec = _elasticity(stiff, two_d)
         if maps and stiff.fields is not None:
             out_maps["von_mises"] = _image_plane(stiff.fields.von_mises_uniaxial("x"))
-    if "expansion" in props:
+    x = None
+    if "expansion" in props and stiff_ok:
         say("solving for the effective thermal expansion")
         x = expansion(labels, mats, plane=plane, method=method, tol=tol, stiffness=stiff)
         _converged(x, "expansion", warnings)
-        block["expansion"] = {"tensor_per_K": x.tensor, "mean_per_K": x.mean(),
-                              "axial_per_K": x.axial, "anisotropy": x.anisotropy(),
-                              "solver": x.facts.to_dict()}
-        if two_d:
-            block["expansion"]["scheme_comparable"] = {
-                "mean_per_K": x.mean() if plane == "generalized-plane-strain" else None}
-    return Effective(block=block, warnings=tuple(warnings), maps=out_maps)
+    if x is not None and sane(x):
+        x_rec = Expansion(x.tensor, x.mean(), x.axial, x.anisotropy(), solver_record(x.facts),
+                          has_comparable=two_d,
+                          comparable_mean=(x.mean() if two_d and plane == "generalized-plane-strain"
+                                           else None))
+    effective = Effective(phasemap.ndim, plane if two_d else None,
+                          model_words(phasemap.ndim, plane), PRISMATIC_NOTE if two_d else None,
+                          AXES_2D if two_d else AXES_2D + ", z = slices", c_rec, e_rec, x_rec)
+    return Solved(effective, tuple(warnings), out_maps, tuple(refused))
+
+
+def solver_labels(labels: np.ndarray) -> np.ndarray:
+    """Image-indexed labels (row = y, column = x[, slice = z]) as the solvers take them,
+    indexed (x, y[, z])."""
+    return np.ascontiguousarray(np.asarray(labels).T)
 
 
 def _image_plane(values: np.ndarray) -> np.ndarray:
@@ -115,33 +151,25 @@ def _image_plane(values: np.ndarray) -> np.ndarray:
     return image if image.ndim == 2 else image[image.shape[0] // 2]
 
 
-def _elastic_block(e, two_d: bool) -> dict:
+def _elasticity(e, two_d: bool) -> Elasticity:
     iso = e.isotropic()
-    out = {"stiffness_GPa": e.stiffness, "youngs_modulus_GPa": iso.youngs_modulus,
-           "poisson_ratio": iso.poisson_ratio, "bulk_modulus_GPa": iso.bulk_modulus,
-           "shear_modulus_GPa": iso.shear_modulus, "anisotropy": e.anisotropy(),
-           "plane": e.plane, "solver": e.facts.to_dict()}
-    if two_d:
-        out["bulk_modulus_meaning"] = "in-plane (areal) bulk modulus of the stiffness shown"
+    prismatic = axial = comparable = None
     if e.prismatic_stiffness is not None:
-        P = np.asarray(e.prismatic_stiffness)
-        axial = e.axial_moduli()
-        out["prismatic_stiffness_GPa"] = P
-        out["axial"] = {"youngs_modulus_GPa": axial["youngs_modulus"],
-                        "poisson_ratio": axial["poisson_ratio"],
-                        "shear_modulus_GPa": axial["shear_modulus"]}
-        k_t, g_t = tensors.isotropic_projection(P[np.ix_([0, 1, 5], [0, 1, 5])])
-        out["scheme_comparable"] = {
-            "bulk_modulus_GPa": k_t, "shear_modulus_GPa": g_t,
-            "youngs_modulus_GPa": iso.youngs_modulus, "poisson_ratio": iso.poisson_ratio,
-            "meaning": "transverse plane-strain bulk modulus k_T, transverse shear G_T, and "
-                       "E_T, ν_TT of the free prism: the quantities the 2D (cylinder) schemes "
-                       "give"}
+        prismatic = np.asarray(e.prismatic_stiffness)
+        a = e.axial_moduli()
+        axial = AxialModuli(a["youngs_modulus"], a["poisson_ratio"], a["shear_modulus"])
+        k_t, g_t = tensors.isotropic_projection(prismatic[np.ix_([0, 1, 5], [0, 1, 5])])
+        comparable = ComparableModuli(
+            k_t, g_t, iso.youngs_modulus, iso.poisson_ratio,
+            "transverse plane-strain bulk modulus k_T, transverse shear G_T, and E_T, ν_TT of "
+            "the free prism: the quantities the 2D (cylinder) schemes give")
     elif two_d:
-        out["scheme_comparable"] = ({"bulk_modulus_GPa": iso.bulk_modulus,
-                                     "shear_modulus_GPa": iso.shear_modulus}
-                                    if e.plane == "plane-strain" else {})
-    return out
+        comparable = (ComparableModuli(iso.bulk_modulus, iso.shear_modulus)
+                      if e.plane == "plane-strain" else ComparableModuli())
+    return Elasticity(e.stiffness, iso.youngs_modulus, iso.poisson_ratio, iso.bulk_modulus,
+                      iso.shear_modulus, e.anisotropy(), e.plane, solver_record(e.facts),
+                      "in-plane (areal) bulk modulus of the stiffness shown" if two_d else None,
+                      prismatic, axial, comparable)
 
 
 def _converged(res, what: str, warnings: list) -> None:

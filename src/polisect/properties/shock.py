@@ -39,14 +39,6 @@ class ThermalShockIndices:
     R_4prime: float | None
     caution: str = CAUTION
 
-    def to_dict(self) -> dict:
-        """JSON form with units in the keys, labels and the caution."""
-        return {"R_K": self.R, "R_prime_W_m": self.R_prime, "R_4prime_m": self.R_4prime,
-                "labels": {"R_K": "crack initiation, severe shock (comparative index)",
-                           "R_prime_W_m": "crack initiation, mild shock (comparative index)",
-                           "R_4prime_m": "resistance to crack propagation (comparative index)"},
-                "caution": self.caution}
-
     def format(self) -> str:
         """Plain-text lines for the terminal or a report."""
         def show(value, unit):
@@ -136,3 +128,20 @@ def thermal_shock_indices(E_GPa: float, nu: float, alpha: float, k: float | None
         gamma = _positive(fracture_energy_J_m2, "fracture energy", "J/m²")
         R4 = E * gamma / (sigma ** 2 * (1.0 - nu))
     return ThermalShockIndices(R, R_prime, R4)
+
+
+INDEX_WORDS = {"R": "crack initiation, severe shock (comparative index)",
+               "R_prime": "crack initiation, mild shock (comparative index)",
+               "R_4prime": "resistance to crack propagation (comparative index)"}
+"""What each index ranks."""
+
+
+@dataclass(frozen=True)
+class ShockIndices:
+    """Hasselman's thermal-shock indices from the computed effective properties."""
+
+    R: float
+    R_prime: float | None
+    R_4prime: float | None
+    caution: str
+    model: str

@@ -17,25 +17,22 @@ Examples
 from __future__ import annotations
 
 import dataclasses
+import math
 import difflib
 import os
 import re
 from dataclasses import dataclass, field
 
+from ..core.choices import (DENOISERS, IMAGE_KINDS, MEASURED_PROPERTIES, PLANES,
+                            SEGMENT_CORRECTIONS, SEGMENT_METHODS, SOLVE_METHODS,
+                            SOLVE_PROPERTIES, WINDOW_EDGES)
 from ..core.errors import InputError
-from ..core.materials import PROPERTIES, Material, get_material
+from ..core.materials import PROPERTIES, UNITS, Material, get_material, load_library_file
 
 try:  # Python >= 3.11
     import tomllib
 except ModuleNotFoundError:  # pragma: no cover - Python 3.10
     import tomli as tomllib
-
-KINDS = ("grayscale", "labels", "palette")
-SEGMENT_METHODS = ("multi-otsu", "thresholds", "trained")
-DENOISERS = ("median", "nl-means", "none")
-SOLVE_PROPERTIES = ("conductivity", "elasticity", "expansion")
-SOLVE_METHODS = ("auto", "fft", "fe", "ms")
-PLANES = ("generalized-plane-strain", "plane-strain", "plane-stress")
 
 
 @dataclass(frozen=True)
@@ -80,6 +77,9 @@ class PhaseConfig:
     color: str | None = None
     particles: bool | None = None
     split_touching: bool = False
+    porosity: float = 0.0
+    pore_shape: str = "spherical"
+    pore_aspect_ratio: float | None = None
 
 
 @dataclass(frozen=True)
@@ -94,6 +94,44 @@ class SolveConfig:
     fields: bool = True
     voxels: int = 160
     realizations: int = 3
+    temperatures_C: tuple[float, ...] | None = None
+
+
+@dataclass(frozen=True)
+class MaterialsConfig:
+    """``[materials]``: a lab's own grades in the library's format, merged over the built-in
+    library (a path relative to the configuration file)."""
+
+    file: str | None = None
+
+
+@dataclass(frozen=True)
+class UncertaintyConfig:
+    """``[uncertainty]``: the error budget beside every headline number."""
+
+    budget: bool = True
+    discretization: bool = True
+    material: bool = True
+
+
+@dataclass(frozen=True)
+class WindowsConfig:
+    """``[windows]``: the window-size study (is the image big enough?)."""
+
+    study: bool = False
+    edges: str = "periodic"
+    target_error: float = 0.05
+
+
+@dataclass(frozen=True)
+class MeasuredValue:
+    """One ``[[measured]]`` entry: a value the lab measured on the same material."""
+
+    property: str
+    value: float
+    uncertainty: float | None = None
+    temperature_C: float = 20.0
+    method: str = ""
 
 
 @dataclass(frozen=True)
@@ -113,6 +151,10 @@ class Config:
     phases: tuple[PhaseConfig, ...] = ()
     solve: SolveConfig = field(default_factory=SolveConfig)
     service: ServiceConfig = field(default_factory=ServiceConfig)
+    windows: WindowsConfig = field(default_factory=WindowsConfig)
+    materials: MaterialsConfig = field(default_factory=MaterialsConfig)
+    uncertainty: UncertaintyConfig = field(default_factory=UncertaintyConfig)
+    measured: tuple[MeasuredValue, ...] = ()
     source: str = "defaults"
     raw: str = ""
 
@@ -122,11 +164,12 @@ class Config:
                 return p
         return None
 
-
 _SECTIONS = {"image": ImageConfig, "segment": SegmentConfig, "solve": SolveConfig,
-             "service": ServiceConfig}
+             "service": ServiceConfig, "windows": WindowsConfig, "materials": MaterialsConfig,
+             "uncertainty": UncertaintyConfig}
 _PHASE_KEYS = {"label", "name", "material", "color", "particles", "split_touching",
-               "source"} | set(PROPERTIES)
+               "source", "porosity", "pore_shape", "pore_aspect_ratio"} | set(PROPERTIES)
+PORE_SHAPES = ("spherical", "oblate")
 
 
 def load_config(path: str | os.PathLike) -> Config:
@@ -157,18 +200,20 @@ def load_config(path: str | os.PathLike) -> Config:
 
 def config_from_dict(data: dict, *, source: str = "dict", raw: str = "") -> Config:
     """Build and check a `Config` from parsed TOML (or an equivalent dict)."""
-    unknown = set(data) - set(_SECTIONS) - {"phase"}
+    unknown = set(data) - set(_SECTIONS) - {"phase", "measured"}
     for key in unknown:
-        _unknown(key, list(_SECTIONS) + ["phase"], "top level")
+        _unknown(key, list(_SECTIONS) + ["phase", "measured"], "top level")
     sections = {name: _section(cls, data.get(name, {}), name) for name, cls in _SECTIONS.items()}
     entries = data.get("phase", [])
     if not isinstance(entries, list):
         raise InputError("phases are given as [[phase]] tables (double brackets), one per phase")
-    phases = tuple(_phase(entry, i) for i, entry in enumerate(entries))
+    library = _library(sections["materials"], source)
+    phases = tuple(_phase(entry, i, library) for i, entry in enumerate(entries))
     labels = [p.label for p in phases]
     if len(set(labels)) != len(labels):
         raise InputError(f"two [[phase]] entries share a label ({labels}); give each its own")
-    cfg = Config(phases=phases, source=source, raw=raw, **sections)
+    cfg = Config(phases=phases, measured=measured_values(data.get("measured", [])),
+                 source=source, raw=raw, **sections)
     _check(cfg)
     return cfg
 
@@ -210,7 +255,7 @@ def _section(cls, values, name):
         if key not in names:
             _unknown(key, names, f"[{name}]")
     kwargs = dict(values)
-    for key in ("thresholds", "properties"):
+    for key in ("thresholds", "properties", "temperatures_C"):
         if key in kwargs and kwargs[key] is not None:
             if not isinstance(kwargs[key], list):
                 raise InputError(f"[{name}] {key} must be a list, e.g. {key} = [...]")
@@ -218,22 +263,86 @@ def _section(cls, values, name):
     return cls(**kwargs)
 
 
-def _phase(entry, index):
+def measured_values(entries) -> tuple[MeasuredValue, ...]:
+    """The ``[[measured]]`` tables, each checked (property known, value and uncertainty
+    finite numbers in the property's unit)."""
+    if not isinstance(entries, list) or not all(isinstance(e, dict) for e in entries):
+        raise InputError("measured values are given as [[measured]] tables (double brackets), "
+                         "one per measurement")
+    out = []
+    keys = [f.name for f in dataclasses.fields(MeasuredValue)]
+    for i, entry in enumerate(entries):
+        where = f"[[measured]] number {i + 1}"
+        for key in entry:
+            if key not in keys:
+                _unknown(key, keys, where)
+        prop = entry.get("property")
+        if prop not in MEASURED_PROPERTIES:
+            raise InputError(f"{where}: property = {prop!r}; choose one of "
+                             f"{', '.join(MEASURED_PROPERTIES)}")
+        unit = MEASURED_PROPERTIES[prop]
+        for key in ("value", "uncertainty", "temperature_C"):
+            v = entry.get(key)
+            if v is None and key != "value":
+                continue
+            if not isinstance(v, (int, float)) or isinstance(v, bool) or not math.isfinite(v):
+                raise InputError(f"{where}: {key} = {v!r} must be a finite number"
+                                 + (f" in {unit}" if key != "temperature_C" else " in °C"))
+        if entry.get("uncertainty") is not None and entry["uncertainty"] < 0:
+            raise InputError(f"{where}: uncertainty must be zero or positive (a standard "
+                             f"uncertainty in {unit})")
+        if prop in ("expansion", "mean_expansion") and abs(entry["value"]) > 1e-3:
+            raise InputError(f"{where}: expansion {entry['value']:g} 1/K is implausibly large; "
+                             "give it in 1/K (e.g. 7.5e-6), not in 10⁻⁶/K")
+        t = entry.get("temperature_C", 20.0)
+        if t < -273.15:
+            raise InputError(f"{where}: temperature_C = {t} is below absolute zero")
+        out.append(MeasuredValue(prop, float(entry["value"]),
+                                 None if entry.get("uncertainty") is None
+                                 else float(entry["uncertainty"]), float(t),
+                                 str(entry.get("method", ""))))
+    return tuple(out)
+
+
+def _library(materials: MaterialsConfig, source: str):
+    """The built-in library with the lab's file merged over it, or None (built-in only)."""
+    if materials.file is None:
+        return None
+    if not isinstance(materials.file, str) or not materials.file.strip():
+        raise InputError("[materials] file must be the path of a library file in quotes")
+    path = materials.file
+    if not os.path.isabs(path) and os.path.isfile(source):
+        path = os.path.join(os.path.dirname(os.path.abspath(source)), path)
+    return load_library_file(path)
+
+
+def _phase(entry, index, library=None):
     if not isinstance(entry, dict):
         raise InputError(f"[[phase]] number {index + 1} is not a table")
     for key in entry:
         if key not in _PHASE_KEYS:
             _unknown(key, sorted(_PHASE_KEYS), f"[[phase]] number {index + 1}")
-    if "label" not in entry or not isinstance(entry["label"], int) or entry["label"] < 0:
-        raise InputError(f"[[phase]] number {index + 1} needs label = <integer ≥ 0>, the class "
-                         "number (0 = darkest) or the value in the label image")
+    label = entry.get("label")
+    if isinstance(label, bool) or not isinstance(label, int) or not 0 <= label <= 65535:
+        raise InputError(f"[[phase]] number {index + 1} needs label = <integer 0 to 65535>, the "
+                         "class number (0 = darkest) or the value in the label image")
+    for key, kind in (("name", str), ("material", str), ("source", str),
+                      ("particles", bool), ("split_touching", bool)):
+        if key in entry and not isinstance(entry[key], kind):
+            raise InputError(f"[[phase]] label {label}: {key} = {entry[key]!r} must be "
+                             + ("text in quotes" if kind is str else "true or false"))
+    if len(entry.get("name", "")) > 80:
+        raise InputError(f"[[phase]] label {label}: name is longer than 80 characters; shorten it")
     overrides = {k: entry[k] for k in PROPERTIES if k in entry}
     for key, value in overrides.items():
-        if not isinstance(value, (int, float)) or isinstance(value, bool):
-            raise InputError(f"[[phase]] label {entry['label']}: {key} must be a number")
+        if not isinstance(value, (int, float)) or isinstance(value, bool) \
+                or not abs(value) <= _PROPERTY_LIMITS[key]:
+            raise InputError(f"[[phase]] label {label}: {key} = {value!r} must be a finite "
+                             f"number of size at most {_PROPERTY_LIMITS[key]:g} "
+                             f"{UNITS[key]}")
     name = entry.get("name")
     if "material" in entry:
-        base = get_material(str(entry["material"]))
+        base = get_material(str(entry["material"]), library)
         name = name or base.name
         material = base
         if overrides:
@@ -246,48 +355,141 @@ def _phase(entry, index):
     color = entry.get("color")
     if color is not None and not re.fullmatch(r"#[0-9a-fA-F]{6}", str(color)):
         raise InputError(f"[[phase]] {name}: color {color!r} is not '#rrggbb'")
+    porosity = entry.get("porosity", 0.0)
+    if isinstance(porosity, bool) or not isinstance(porosity, (int, float)) \
+            or not 0.0 <= porosity <= 0.9:
+        raise InputError(f"[[phase]] {name}: porosity = {porosity!r} must be a pore volume "
+                         "fraction from 0 to 0.9 inside the phase (e.g. 0.25)")
+    shape = entry.get("pore_shape", "spherical")
+    _choice(shape, PORE_SHAPES, f"[[phase]] {name}: pore_shape")
+    aspect = entry.get("pore_aspect_ratio")
+    if shape == "oblate" and not (isinstance(aspect, (int, float)) and not isinstance(aspect, bool)
+                                  and 0.0 < aspect < 1.0):
+        raise InputError(f"[[phase]] {name}: pore_shape = \"oblate\" needs pore_aspect_ratio, "
+                         "the short over the long axis of the pores, between 0 and 1 (e.g. 0.1)")
     return PhaseConfig(label=entry["label"], name=str(name), material=material, color=color,
                        particles=entry.get("particles"),
-                       split_touching=bool(entry.get("split_touching", False)))
+                       split_touching=bool(entry.get("split_touching", False)),
+                       porosity=float(porosity), pore_shape=shape,
+                       pore_aspect_ratio=None if aspect is None else float(aspect))
+
+
+# (section, key): ("num" | "int", lowest, highest, what the number is) or ("bool",); the
+# ranges are wide enough for any real section and narrow enough that no step runs out of memory.
+_VALUES = {
+    ("image", "pixel_size_um"): ("num", 1e-6, 1e5, "micrometres per pixel"),
+    ("image", "slice_spacing_um"): ("num", 1e-6, 1e5, "micrometres between slices"),
+    ("image", "volume"): ("bool",),
+    ("segment", "classes"): ("int", 2, 8, "phases told apart by grey level"),
+    ("segment", "denoise_px"): ("num", 1, 25, "pixels of smoothing radius"),
+    ("segment", "min_feature_px"): ("int", 0, 10 ** 8, "pixels of the smallest feature kept"),
+    ("segment", "color_tolerance"): ("num", 0, 442, "RGB distance"),
+    ("segment", "fields"): ("int", 4, 4096, "fields of the point-count confidence"),
+    ("solve", "tolerance"): ("num", 1e-12, 0.1, "relative solver tolerance"),
+    ("solve", "estimate_3d"): ("bool",),
+    ("solve", "fields"): ("bool",),
+    ("solve", "voxels"): ("int", 16, 1024, "voxels per edge of the 3D estimate's cubes"),
+    ("solve", "realizations"): ("int", 1, 100, "3D reconstructions"),
+    ("service", "strength_MPa"): ("num", 1e-3, 1e5, "MPa of fracture strength"),
+    ("service", "fracture_energy_J_m2"): ("num", 1e-3, 1e6, "J/m² of fracture energy"),
+    ("windows", "study"): ("bool",),
+    ("uncertainty", "budget"): ("bool",),
+    ("uncertainty", "discretization"): ("bool",),
+    ("uncertainty", "material"): ("bool",),
+    ("windows", "target_error"): ("num", 1e-4, 0.99, "relative error at 95 %, e.g. 0.02"),
+}
+# keys that also take "auto" (chosen from the image by polisect.segment)
+_AUTO_KEYS = {"denoise_px", "min_feature_px"}
+# highest sane magnitude of a [[phase]] property override (diamond: ~2000 W/(m·K), ~1100 GPa)
+_PROPERTY_LIMITS = {"conductivity": 1e5, "youngs_modulus": 1e4, "poisson_ratio": 1.0,
+                    "expansion": 1e-2}
+
+
+def _value(value, rule, what, default):
+    """Refuse *value* unless it has the type and range *rule* gives."""
+    if rule[0] == "bool":
+        if not isinstance(value, bool):
+            raise InputError(f"{what} = {value!r}: give true or false (without quotes)")
+        return
+    kind, low, high, unit = rule
+    whole = isinstance(value, int) and not isinstance(value, bool)
+    ok = whole if kind == "int" else (whole or isinstance(value, float))
+    if not ok or not (low <= value <= high):
+        number = "a whole number" if kind == "int" else "a number"
+        usual = "" if default is None else f"; default {default}"
+        raise InputError(f"{what} = {value!r}: give {number} from {low:g} to {high:g} "
+                         f"({unit}{usual})")
+
+
+def validate(cfg: Config) -> None:
+    """Check every key of *cfg* for type, range, finiteness and sane size, raising one
+    `InputError` per problem that names the key and what to give (the run calls it before
+    any work)."""
+    _check(cfg)
+
+
+def check_grey_range(cfg: Config, low: float, high: float) -> list[str]:
+    """Check ``[segment] thresholds`` against the image's grey range [*low*, *high*].
+
+    Raises `InputError` when no threshold falls inside the range (every pixel would land
+    in one class); returns a warning per threshold outside it (a class with no pixels).
+    """
+    t = cfg.segment.thresholds
+    if cfg.segment.method != "thresholds" or not t:
+        return []
+    outside = [x for x in t if not low < x <= high]
+    if len(outside) == len(t):
+        raise InputError(f"[segment] thresholds = {list(t)} all lie outside the image's grey "
+                         f"range {low:g} to {high:g}, so every pixel would be one phase; give "
+                         "thresholds inside that range")
+    return [f"[segment] threshold {x:g} lies outside the image's grey range {low:g} to "
+            f"{high:g}; the class beyond it receives no pixels" for x in outside]
 
 
 def _check(cfg: Config) -> None:
     im, seg, sol = cfg.image, cfg.segment, cfg.solve
+    for (section, key), rule in _VALUES.items():
+        value = getattr(getattr(cfg, section), key)
+        if value is not None and not (value == "auto" and key in _AUTO_KEYS):
+            default = dataclasses.fields(type(getattr(cfg, section)))
+            _value(value, rule, f"[{section}] {key}",
+                   next(f.default for f in default if f.name == key))
+    if seg.thresholds is not None:
+        if not 1 <= len(seg.thresholds) <= 7 or not all(
+                isinstance(t, (int, float)) and not isinstance(t, bool) and math.isfinite(t)
+                for t in seg.thresholds) or any(b <= a for a, b in zip(seg.thresholds,
+                                                                       seg.thresholds[1:])):
+            raise InputError(f"[segment] thresholds = {list(seg.thresholds)!r}: give 1 to 7 "
+                             "finite grey levels in increasing order, e.g. [60, 150]")
     names = [p.name for p in cfg.phases]
     if len(set(names)) != len(names):
         twice = sorted({n for n in names if names.count(n) > 1})
         raise InputError(f"two [[phase]] entries share the name {', '.join(twice)}; give each "
                          "phase its own name (e.g. name = \"alumina-fine\")")
-    _choice(im.kind, KINDS, "[image] kind")
-    if im.pixel_size_um is not None and not (im.pixel_size_um > 0):
-        raise InputError(f"[image] pixel_size_um = {im.pixel_size_um} must be a positive number "
-                         "of micrometres")
-    if not (im.crop_bottom_px == "auto" or (isinstance(im.crop_bottom_px, int)
-                                            and im.crop_bottom_px >= 0)):
-        raise InputError("[image] crop_bottom_px must be a number of rows ≥ 0 or \"auto\"")
+    _choice(im.kind, IMAGE_KINDS, "[image] kind")
+    if not (im.crop_bottom_px == "auto" or (isinstance(im.crop_bottom_px, int) and not
+                                            isinstance(im.crop_bottom_px, bool)
+                                            and 0 <= im.crop_bottom_px <= 10 ** 6)):
+        raise InputError(f"[image] crop_bottom_px = {im.crop_bottom_px!r}: give a number of "
+                         "rows from 0 to 1000000 or \"auto\"")
     _choice(seg.method, SEGMENT_METHODS, "[segment] method")
     _choice(seg.denoise, DENOISERS, "[segment] denoise")
-    if seg.classes is not None and not (isinstance(seg.classes, int) and 2 <= seg.classes <= 8):
-        raise InputError(f"[segment] classes = {seg.classes}: give an integer from 2 to 8")
     if seg.method == "thresholds" and not seg.thresholds:
         raise InputError("[segment] method = \"thresholds\" needs thresholds = [t1, t2, ...]")
     _check_segment_route(seg)
-    if seg.fields < 4:
-        raise InputError("[segment] fields must be at least 4 (16 or more recommended)")
     for prop in sol.properties:
         _choice(prop, SOLVE_PROPERTIES, "[solve] properties entry")
     _choice(sol.method, SOLVE_METHODS, "[solve] method")
     _choice(sol.plane, PLANES, "[solve] plane")
-    if not (0 < sol.tolerance < 1e-1):
-        raise InputError(f"[solve] tolerance = {sol.tolerance}: give a relative tolerance "
-                         "between 0 and 0.1 (default 1e-6)")
-    if isinstance(sol.voxels, bool) or not isinstance(sol.voxels, int) or sol.voxels < 16:
-        raise InputError(f"[solve] voxels = {sol.voxels!r}: give the voxels per edge of the 3D "
-                         "estimate's cubes, a whole number of at least 16 (default 160)")
-    if isinstance(sol.realizations, bool) or not isinstance(sol.realizations, int) \
-            or sol.realizations < 1:
-        raise InputError(f"[solve] realizations = {sol.realizations!r}: give a whole number of "
-                         "3D reconstructions of at least 1 (default 3)")
+    _choice(cfg.windows.edges, WINDOW_EDGES, "[windows] edges")
+    temps = sol.temperatures_C
+    if temps is not None:
+        if not 1 <= len(temps) <= 32 or not all(
+                isinstance(t, (int, float)) and not isinstance(t, bool) and math.isfinite(t)
+                and -273.15 < t <= 3000.0 for t in temps) \
+                or any(b <= a for a, b in zip(temps, temps[1:])):
+            raise InputError(f"[solve] temperatures_C = {list(temps)!r}: give 1 to 32 "
+                             "temperatures in °C in increasing order, e.g. [20, 400, 800, 1200]")
     if im.kind == "palette":
         missing = [p.name for p in cfg.phases if p.color is None]
         if missing:
@@ -301,13 +503,9 @@ def _check(cfg: Config) -> None:
             p.material.require(*needs[prop])
 
 
-CORRECTIONS = {"shading": ("auto", "none"), "stripes": ("auto", "columns", "rows", "none"),
-               "speckle": ("auto", "none"), "scratches": ("auto", "none")}
-
-
 def _check_segment_route(seg: SegmentConfig) -> None:
     """The [segment] keys of the corrections, the defaults and the trained route."""
-    for key, options in CORRECTIONS.items():
+    for key, options in SEGMENT_CORRECTIONS.items():
         _choice(getattr(seg, key), options, f"[segment] {key}")
     if seg.denoise_px != "auto" and (isinstance(seg.denoise_px, bool) or not isinstance(
             seg.denoise_px, (int, float)) or seg.denoise_px < 1):

@@ -30,6 +30,7 @@ import numpy as np
 
 from ..core.atomic import atomic_write
 from ..core.errors import InputError
+from ..core.memory import MAX_PIXELS, check_pixel_count
 
 __all__ = ["Micrograph", "read_image", "read_stack", "check_slice_spacing", "to_grayscale",
            "find_info_band", "read_annotations", "write_tiff"]
@@ -255,6 +256,7 @@ def read_stack(folder: str | os.PathLike, *, crop_bottom_px: int | str = "auto",
     if ignored:
         notes.append(f"ignored {len(ignored)} file(s) that are not slice images: "
                      + ", ".join(ignored[:5]) + (" …" if len(ignored) > 5 else ""))
+    check_pixel_count(sum(m.data.size for m in parts), first.data.itemsize, folder)
     digest = hashlib.sha256("".join(m.sha256 for m in parts).encode()).hexdigest()
     stack = Micrograph(data=np.stack([m.data for m in parts]), path=folder, sha256=digest,
                        pixel_size_um=first.pixel_size_um,
@@ -366,6 +368,10 @@ def _read_tiff(path, volume, notes):
             is_rgb = page.photometric == tifffile.PHOTOMETRIC.RGB
             tag_size = _tiff_pixel_size(path, page, tif.imagej_metadata, notes)
             n_pages = len(pages)
+            first = series if volume else page
+            samples = max(1, page.samplesperpixel)
+            check_pixel_count(int(np.prod(first.shape)) // samples,
+                              samples * np.dtype(first.dtype).itemsize, path)
             if volume:
                 data = series.asarray()
                 axes = series.axes
@@ -435,6 +441,18 @@ def _ratio(value):
 def _read_imageio(path, kind, notes):
     import imageio.v3 as iio
 
+    from PIL import Image
+
+    Image.MAX_IMAGE_PIXELS = MAX_PIXELS  # the decoder's own guard: polisect's limit
+    try:
+        with Image.open(path) as im:  # reads the header only
+            width, height, bands = im.width, im.height, len(im.getbands())
+    except Image.DecompressionBombError:
+        raise InputError(f"{path} has more than {MAX_PIXELS:,} pixels, the most polisect "
+                         "reads; crop a region of interest or downsample it") from None
+    except Exception as exc:  # the decoder plug-ins raise many exception types
+        raise _damaged(path, exc) from exc
+    check_pixel_count(width * height, bands * 2, path)
     try:
         data = np.asarray(iio.imread(path))
     except Exception as exc:  # the decoder plug-ins raise many exception types

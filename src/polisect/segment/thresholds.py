@@ -26,6 +26,7 @@ from typing import Mapping, Sequence
 
 import numpy as np
 
+from ..core.choices import SEGMENT_METHODS
 from ..core.errors import InputError
 
 __all__ = ["SegmentResult", "segment_grayscale", "segment_palette", "suggest_classes",
@@ -33,7 +34,8 @@ __all__ = ["SegmentResult", "segment_grayscale", "segment_palette", "suggest_cla
            "auto_denoise_px", "default_min_feature_px", "DENOISE_RADII"]
 
 DENOISE = ("none", "median", "nl-means")
-METHODS = ("multi-otsu", "thresholds")
+#: The methods `segment_grayscale` runs (``"trained"`` is `polisect.segment.trained`).
+METHODS = tuple(m for m in SEGMENT_METHODS if m != "trained")
 #: Median radii (pixels) the automatic denoising chooses from; footprints of 5, 9, 13, 21
 #: and 29 pixels.
 DENOISE_RADII = (1.0, 1.5, 2.0, 2.5, 3.0)

@@ -433,7 +433,7 @@ def difference(label: str, reference: str, a, other: str, b, *, p_adjusted=None
 
 
 @dataclass(frozen=True)
-class Spread:
+class BatchSpread:
     """Section-to-section spread of a batch against the spread within one section.
 
     Attributes
@@ -467,7 +467,7 @@ class Spread:
                 "test": self.test.to_dict(), "sentence": self.sentence}
 
 
-def section_spread(values, within_variances, *, batch: str = "", label: str = "") -> Spread:
+def section_spread(values, within_variances, *, batch: str = "", label: str = "") -> BatchSpread:
     """Is the section-to-section spread larger than sampling within one section predicts?
 
     Under homogeneity every section value scatters with the variance its own window study
@@ -487,7 +487,7 @@ def section_spread(values, within_variances, *, batch: str = "", label: str = ""
 
     Returns
     -------
-    Spread
+    BatchSpread
 
     References
     ----------
@@ -503,7 +503,7 @@ def section_spread(values, within_variances, *, batch: str = "", label: str = ""
     sw2 = float(w.mean())
     df = x.size - 1
     if sw2 <= 0:
-        return Spread(x.size, math.sqrt(s2), 0.0, math.nan,
+        return BatchSpread(x.size, math.sqrt(s2), 0.0, math.nan,
                       Significance("chi-square spread test", math.nan, (float(df),), math.nan),
                       f"batch {batch}: the window studies predict no spread of {label}")
     chi2 = df * s2 / sw2
@@ -517,7 +517,7 @@ def section_spread(values, within_variances, *, batch: str = "", label: str = ""
         words = (f"the {label} of batch {batch}'s sections spreads as much as one section's "
                  f"window study predicts (ratio {sig(ratio)}, {p_text(p)}): no sign of "
                  "heterogeneity beyond sampling")
-    return Spread(x.size, math.sqrt(s2), math.sqrt(sw2), ratio, test, words)
+    return BatchSpread(x.size, math.sqrt(s2), math.sqrt(sw2), ratio, test, words)
 
 
 @dataclass(frozen=True)

@@ -30,8 +30,7 @@ from . import work
 
 RUN_ID = re.compile(r"\d{8}-\d{6}-[A-Za-z0-9_-]{1,64}-[0-9a-f]{4}")
 FINAL = ("done", "failed", "cancelled", "interrupted")
-_PRELOAD = ["numpy", "scipy.ndimage", "skimage.filters", "polisect.pipeline.analysis",
-            "polisect.present.report",
+_PRELOAD = ["numpy", "scipy.ndimage", "skimage.filters", "polisect.apps.run",
             "polisect.apps.serve.work"]
 
 
@@ -122,7 +121,7 @@ class RunManager:
     """Analysis runs: one folder and one child process each, at most *parallel* at once.
 
     A run folder ``<out>/<run id>/`` holds the image, ``config.toml``, ``status.json`` and,
-    when the run is done, the files `polisect.pipeline.analysis.write_outputs` writes — the same
+    when the run is done, the files `polisect.apps.run.write_outputs` writes — the same
     files ``polisect analyze IMAGE --config config.toml --out <folder>`` writes.
 
     Parameters

@@ -42,7 +42,8 @@ import math
 import re
 import time
 
-from ...read.config import DENOISERS, PLANES, SOLVE_PROPERTIES, config_from_dict, tomllib
+from ...core.choices import DENOISERS, PLANES, SOLVE_PROPERTIES
+from ...read.config import config_from_dict, tomllib
 from ...core.errors import InputError
 from ...core.materials import PROPERTIES, library
 from .work import MAX_CLASSES

@@ -25,16 +25,19 @@ Endpoints (all JSON unless said)::
     GET  /api/runs/<id>/files/<kind>     report | json | csv | phasemap | overlay |
                                          particles | config  (?inline=1 to view)
 
-Security: bound to loopback unless asked otherwise; the Host header must name this
-server (no DNS rebinding); POSTs need the ``X-Polisect`` header and a same-origin
-``Origin`` (no cross-site requests); every path component is matched against a strict
-pattern, never joined as given; responses carry a restrictive Content-Security-Policy.
+Security: bound to loopback unless asked otherwise; whatever the bind address, the Host
+header must name this server's port and an IP address or one of this machine's names (no
+DNS rebinding); POSTs need the ``X-Polisect`` header and a same-origin ``Origin`` (no
+cross-site requests); JSON bodies are bounded in size, depth and number range; every path
+component is matched against a strict pattern, never joined as given; responses carry a
+restrictive Content-Security-Policy; the listen queue holds bursts of 128 connections.
 """
 
 from __future__ import annotations
 
 import ipaddress
 import json
+import math
 import os
 import re
 import shutil
@@ -46,7 +49,6 @@ import threading
 import time
 import traceback
 import urllib.parse
-from http import HTTPStatus
 from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
 from importlib import resources
 
@@ -59,6 +61,8 @@ from .runconfig import page_options, run_config_toml
 from .uploads import UploadStore
 
 MAX_JSON_BYTES = 1 << 20
+MAX_JSON_DEPTH = 32
+MAX_UPLOAD_MB = 100_000
 STATIC = {"/": ("index.html", "text/html; charset=utf-8"),
           "/static/app.js": ("app.js", "text/javascript; charset=utf-8"),
           "/static/style.css": ("style.css", "text/css; charset=utf-8")}
@@ -129,6 +133,9 @@ class Handler(BaseHTTPRequestHandler):
 
     server_version = "polisect"
     sys_version = ""
+    # the base class's answers to malformed request lines: plain text, never HTML
+    error_content_type = "text/plain; charset=utf-8"
+    error_message_format = "%(code)d %(message)s\n"
     protocol_version = "HTTP/1.1"
     timeout = 120
 
@@ -180,10 +187,7 @@ class Handler(BaseHTTPRequestHandler):
     # -- checks -------------------------------------------------------------------------
 
     def _check_host(self) -> None:
-        if self.server.any_host:
-            return
-        host = (self.headers.get("Host") or "").lower()
-        if host not in self.server.host_names:
+        if not self.server.names_this(self.headers.get("Host") or ""):
             raise HttpError(421, "this server answers only to its own address "
                                  f"(http://{self.server.address})")
 
@@ -191,7 +195,8 @@ class Handler(BaseHTTPRequestHandler):
         if self.headers.get("X-Polisect") != "1":
             raise HttpError(403, "requests that change anything must come from the polisect page")
         origin = self.headers.get("Origin")
-        if origin and origin.lower() != f"http://{(self.headers.get('Host') or '').lower()}":
+        if origin is not None and origin.lower() != \
+                f"http://{(self.headers.get('Host') or '').lower()}":
             raise HttpError(403, "cross-site request refused")
 
     def _body_length(self) -> int:
@@ -216,9 +221,12 @@ class Handler(BaseHTTPRequestHandler):
         raw = self.rfile.read(length)
         self._unread = False
         try:
-            data = json.loads(raw.decode("utf-8") or "{}", parse_constant=_no_constant)
-        except (UnicodeDecodeError, ValueError) as exc:
-            raise HttpError(400, f"the request is not valid JSON ({exc})")
+            text = raw.decode("utf-8") or "{}"
+            if _depth(text) > MAX_JSON_DEPTH:
+                raise ValueError(f"nested deeper than {MAX_JSON_DEPTH} levels")
+            data = json.loads(text, parse_constant=_no_constant, parse_float=_finite)
+        except (UnicodeDecodeError, ValueError, RecursionError) as exc:
+            raise HttpError(400, f"the request is not valid JSON ({str(exc)[:200]})")
         if not isinstance(data, dict):
             raise HttpError(400, "the request must be a JSON object")
         return data
@@ -384,10 +392,31 @@ def _no_constant(name):
     raise ValueError(f"{name} is not a number JSON allows")
 
 
+def _finite(text: str) -> float:
+    value = float(text)
+    if not math.isfinite(value):
+        raise ValueError(f"{text[:40]} is too large a number")
+    return value
+
+
+def _depth(text: str) -> int:
+    """Deepest nesting of brackets in a JSON text (brackets inside strings ignored)."""
+    depth = deepest = 0
+    for token in re.finditer(r'"(?:\\.|[^"\\])*"|[\[{]|[\]}]', text):
+        c = token.group()
+        if c in "[{":
+            depth += 1
+            deepest = max(deepest, depth)
+        elif c in "]}":
+            depth -= 1
+    return deepest
+
+
 class Server(ThreadingHTTPServer):
     """The HTTP server with the `App` and the host names it answers to."""
 
     daemon_threads = True
+    request_queue_size = 128  # the listen backlog: bursts of requests wait, not fail
 
     def __init__(self, app: App, host: str, port: int, *, verbose: bool = False):
         self.app = app
@@ -397,11 +426,24 @@ class Server(ThreadingHTTPServer):
             self.address_family = socket.AF_INET6
         super().__init__((host, port), Handler)
         self.port = self.server_address[1]
-        self.any_host = not is_loopback(host)
-        shown = f"[{host}]" if family == 6 else host
+        bound = ipaddress.ip_address(self.server_address[0].split("%")[0])
+        self.any_host = not is_loopback(str(bound))
+        shown = f"[{bound}]" if bound.version == 6 else str(bound)
         self.address = f"{shown}:{self.port}"
-        self.host_names = {f"{h}:{self.port}" for h in ("127.0.0.1", "localhost", "[::1]",
-                                                       shown.lower())}
+        names = {"localhost", host.lower().strip("[]")}
+        if self.any_host:
+            names |= {socket.gethostname().lower(), socket.getfqdn().lower()}
+        self.host_names = names
+
+    def names_this(self, header: str) -> bool:
+        """Whether a request's Host header names this server: its port, and an IP address
+        (a browser sends one only when the user typed it, never for another site's page, so
+        DNS rebinding cannot pass) or one of this machine's names."""
+        m = re.fullmatch(r"(\[[0-9a-fA-F:.]+\]|[^:\[\]]+)(?::(\d{1,5}))?", header.strip())
+        if not m or int(m.group(2) or 80) != self.port:
+            return False
+        name = m.group(1).strip("[]").lower()
+        return _is_ip(name) or name in self.host_names
 
 
 def _interrupt(signum, frame):
@@ -418,10 +460,16 @@ def _is_ip(host: str) -> bool:
 
 
 def is_loopback(host: str) -> bool:
-    """Whether *host* names this machine only (127.0.0.0/8, ::1, localhost)."""
-    if host == "localhost":
+    """Whether *host* names this machine only (127.0.0.0/8, ::1, localhost), shorthand
+    IPv4 forms such as ``127.1`` included."""
+    if host.lower() == "localhost":
         return True
-    return _is_ip(host) and ipaddress.ip_address(host).is_loopback
+    if not _is_ip(host):
+        try:
+            host = socket.inet_ntoa(socket.inet_aton(host))
+        except OSError:
+            return False
+    return ipaddress.ip_address(host).is_loopback
 
 
 def serve(*, host: str = "127.0.0.1", port: int = 8765, out_dir: str = "polisect-runs",
@@ -446,18 +494,25 @@ def serve(*, host: str = "127.0.0.1", port: int = 8765, out_dir: str = "polisect
     ready : callable, optional
         Called with the `Server` once it listens (tests use it).
     """
-    if not max_upload_mb > 0:
-        raise InputError(f"--max-upload-mb {max_upload_mb}: give a positive number of megabytes")
+    if not (isinstance(port, int) and 0 <= port <= 65535):
+        raise InputError(f"--port {port}: give a port from 0 to 65535 (0 = any free port)")
+    if not 0 < max_upload_mb <= MAX_UPLOAD_MB:
+        raise InputError(f"--max-upload-mb {max_upload_mb}: give a number of megabytes from "
+                         f"0 to {MAX_UPLOAD_MB} (default 200)")
+    if not (isinstance(parallel_runs, int) and 1 <= parallel_runs <= 64):
+        raise InputError(f"--jobs {parallel_runs}: give a number of runs from 1 to 64")
     app = App(out_dir, max_upload_bytes=int(max_upload_mb * 10**6), parallel_runs=parallel_runs)
     try:
         server = Server(app, host, port, verbose=verbose)
-    except OSError as exc:
+    except (OSError, OverflowError, UnicodeError) as exc:
         app.close()
-        raise InputError(f"cannot listen on {host}:{port} ({exc.strerror}); choose another "
+        reason = getattr(exc, "strerror", None) or str(exc)
+        raise InputError(f"cannot listen on {host}:{port} ({reason}); choose another "
                          "--port or --host") from None
     url = f"http://{server.address}/"
     if server.any_host:
-        print(f"polisect serve: WARNING: listening on {host}, reachable from other machines. "
+        print(f"polisect serve: WARNING: listening on {server.address}, reachable from other "
+              "machines. "
               "The page has no login: anyone who can reach this address can upload images, "
               "start runs and read every result in the output folder.", file=sys.stderr)
     print(f"polisect serve: open {url}  (results go to {app.runs.out_dir}; Ctrl+C stops)",

@@ -244,19 +244,17 @@ def run_analysis(folder: str) -> None:
 
     Runs exactly what ``polisect analyze IMAGE --config config.toml --out FOLDER`` runs.
     """
-    from ...read.config import load_config
-    from ...pipeline.analysis import analyze, write_outputs
     from ...properties.solve import progress as solver_progress
+    from ...read.config import load_config
+    from ..run import run_section
 
     status = StatusFile(folder)
     status.start()
     try:
         cfg = load_config(os.path.join(folder, CONFIG))
         with solver_progress.observe(status.solver):
-            analysis = analyze(os.path.join(folder, status.data["image"]), cfg,
-                               progress=status.progress)
-        status.progress("writing outputs")
-        out = write_outputs(analysis, folder, config=cfg)
+            _, out = run_section(os.path.join(folder, status.data["image"]), cfg, folder,
+                                 progress=status.progress)
     except InputError as exc:
         status.finish(state="failed", error_kind="input", stage="stopped: bad input",
                       error=str(exc).replace(folder + os.sep, ""))

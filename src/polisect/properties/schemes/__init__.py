@@ -7,8 +7,8 @@ self-consistent, differential, generalized self-consistent, composite assemblage
 Levin, Turner and Kerner for expansion) of conductivity, bulk and shear modulus,
 Young's modulus, Poisson's ratio and thermal expansion.
 
-`evaluate` is the entry point of the pipeline and the report; `run_estimate` is
-``polisect estimate``. Units: W/(m·K), GPa, 1/K.
+`evaluate` is the entry point of the pipeline (``polisect estimate`` calls it too, from
+`polisect.apps.estimate`). Units: W/(m·K), GPa, 1/K.
 
 Examples
 --------
@@ -26,10 +26,9 @@ from .estimates import (composite_assemblage, differential, generalized_self_con
 from .expansion import expansion_estimate, kerner, levin, transverse_estimate, turner
 from .result import (Bound, Estimate, Placement, SchemesResult, check_fractions, evaluate,
                      place)
-from .spec import parse_hollow_spec, parse_phase_spec, run_estimate
 
 __all__ = ["Particle", "Moduli", "voigt", "reuss", "hashin_shtrikman", "schapery_bounds",
            "mori_tanaka", "self_consistent", "differential", "generalized_self_consistent",
            "composite_assemblage", "levin", "turner", "kerner", "expansion_estimate",
            "transverse_estimate", "evaluate", "SchemesResult", "Estimate", "Bound", "Placement",
-           "place", "check_fractions", "parse_phase_spec", "parse_hollow_spec", "run_estimate"]
+           "place", "check_fractions"]

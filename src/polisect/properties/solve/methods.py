@@ -9,6 +9,7 @@ from typing import Sequence
 
 import numpy as np
 
+from ...core.choices import SOLVE_METHODS
 from ...core.errors import InputError
 from . import progress
 from .cell import Cell, Load, Solution
@@ -16,7 +17,7 @@ from .fe import AMGSolver
 from .fft import FourierSolver
 from .ms import MSSolver
 
-METHODS = ("auto", "fft", "fe", "ms")
+METHODS = SOLVE_METHODS
 SOLVERS = {"fft": FourierSolver, "fe": AMGSolver, "ms": MSSolver}
 DEFAULT_MAXITER = {"fft": 5000, "fe": 1000, "ms": 20000}
 

@@ -658,7 +658,9 @@
     const properties = [...document.querySelectorAll("#props input:checked")].map((i) => i.value);
     const solve = { properties, plane: $("plane").value };
     if ($("est3d").checked) solve.estimate_3d = true;
-    return { image, segment, phase, solve };
+    const run = { image, segment, phase, solve };
+    if ($("windows").checked) run.windows = { study: true };
+    return run;
   }
 
   /** What the page can say before the server does: a phase without material while properties

@@ -58,35 +58,25 @@ from __future__ import annotations
 
 import dataclasses
 import math
-import time
 from dataclasses import dataclass
 from typing import Callable
 
 import numpy as np
 from scipy import stats
 
-from ..properties import solve
-from ..read.config import Config
+from ..core.choices import WINDOW_EDGES
 from ..core.errors import InputError
-from ..pipeline.results import headline, quantity_label
-from .sectionstats import gitman_chi2, sig
+from ..core.quantities import SOLVED_COLUMNS, fraction_column
+from ..properties import solve
+from ..properties.effective import solver_labels
+from .records import LevelStats, QuantityFit, WindowLevelRecord, WindowRecord
+from .sectionstats import gitman_chi2
+from .verdicts import need_words, overall_verdict, percent_words, quantity_words
 
-EDGES = ("periodic", "mirror")
-PROPERTY_KEYS = {"conductivity": "conductivity_W_mK", "elasticity": "youngs_modulus_GPa",
-                 "expansion": "expansion_per_K"}
+EDGES = WINDOW_EDGES
+PROPERTY_KEYS = SOLVED_COLUMNS
 MIN_WINDOW_PX = 8
 """No window is smaller than this many pixels a side."""
-EDGE_NOTES = {
-    "periodic": "periodic — each window solved as a periodic cell; a window cut from a "
-                "section is not periodic, so small windows are biased (cut particles meet "
-                "unrelated material across the seams).",
-    "mirror": "mirror — each window reflected across its edges before a periodic solve: no "
-              "seams, equivalent to mixed uniform boundary conditions; the mirror symmetry "
-              "removes shear coupling (off-diagonal terms) and costs 2^d times the pixels.",
-}
-"""One line per edge treatment, for reports."""
-
-
 @dataclass(frozen=True)
 class WindowLevel:
     """All windows of one size.
@@ -113,83 +103,14 @@ class WindowLevel:
     def area_px(self) -> int:
         return math.prod(self.side_px)
 
-    def to_dict(self) -> dict:
-        out = {}
-        for key, v in self.values.items():
-            entry = {"n": int(v.size), "mean": float(v.mean()),
-                     "sd": float(v.std(ddof=1)) if v.size > 1 else None}
-            if v.size > 1:
-                entry["gitman_chi2"] = gitman_chi2(v).to_dict()
-            out[key] = entry
-        return {"side_px": list(self.side_px), "area_px": self.area_px,
-                "n_windows": self.n_windows, "n_solved": self.n_solved, "quantities": out}
-
-
-@dataclass(frozen=True)
-class QuantityFit:
-    """Integral-range fit and adequacy of one quantity.
-
-    Attributes
-    ----------
-    key : str
-        The headline column it belongs to (``fraction_<phase>``, ``conductivity_W_mK``, …).
-    value : float
-        Its value on the whole image (the window of side 1).
-    variance_area : float or None
-        K = D²_Z·A₃, fitted (unit² · pixel area); ``None`` when no fit was possible.
-    point_variance : float or None
-        D²_Z = p(1 − p) for a fraction; unknown (``None``) for effective properties.
-    integral_range_px : float or None
-        A₃ = K / D²_Z in pixels (fractions only).
-    exponent : float or None
-        α of a free fit D²(A) ∝ A^−α (Kanit et al.'s generalization); 1 for the law above.
-    fit_sides_px : tuple of int
-        Window sides (shortest edge) used in the fit.
-    whole_image_variance : float or None
-        K / A_image: the variance of this quantity between whole images of this size.
-    supported_error_pct : float or None
-        Relative error of *value* at the study's confidence that this image supports.
-    required_area_px : float or None
-        Area (pixels; volume in voxels for 3D) needed for the target error.
-    required_side_px : float or None
-        Side of a square (cube) of that area.
-    images_needed : int or None
-        Number of images of the present size for the target error.
-    gitman_smallest_side_px : int or None
-        Smallest window side from which every size up to the largest tested passes the
-        chi-square criterion of Gitman et al. (2007).
-    verdict : str
-        The adequacy in plain words.
-    """
-
-    key: str
-    value: float
-    variance_area: float | None
-    point_variance: float | None
-    integral_range_px: float | None
-    exponent: float | None
-    fit_sides_px: tuple[int, ...]
-    whole_image_variance: float | None
-    supported_error_pct: float | None
-    required_area_px: float | None
-    required_side_px: float | None
-    images_needed: int | None
-    gitman_smallest_side_px: int | None
-    verdict: str
-
-    @property
-    def enough(self) -> bool | None:
-        """Whether one image of this size meets the target (None: unknown)."""
-        return None if self.images_needed is None else self.images_needed <= 1
-
-    def to_dict(self, pixel_size_um: float | None = None) -> dict:
-        d = {f.name: getattr(self, f.name) for f in dataclasses.fields(self)}
-        d["fit_sides_px"] = list(self.fit_sides_px)
-        d["required_side_um"] = (None if self.required_side_px is None or not pixel_size_um
-                                 else self.required_side_px * pixel_size_um)
-        d["enough"] = self.enough
-        return {k: (None if isinstance(v, float) and not math.isfinite(v) else v)
-                for k, v in d.items()}
+    def summary(self) -> WindowLevelRecord:
+        """Count, mean, standard deviation and chi-square adequacy of every quantity."""
+        stats_ = {key: LevelStats(int(v.size), float(v.mean()),
+                                  float(v.std(ddof=1)) if v.size > 1 else None,
+                                  gitman_chi2(v) if v.size > 1 else None)
+                  for key, v in self.values.items()}
+        return WindowLevelRecord(tuple(self.side_px), self.area_px, self.n_windows,
+                                 self.n_solved, stats_)
 
 
 @dataclass(frozen=True)
@@ -238,18 +159,14 @@ class WindowStudy:
     notes: tuple[str, ...]
     verdict: str
 
-    def to_dict(self) -> dict:
-        """The ``windows`` block of the result JSON (keys in docs/results.md)."""
-        return {"edges": self.edges, "target_error_pct": self.target_error * 100.0,
-                "confidence": self.confidence, "shape": list(self.shape),
-                "pixel_size_um": self.pixel_size_um,
-                "particle_diameter_px": self.particle_diameter_px,
-                "min_side_px": self.min_side_px, "fit_min_side_px": self.fit_min_side_px,
-                "properties": list(self.properties),
-                "levels": [lv.to_dict() for lv in self.levels],
-                "quantities": {k: q.to_dict(self.pixel_size_um)
-                               for k, q in self.quantities.items()},
-                "notes": list(self.notes), "verdict": self.verdict}
+    def summary(self) -> WindowRecord:
+        """The study as it goes into the result (per-window values summarised)."""
+        return WindowRecord(self.edges, self.target_error * 100.0, self.confidence,
+                            tuple(self.shape), self.pixel_size_um, self.particle_diameter_px,
+                            self.min_side_px, self.fit_min_side_px, tuple(self.properties),
+                            tuple(lv.summary() for lv in self.levels),
+                            dict(self.quantities),
+                            tuple(self.notes), self.verdict)
 
 
 def feature_diameter_px(labels: np.ndarray) -> float:
@@ -367,7 +284,8 @@ def solver_evaluator(phasemap, properties, *, method: str = "auto", tol: float =
                          f"{', '.join(PROPERTY_KEYS)}")
     materials = phasemap.materials
 
-    def evaluate(labels: np.ndarray) -> dict:
+    def evaluate(window: np.ndarray) -> dict:
+        labels = solver_labels(window)
         out, stiff = {}, None
         if "conductivity" in properties:
             out["conductivity_W_mK"] = solve.conductivity(labels, materials, method=method,
@@ -485,12 +403,12 @@ def window_study(phasemap, properties=(), *, evaluate: Evaluate | None = None,
     quantities = {}
     area = math.prod(labels.shape)
     for key in whole.values:
-        label = next((lab for lab, n in names.items() if key == f"fraction_{n}"), None)
+        label = next((lab for lab, n in names.items() if key == fraction_column(n)), None)
         point_var = None if label is None else fractions[label] * (1.0 - fractions[label])
         quantities[key] = _fit(key, float(whole.values[key][0]), point_var,
                                [lv for lv in fit_levels if key in lv.values], levels, area,
                                labels.ndim, z, target_error, confidence, phasemap.voxel_size_um)
-    verdict = _overall_verdict(quantities, target_error, confidence, notes, area,
+    verdict = overall_verdict(quantities, target_error, confidence, notes, area,
                                labels.ndim, phasemap.voxel_size_um)
     return WindowStudy(tuple(labels.shape), phasemap.voxel_size_um, edges, target_error,
                        confidence, diameter, min_side, fit_min, tuple(levels), quantities,
@@ -503,7 +421,7 @@ def _measure_level(labels, side, phasemap, evaluate, edges, max_solves) -> Windo
     stacked = np.stack(wins) if len(wins) > 1 else labels[None]
     axes = tuple(range(1, stacked.ndim))
     for p in phasemap.phases:
-        values[f"fraction_{p.name}"] = (stacked == p.label).mean(axis=axes)
+        values[fraction_column(p.name)] = (stacked == p.label).mean(axis=axes)
     chosen = []
     if evaluate is not None:
         n = len(wins)
@@ -523,7 +441,7 @@ def _fit(key, value, point_var, fit_levels, levels, area, ndim, z, target, confi
              for lv in fit_levels]
     if not pairs:
         return QuantityFit(key, value, None, point_var, None, None, (), None, None, None, None,
-                           None, gitman_side, f"{_label(key)}: no window study possible")
+                           None, gitman_side, f"{quantity_words(key)}: no window study possible")
     weights = np.array([dof for _, _, dof in pairs], dtype=float)
     k_est = float(np.sum([v * a * dof for v, a, dof in pairs]) / weights.sum())
     exponent = None
@@ -539,16 +457,17 @@ def _fit(key, value, point_var, fit_levels, levels, area, ndim, z, target, confi
     if value == 0:
         return QuantityFit(key, value, k_est, point_var, a3, exponent, sides, whole_var,
                            None, None, None, None, gitman_side,
-                           f"{_label(key)} is zero in this image: no relative error")
+                           f"{quantity_words(key)} is zero in this image: no relative error")
     supported = z * math.sqrt(whole_var) / abs(value)
     required = k_est * (z / (target * abs(value))) ** 2
     images = max(1, math.ceil(required / area - 1e-12))
+    side = required ** (1.0 / ndim)
     fit = QuantityFit(key, value, k_est, point_var, a3, exponent, sides, whole_var,
-                      supported * 100.0, required, required ** (1.0 / ndim), images,
-                      gitman_side, "")
-    head = f"{_label(key)}: {_pct(supported)} at {confidence * 100:g} %"
-    verdict = (f"{head}; this image is large enough for {_pct(target)}" if images <= 1 else
-               f"{head}; for {_pct(target)} it takes {_need_words(fit, area, ndim, pixel_um)}")
+                      supported * 100.0, required, side, images, gitman_side, "",
+                      side * pixel_um if pixel_um else None)
+    head = f"{quantity_words(key)}: {percent_words(supported)} at {confidence * 100:g} %"
+    verdict = (f"{head}; this image is large enough for {percent_words(target)}" if images <= 1 else
+               f"{head}; for {percent_words(target)} it takes {need_words(fit, area, ndim, pixel_um)}")
     return dataclasses.replace(fit, verdict=verdict)
 
 
@@ -562,161 +481,3 @@ def _gitman_side(key, levels) -> int | None:
             break
         passing = min(lv.side_px)
     return passing
-
-
-def _label(key: str) -> str:
-    return quantity_label(key)[0]
-
-
-def _size_words(measure: float, ndim: int, pixel_um: float | None) -> str:
-    side = measure ** (1.0 / ndim)
-    shape = " × ".join([_length(side, pixel_um)] * ndim)
-    return shape
-
-
-def _length(px: float, pixel_um: float | None) -> str:
-    if not pixel_um:
-        return f"{sig(px, 3)} px"
-    um = px * pixel_um
-    return f"{sig(um / 1000.0, 3)} mm" if um >= 1000 else f"{sig(um, 3)} µm"
-
-
-def _pct(fraction: float) -> str:
-    return f"±{sig(fraction * 100.0)} %"
-
-
-def _need_words(q: QuantityFit, area: float, ndim: int, pixel_um: float | None) -> str:
-    ratio = (q.required_area_px / area) ** (1.0 / ndim)
-    return (f"an image of {_size_words(q.required_area_px, ndim, pixel_um)} "
-            f"({sig(ratio)}× the side of this one) or {q.images_needed} images of this size")
-
-
-def _overall_verdict(quantities, target, confidence, notes, area, ndim, pixel_um) -> str:
-    fitted = [q for q in quantities.values() if q.supported_error_pct is not None]
-    if not fitted:
-        return "No window study was possible: " + ("; ".join(notes) or "no quantity varies")
-    tgt = f"{_pct(target)} at {confidence * 100:g} % confidence"
-    short = [q for q in fitted if q.enough is False]
-    if not short:
-        worst = max(fitted, key=lambda q: q.supported_error_pct)
-        return (f"This image is large enough for {tgt} on every quantity measured (the "
-                f"largest error is {_pct(worst.supported_error_pct / 100.0)}, on "
-                f"{_label(worst.key)}).")
-    listed = ", ".join(f"{_label(q.key)} ({_pct(q.supported_error_pct / 100.0)})"
-                       for q in short)
-    worst = max(short, key=lambda q: q.required_area_px)
-    return (f"This image is not large enough for {tgt} on {listed}. The most demanding, "
-            f"{_label(worst.key)}, needs {_need_words(worst, area, ndim, pixel_um)}.")
-
-
-def parse_target_error(text: str) -> float:
-    """``"2%"`` or ``"0.02"`` → 0.02.
-
-    Examples
-    --------
-    >>> parse_target_error("2%"), parse_target_error("0.05")
-    (0.02, 0.05)
-    """
-    s = str(text).strip()
-    try:
-        value = float(s[:-1]) / 100.0 if s.endswith("%") else float(s)
-    except ValueError:
-        raise InputError(f"--target-error {text!r}: give a percentage such as 2% or a "
-                         "fraction such as 0.02") from None
-    if not 0.0 < value < 1.0:
-        raise InputError(f"--target-error {text!r} must be between 0 and 100 %")
-    return value
-
-
-def add_window_study(analysis, config=None, *, edges: str = "periodic",
-                     target_error: float = 0.05, progress: Callable[[str], None] | None = None):
-    """Run `window_study` on an analysis and return it with the ``windows`` block filled.
-
-    The effective properties studied per window are those the analysis computed (its
-    ``effective`` block), with the solver settings of *config*; with periodic edges the
-    analysis's own whole-image values stand for the largest window.
-
-    Parameters
-    ----------
-    analysis : polisect.pipeline.analysis.Analysis
-    config : Config, optional
-    edges, target_error, progress
-        As in `window_study`.
-
-    Returns
-    -------
-    polisect.pipeline.analysis.Analysis
-        A copy whose ``result.windows`` holds `WindowStudy.to_dict` and whose timings
-        include ``windows``.
-    """
-    cfg = config or Config()
-    effective = analysis.result.effective or {}
-    props = tuple(p for p in cfg.solve.properties if effective.get(p))
-    row = headline(analysis.result.to_dict())
-    whole = {PROPERTY_KEYS[p]: row[PROPERTY_KEYS[p]] for p in props
-             if row.get(PROPERTY_KEYS[p]) is not None}
-    tick = time.perf_counter()
-    study = window_study(analysis.phasemap, props, method=cfg.solve.method,
-                         tol=cfg.solve.tolerance, plane=cfg.solve.plane, edges=edges,
-                         target_error=target_error, progress=progress,
-                         whole=whole if len(whole) == len(props) else None)
-    timings = {**analysis.result.timings_s, "windows": time.perf_counter() - tick}
-    result = dataclasses.replace(analysis.result, windows=study.to_dict(), timings_s=timings)
-    return dataclasses.replace(analysis, result=result)
-
-
-def window_figure(windows: dict):
-    """Each quantity against window side: window mean with the 95 % range of single windows,
-    and the whole-image value with the interval of the integral-range fit.
-
-    Parameters
-    ----------
-    windows : dict
-        The ``windows`` block of a result (`WindowStudy.to_dict`).
-
-    Returns
-    -------
-    matplotlib.figure.Figure
-    """
-    # matplotlib only here: the window study itself runs in batch workers and scripts that
-    # draw nothing.
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
-    keys = list(windows["quantities"])
-    z = float(stats.norm.ppf(0.5 + windows["confidence"] / 2.0))
-    um = windows.get("pixel_size_um")
-    ncol = min(3, len(keys))
-    nrow = math.ceil(len(keys) / ncol)
-    fig, axes = plt.subplots(nrow, ncol, figsize=(3.4 * ncol, 2.7 * nrow), squeeze=False)
-    for ax, key in zip(axes.ravel(), keys):
-        q = windows["quantities"][key]
-        pts = [(min(lv["side_px"]), lv["area_px"], lv["quantities"][key])
-               for lv in windows["levels"] if key in lv["quantities"]]
-        side = np.array([p[0] for p in pts], dtype=float) * (um or 1.0)
-        mean = np.array([p[2]["mean"] for p in pts])
-        spread = np.array([z * (p[2]["sd"] or 0.0) for p in pts])
-        ax.errorbar(side, mean, yerr=spread, fmt="o", color="#20304f", capsize=3, markersize=4,
-                    label="windows: mean, 95 % range")
-        if q["variance_area"] is not None:
-            fine = np.geomspace(side.min(), side.max(), 60)
-            area = (fine / (um or 1.0)) ** len(windows["shape"])
-            half = z * np.sqrt(q["variance_area"] / area)
-            ax.fill_between(fine, q["value"] - half, q["value"] + half, color="#e0a030",
-                            alpha=0.25, label="integral-range fit, 95 %")
-        ax.axhline(q["value"], color="#e0a030", lw=1)
-        ax.set_xscale("log", base=2)
-        ax.set_xticks(side, [sig(v, 3) for v in side])
-        ax.minorticks_off()
-        label, unit = quantity_label(key)
-        ax.set_title(label + (f" ({unit})" if unit else ""), fontsize=9)
-        ax.set_xlabel(f"window side ({'µm' if um else 'px'})", fontsize=8)
-        ax.tick_params(labelsize=7)
-        ax.grid(alpha=0.3)
-    for ax in axes.ravel()[len(keys):]:
-        ax.set_axis_off()
-    axes.ravel()[0].legend(fontsize=7, loc="best")
-    fig.tight_layout()
-    return fig

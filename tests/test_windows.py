@@ -1,4 +1,4 @@
-"""Tests of polisect.trust.rve: window tiling, integral range, required size, mirrored windows."""
+"""Tests of polisect.trust.windows: window tiling, integral range, required size, mirrored windows."""
 
 import json
 import math
@@ -13,9 +13,11 @@ from polisect.apps.cli import main
 from polisect.read.config import config_from_dict
 from polisect.core.errors import InputError
 from polisect.core.phasemap import Phase, PhaseMap
-from polisect.pipeline.analysis import analyze, write_outputs
-from polisect.trust.rve import (add_window_study, feature_diameter_px, mirrored, parse_target_error,
-                          tile_levels, window_study, windows_of)
+from polisect.apps.cli import parse_target_error
+from polisect.apps.run import write_outputs
+from polisect.pipeline.analysis import analyze
+from polisect.trust.windows import (feature_diameter_px, mirrored, tile_levels, window_study,
+                                    windows_of)
 from polisect.model3d.synth import rsa_discs
 
 TWO = (Phase(0, "pore", Material(conductivity=1.0)), Phase(1, "solid", Material(conductivity=5.0)))
@@ -248,11 +250,12 @@ def test_analyze_with_windows_through_files(tmp_path, capsys):
 
     cfg = config_from_dict({"image": {"kind": "labels"},
                             "solve": {"properties": ["conductivity"], "fields": False},
+                            "windows": {"study": True, "target_error": 0.05},
                             "phase": [{"label": 0, "name": "matrix", "conductivity": 1.0},
                                       {"label": 1, "name": "grain", "conductivity": 10.0}]})
-    a = add_window_study(analyze(tif, cfg), cfg, target_error=0.05)
-    assert a.result.windows["edges"] == "periodic" and "windows" in a.result.timings_s
-    whole = a.result.windows["quantities"]["conductivity_W_mK"]["value"]
-    assert whole == a.result.effective["conductivity"]["mean_W_mK"]   # reused, not re-solved
+    a = analyze(tif, cfg)
+    assert a.result.windows.edges == "periodic" and "windows" in a.result.timings_s
+    whole = a.result.windows.quantities["conductivity_W_mK"].value
+    assert whole == a.result.effective.conductivity.mean   # reused, not re-solved
     paths = write_outputs(a, tmp_path / "o2", config=cfg)
-    assert json.loads(open(paths.json).read())["windows"]["verdict"] == a.result.windows["verdict"]
+    assert json.loads(open(paths.json).read())["windows"]["verdict"] == a.result.windows.verdict

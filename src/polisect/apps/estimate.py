@@ -9,10 +9,10 @@ from __future__ import annotations
 
 import json
 
-from ...core.atomic import atomic_write_text
-from ...core.errors import InputError
-from ...core.materials import Material, get_material
-from .result import evaluate
+from ..core.atomic import atomic_write_text
+from ..core.errors import InputError
+from ..core.materials import Material, get_material
+from ..properties.schemes import evaluate
 
 _KEYS = {"k": "conductivity", "conductivity": "conductivity",
          "e": "youngs_modulus", "youngs_modulus": "youngs_modulus",

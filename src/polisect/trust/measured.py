@@ -1,0 +1,170 @@
+"""Measured values beside the computed ones: how far apart, in units of the uncertainty.
+
+A lab measures conductivity (laser flash, hot wire), Young's or shear modulus (resonance,
+ultrasound) and expansion (dilatometer) on the same batch. Each ``[[measured]]`` value is
+set beside the computed value of the same property at the same temperature — from the
+section's model (a 2D section solved as a prismatic structure, or a volume) and from the
+3D estimate when it ran — and beside the Hashin–Shtrikman bounds of the isotropic 3D
+composite with the section's fractions, which hold for any isotropic arrangement of the
+phases (Hashin & Shtrikman 1962, 1963).
+
+The difference is given as z = (computed − measured) / u, with u the measurement's stated
+standard uncertainty (the computed value's own uncertainty is not included here; it is the
+error budget's). |z| ≤ 2 agrees at about 95 %; a measured value outside the bounds means the
+phase map or the phase properties are wrong, not the solver.
+
+References
+----------
+.. [1] Hashin, Z., Shtrikman, S. (1962). A variational approach to the theory of the
+   effective magnetic permeability of multiphase materials. J. Appl. Phys. 33, 3125-3131.
+.. [2] Hashin, Z., Shtrikman, S. (1963). A variational approach to the theory of the
+   elastic behaviour of multiphase materials. J. Mech. Phys. Solids 11, 127-140.
+.. [3] JCGM 100:2008 (GUM). Evaluation of measurement data — Guide to the expression of
+   uncertainty in measurement (standard uncertainty, coverage factor 2 for about 95 %).
+
+Examples
+--------
+>>> agreement(2.3, 2.1, 0.2)
+'agrees within 1 standard uncertainty'
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from ..properties.records import Effective, value_of
+from ..properties.schemes import Bound
+
+ROOM_C = 20.0
+"""The temperature of an analysis without [solve] temperatures_C."""
+
+MATCH_K = 5.0
+"""A measurement within this many kelvin of a solved temperature is compared with it."""
+
+_READ = {"conductivity": ("conductivity", "mean"),
+         "youngs_modulus": ("elasticity", "youngs_modulus"),
+         "shear_modulus": ("elasticity", "shear_modulus"),
+         "expansion": ("expansion", "mean"),
+         "mean_expansion": ("expansion", "mean")}
+"""Measured property → (block, attribute) of `Effective` holding its computed value."""
+
+_BOUND = {"conductivity": "conductivity", "youngs_modulus": "youngs_modulus",
+          "shear_modulus": "shear_modulus", "expansion": "expansion",
+          "mean_expansion": "expansion"}
+"""Measured property → the `Estimate` field of its bounds."""
+
+
+@dataclass(frozen=True)
+class MeasuredComparison:
+    """One measured value beside the computed ones.
+
+    Attributes
+    ----------
+    property : str
+        ``conductivity``, ``youngs_modulus``, ``shear_modulus``, ``expansion`` or
+        ``mean_expansion`` (units W/(m·K), GPa, 1/K).
+    value, uncertainty : float, float or None
+        As measured (standard uncertainty).
+    temperature_C : float
+    method : str
+    section : float or None
+        Computed on the section's model at that temperature (None: not computed there).
+    estimate_3d : float or None
+        Computed by the 3D estimate (room temperature only).
+    lower, upper : float or None
+        Hashin–Shtrikman bounds of the isotropic 3D composite (room temperature values).
+    z_section, z_3d : float or None
+        (computed − measured) / uncertainty.
+    verdict : str
+        The comparison in words.
+    """
+
+    property: str
+    value: float
+    uncertainty: float | None
+    temperature_C: float
+    method: str
+    section: float | None
+    estimate_3d: float | None
+    lower: float | None
+    upper: float | None
+    z_section: float | None
+    z_3d: float | None
+    verdict: str
+
+
+def agreement(computed: float, measured: float, uncertainty: float | None) -> str:
+    """How a computed value stands to a measured one, in words."""
+    if not uncertainty:
+        diff = 100.0 * (computed - measured) / abs(measured) if measured else float("nan")
+        return f"differs by {diff:+.1f} % (no uncertainty given for the measurement)"
+    z = (computed - measured) / uncertainty
+    for k in (1, 2, 3):
+        if abs(z) <= k:
+            return f"agrees within {k} standard uncertaint{'y' if k == 1 else 'ies'}"
+    return f"differs by {abs(z):.1f} standard uncertainties ({'above' if z > 0 else 'below'})"
+
+
+def compare_measured(measured, by_temperature: dict[float, Effective],
+                     effective_3d: Effective | None = None,
+                     bounds: dict[str, Bound] | None = None) -> tuple[MeasuredComparison, ...]:
+    """Set every measured value beside the computed ones.
+
+    Parameters
+    ----------
+    measured : sequence of `polisect.read.config.MeasuredValue`
+    by_temperature : dict
+        Temperature (°C) → the section's `Effective` solved at it.
+    effective_3d : Effective, optional
+        The 3D estimate (at room temperature).
+    bounds : dict, optional
+        `Estimate` field → `Bound` of the isotropic 3D composite.
+
+    Returns
+    -------
+    tuple of MeasuredComparison
+    """
+    out = []
+    for m in measured:
+        block, attr = _READ[m.property]
+        at = min(by_temperature, key=lambda t: abs(t - m.temperature_C), default=None)
+        section = None
+        if at is not None and abs(at - m.temperature_C) <= MATCH_K:
+            section = _value(by_temperature[at], block, attr)
+        e3 = (_value(effective_3d, block, attr)
+              if effective_3d is not None and abs(m.temperature_C - ROOM_C) <= MATCH_K else None)
+        b = (bounds or {}).get(_BOUND[m.property])
+        lower = upper = None
+        if b is not None and abs(m.temperature_C - ROOM_C) <= MATCH_K:
+            lower, upper = b.lower, b.upper
+        z2 = None if section is None or not m.uncertainty else (section - m.value) / m.uncertainty
+        z3 = None if e3 is None or not m.uncertainty else (e3 - m.value) / m.uncertainty
+        out.append(MeasuredComparison(m.property, m.value, m.uncertainty, m.temperature_C,
+                                      m.method, section, e3, lower, upper, z2, z3,
+                                      _verdict(m, section, e3, lower, upper, by_temperature)))
+    return tuple(out)
+
+
+def _value(effective: Effective, block: str, attr: str) -> float | None:
+    b = getattr(effective, block)
+    return None if b is None else value_of(getattr(b, attr))
+
+
+def _verdict(m, section, e3, lower, upper, by_temperature) -> str:
+    parts = []
+    if section is not None:
+        parts.append(f"the section's model {agreement(section, m.value, m.uncertainty)}")
+    elif by_temperature:
+        solved = ", ".join(f"{t:g}" for t in sorted(by_temperature))
+        parts.append(f"not computed at {m.temperature_C:g} °C (solved at {solved} °C); add "
+                     "it to [solve] temperatures_C")
+    else:
+        parts.append(f"{m.property.replace('_', ' ')} was not computed; add it to [solve] "
+                     "properties")
+    if e3 is not None:
+        parts.append(f"the 3D estimate {agreement(e3, m.value, m.uncertainty)}")
+    if lower is not None and upper is not None and not lower <= m.value <= upper:
+        parts.append(f"the measured value lies outside the bounds of any isotropic composite "
+                     f"of these phases ({lower:.4g}–{upper:.4g}): check the phase map (pores "
+                     "missed or over-counted) and the phase properties")
+    return "; ".join(parts)
