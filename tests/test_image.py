@@ -378,3 +378,12 @@ def test_information_band_cut_by_default(tmp_path):
     plain = tmp_path / "plain.tif"
     write_tiff(plain, r.image[:200])
     assert read_image(plain).cropped_bottom_px == 0
+
+
+def test_label_maps_have_no_band():
+    """A label map whose bottom rows are one phase is not cut (it has few grey levels)."""
+    labels = np.zeros((100, 80), np.uint8)
+    labels[::7, ::5] = 1
+    labels[90:] = 2
+    labels[93:96, 10:40] = 1
+    assert find_info_band(labels) == 0

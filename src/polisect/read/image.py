@@ -40,6 +40,9 @@ MIN_SIDE_PX = 2
 #: TIFF resolutions in dots per inch that imaging software writes by default; they carry no
 #: calibration and are ignored.
 DEFAULT_DPI = (72.0, 96.0, 150.0, 300.0, 600.0)
+#: An image with at most this many distinct grey levels (on a 64 × 64 sample) is taken as a
+#: label or palette map, which carries no information band.
+LABEL_LEVELS = 16
 #: ITU-R BT.709 luma weights of R, G and B.
 BT709 = (0.2126, 0.7152, 0.0722)
 
@@ -598,7 +601,8 @@ def find_info_band(image: np.ndarray, *, max_fraction: float = 0.4, min_rows: in
     from the bottom edge, with up to three uniform separator lines above it. It is
     accepted when it is between *min_rows* and *max_fraction* of the height tall and the
     rows above look different (their median share of background-level pixels is at most
-    half and at least 0.3 below the band's mean share).
+    half and at least 0.3 below the band's mean share). Images with at most `LABEL_LEVELS`
+    distinct grey levels are label maps and have no band.
 
     Parameters
     ----------
@@ -626,7 +630,8 @@ def find_info_band(image: np.ndarray, *, max_fraction: float = 0.4, min_rows: in
     """
     g = np.asarray(image, dtype=np.float64)
     span = float(g.max() - g.min())
-    if span == 0:
+    if span == 0 or np.unique(g[::max(1, g.shape[0] // 64), ::max(1, g.shape[1] // 64)]).size \
+            <= LABEL_LEVELS:
         return 0
     tol = 0.02 * span
     level = np.median(g[-1])
