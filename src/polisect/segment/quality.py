@@ -18,6 +18,8 @@ from __future__ import annotations
 import numpy as np
 from scipy import ndimage
 
+from .correct import _interior
+
 __all__ = ["quality_warnings", "histogram_warning", "separation_warning", "drift_warning",
            "edge_warning",
            "pullout_warning", "confidence_warning", "band_warning", "SEPARATION_D",
@@ -43,11 +45,6 @@ PULLOUT_BORDER = 0.4
 PULLOUT_AREA = 0.01
 #: Speckle on more than this share of the pixels is flagged.
 SPECKLE_SHARE = 0.005
-
-
-def _interior(labels, margin=2):
-    size = 2 * margin + 1
-    return ndimage.maximum_filter(labels, size) == ndimage.minimum_filter(labels, size)
 
 
 def _robust(values):

@@ -34,7 +34,7 @@ import numpy as np
 from scipy import ndimage
 
 from ..core.errors import InputError
-from .correct import correct_image
+from .correct import _interior, correct_image
 from .features import full_scale, pixel_features
 
 __all__ = ["Segmenter", "train_segmenter", "refine_boundaries", "FORMAT", "TREES",
@@ -204,9 +204,7 @@ def refine_boundaries(labels: np.ndarray, grey: np.ndarray, confidence: np.ndarr
     """
     out = np.asarray(labels).astype(np.int32)
     grey = np.asarray(grey, float)
-    size = 5
-    interior = ndimage.maximum_filter(out, size) == ndimage.minimum_filter(out, size)
-    sure = interior & (confidence >= 0.9)
+    sure = _interior(out) & (confidence >= 0.9)
     smooth = ndimage.gaussian_filter(grey, REFINE_SIGMA_PX)
     stats = {}
     for v in np.unique(out):
