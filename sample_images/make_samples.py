@@ -17,8 +17,9 @@ Usage::
 Each section is a TIFF with resolution tags (centimetres for line A, inches for line B),
 ``<name>_truth.tif`` beside it holds the true label map, and ``amc.toml`` and
 ``castable.toml`` are the run configs. Everything is periodic random sequential
-addition (`polisect.model3d.synth.compose`) rendered with `polisect.model3d.synth.render_sem`; the same
-command writes the same files.
+addition (`polisect.model3d.synth.compose`) rendered with `polisect.model3d.synth.render_sem`,
+except the hard sections (`HARD`), rendered with the defects of a real session by
+`polisect.model3d.defects.render_micrograph`; the same command writes the same files.
 """
 
 from __future__ import annotations
@@ -32,6 +33,7 @@ import numpy as np
 
 from polisect.core.atomic import atomic_write_text
 from polisect.read.image import write_tiff
+from polisect.model3d.defects import Defects, render_micrograph
 from polisect.model3d.synth import Inclusions, compose, render_sem
 
 SHAPE = (512, 512)
@@ -40,6 +42,11 @@ SHIPPED = (("amc", 1, 1), ("amc", 1, 2), ("castable", 1, 1), ("castable", 1, 2))
 #: Sections rendered with an instrument information band (exercises crop_bottom_px = "auto").
 WITH_BAND = {("amc", 1, 2), ("amc", 2, 2), ("amc", 3, 4)}
 INFO_BAND_PX = 40
+#: Hard sections: imaged on a bad day. Uneven illumination of ±30 %, noise of 25 grey levels
+#: (σ), six polishing scratches and the information band (the acceptance case of the
+#: segmentation, issue 14). The truth stays the rendered label map.
+HARD = {("amc", 1, 2): Defects(blur_px=0.6, shading=0.30, noise_sd=25 / 255, scratches=6,
+                               info_band_px=INFO_BAND_PX)}
 
 
 @dataclass(frozen=True)
@@ -109,9 +116,46 @@ SERVICE = {"amc": "",
 strength_MPa = 25.0
 fracture_energy_J_m2 = 40.0
 """}
+#: Extra lines of a [[phase]] entry, by (line, label): the castable's micro-porous bond.
+PHASE_EXTRA = {("castable", 1): """# The bond is micro-porous below the 2 µm pixel: its dense mullite values are made porous
+# with the Mori-Tanaka scheme for spherical pores before the image is solved (invented
+# porosity for the fictional scenario).
+porosity = 0.30
+pore_shape = "spherical"
+"""}
+#: Extra lines of [solve], per line: the castable's service temperatures.
+SOLVE_EXTRA = {"amc": "", "castable": """# The castable's service range: every phase at each temperature, radiation across the pores
+# from 400 °C.
+temperatures_C = [20, 600, 1200]
+"""}
+#: Invented measured values of the demo, per line.
+MEASURED = {"amc": "", "castable": """
+# Lab values of batch 1 (INVENTED for the fictional Kestrel Foundry Supply demo: not
+# measurements of any real material).
+[[measured]]
+property = "conductivity"
+value = 3.8
+uncertainty = 0.3
+temperature_C = 20
+method = "laser flash (invented demo value)"
+
+[[measured]]
+property = "conductivity"
+value = 2.6
+uncertainty = 0.2
+temperature_C = 600
+method = "hot wire (invented demo value)"
+
+[[measured]]
+property = "youngs_modulus"
+value = 80.0
+uncertainty = 5.0
+temperature_C = 20
+method = "impulse excitation (invented demo value)"
+"""}
 #: [image] crop_bottom_px per line (TOML value).
-CROP = {"amc": '"auto"   # some sections carry the microscope\'s information band',
-        "castable": "0"}
+CROP = {"amc": '"auto"   # the default: the microscope\'s information band is found and cut',
+        "castable": '"auto"   # the default: the microscope\'s information band is found and cut'}
 #: [[phase]] entries per line: (label, name, library material, particle statistics).
 PHASES = {"amc": [(0, "pore", "air", True), (1, "SiC", "silicon-carbide", True),
                   (2, "aluminium", "aluminium", False)],
@@ -127,7 +171,7 @@ label = {label}
 name = "{name}"
 material = "{material}"
 particles = {str(particles).lower()}
-""" for label, name, material, particles in PHASES[line])
+{PHASE_EXTRA.get((line, label), "")}""" for label, name, material, particles in PHASES[line])
     return f"""{CONFIG_HEADERS[line]}
 [image]
 kind = "grayscale"
@@ -138,15 +182,16 @@ crop_bottom_px = {CROP[line]}
 method = "multi-otsu"
 classes = 3
 denoise = "median"
-denoise_px = 1
-min_feature_px = 20
+# denoise_px and min_feature_px are left at "auto": the filter radius follows the noise,
+# the smallest feature the filter radius (the same rule in every entry point).
+# Shading, speckle, scratches and stripes are corrected when found ("auto").
 {phases}
 [solve]
 properties = ["conductivity", "elasticity", "expansion"]
 method = "auto"
 tolerance = 1e-6
 plane = "generalized-plane-strain"
-{SERVICE[line]}"""
+{SOLVE_EXTRA[line]}{SERVICE[line]}{MEASURED[line]}"""
 
 
 def render_section(line: str, batch: int, section: int) -> tuple[np.ndarray, np.ndarray]:
@@ -159,8 +204,12 @@ def render_section(line: str, batch: int, section: int) -> tuple[np.ndarray, np.
     offset, gain = rng.uniform(-0.02, 0.02), rng.uniform(0.95, 1.05)
     grey = {k: float(np.clip(offset + gain * v, 0, 1)) for k, v in spec.grey.items()}
     band = INFO_BAND_PX if (line, batch, section) in WITH_BAND else 0
-    image = render_sem(packing.labels, grey, blur_px=spec.blur_px, noise_sd=spec.noise_sd,
-                       seed=rng, info_band_px=band)
+    hard = HARD.get((line, batch, section))
+    if hard is not None:
+        image = render_micrograph(packing.labels, grey, hard, seed=rng).image
+    else:
+        image = render_sem(packing.labels, grey, blur_px=spec.blur_px, noise_sd=spec.noise_sd,
+                           seed=rng, info_band_px=band)
     return image, packing.labels.astype(np.uint8)
 
 

@@ -360,3 +360,30 @@ def test_pixel_limit_applies_to_png_and_to_memory(tmp_path, monkeypatch):
     monkeypatch.setattr(memory, "available_bytes", lambda: 1000)
     with pytest.raises(InputError, match="needs about .* of memory"):
         read_image(path)
+
+
+def test_information_band_cut_by_default(tmp_path):
+    """read_image cuts a detected information band unless told crop_bottom_px = 0 (issue
+    14: the band is cut by default in every entry point); the rendered band has text."""
+    from polisect.model3d.defects import Defects, render_micrograph
+    from polisect.model3d.synth import rsa_discs
+
+    labels = rsa_discs((200, 160), 0.3, 6.0, seed=1).labels
+    r = render_micrograph(labels, {0: 0.3, 1: 0.7}, Defects(shading=0.3, noise_sd=0.1,
+                                                             info_band_px=24), seed=2)
+    path = tmp_path / "banded.tif"
+    write_tiff(path, r.image)
+    assert read_image(path).cropped_bottom_px == 24
+    assert read_image(path, crop_bottom_px=0).cropped_bottom_px == 0
+    plain = tmp_path / "plain.tif"
+    write_tiff(plain, r.image[:200])
+    assert read_image(plain).cropped_bottom_px == 0
+
+
+def test_label_maps_have_no_band():
+    """A label map whose bottom rows are one phase is not cut (it has few grey levels)."""
+    labels = np.zeros((100, 80), np.uint8)
+    labels[::7, ::5] = 1
+    labels[90:] = 2
+    labels[93:96, 10:40] = 1
+    assert find_info_band(labels) == 0

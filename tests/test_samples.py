@@ -13,7 +13,7 @@ from polisect.read.config import load_config
 from polisect.read.image import read_image
 from polisect.apps.samples import sample_files
 from polisect.sample_images import make_samples
-from polisect.segment.thresholds import segment_grayscale
+from polisect.segment import make_phasemap_labels
 
 SAMPLES = sample_files()
 
@@ -22,10 +22,8 @@ def segment_with_config(image_path, config_path):
     cfg = load_config(config_path)
     micro = read_image(image_path, crop_bottom_px=cfg.image.crop_bottom_px,
                        pixel_size_um=cfg.image.pixel_size_um)
-    seg = cfg.segment
-    result = segment_grayscale(micro.data, method=seg.method, classes=seg.classes,
-                               thresholds=seg.thresholds, denoise=seg.denoise,
-                               denoise_px=seg.denoise_px, min_feature_px=seg.min_feature_px)
+    result = make_phasemap_labels(micro.data, micro.pixel_size_um, cfg.segment,
+                                  [p.label for p in cfg.phases])
     return micro, result, cfg
 
 

@@ -532,6 +532,53 @@ def _run_compare(args) -> int:
     return EXIT_OK
 
 
+def _add_train(sub):
+    p = sub.add_parser("train", help="train a segmenter on images painted with strokes",
+                       description="Train a pixel classifier (random forest on multiscale "
+                       "features) on one or more images with annotation strokes, and write it "
+                       "as a model file for [segment] method = \"trained\", model = FILE.")
+    p.add_argument("images", nargs="+", metavar="IMAGE", help="section images")
+    p.add_argument("--annotations", nargs="+", required=True, metavar="FILE",
+                   help="one strokes image per image: 0 = not annotated, v = phase label "
+                        "v − 1 (label 0 is painted 1)")
+    p.add_argument("--config", metavar="TOML", help="run config: its [image] crop and "
+                   "[segment] corrections are applied as in analyze")
+    p.add_argument("--out", required=True, metavar="MODEL.npz", help="model file to write")
+    p.add_argument("--crop-bottom", metavar="N|auto|0",
+                   help="rows of an information band to cut (default: auto-detect)")
+    p.set_defaults(run=_run_train)
+
+
+def _run_train(args) -> int:
+    from ..read.config import Config, load_config
+    from ..read.image import read_annotations, read_image, to_grayscale
+    from ..segment import train_segmenter
+
+    if len(args.annotations) != len(args.images):
+        raise InputError(f"give one --annotations file per image ({len(args.images)} images, "
+                         f"{len(args.annotations)} annotation files)")
+    cfg = load_config(args.config) if args.config else Config()
+    crop = cfg.image.crop_bottom_px
+    if args.crop_bottom is not None:
+        crop = "auto" if args.crop_bottom == "auto" else _train_rows(args.crop_bottom)
+    images, annotations = [], []
+    for path, ann in zip(args.images, args.annotations):
+        micro = read_image(path, crop_bottom_px=crop)
+        images.append(to_grayscale(micro.data) if micro.is_rgb else micro.data)
+        annotations.append(read_annotations(ann, micro))
+    model = train_segmenter(images, annotations, cfg.segment,
+                            names=[os.path.basename(p) for p in args.images])
+    model.save(args.out)
+    print(f"wrote {args.out}: labels {list(model.labels)}, {model.source}")
+    return EXIT_OK
+
+
+def _train_rows(text):
+    if not text.isdigit():
+        raise InputError(f"--crop-bottom {text!r}: give a number of rows ≥ 0, auto or 0")
+    return int(text)
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="polisect",
@@ -540,7 +587,7 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action="version", version=f"polisect {__version__}")
     sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
     for add in (_add_analyze, _add_batch, _add_compare, _add_demo, _add_materials,
-                _add_estimate, _add_bench, _add_serve):
+                _add_estimate, _add_bench, _add_serve, _add_train):
         add(sub)
     parser.add_argument("--debug", action="store_true",
                         help="show the traceback of an internal error")

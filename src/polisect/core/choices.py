@@ -5,8 +5,10 @@ segmentation, window study, the page) take them from here.
 """
 
 IMAGE_KINDS = ("grayscale", "labels", "palette")
-SEGMENT_METHODS = ("multi-otsu", "thresholds")
+SEGMENT_METHODS = ("multi-otsu", "thresholds", "trained")
 DENOISERS = ("median", "nl-means", "none")
+SEGMENT_CORRECTIONS = {"shading": ("auto", "none"), "stripes": ("auto", "columns", "rows", "none"),
+                       "speckle": ("auto", "none"), "scratches": ("auto", "none")}
 SOLVE_PROPERTIES = ("conductivity", "elasticity", "expansion")
 SOLVE_METHODS = ("auto", "fft", "fe", "ms")
 PLANES = ("generalized-plane-strain", "plane-strain", "plane-stress")

@@ -24,7 +24,8 @@ import re
 from dataclasses import dataclass, field
 
 from ..core.choices import (DENOISERS, IMAGE_KINDS, MEASURED_PROPERTIES, PLANES,
-                            SEGMENT_METHODS, SOLVE_METHODS, SOLVE_PROPERTIES, WINDOW_EDGES)
+                            SEGMENT_CORRECTIONS, SEGMENT_METHODS, SOLVE_METHODS,
+                            SOLVE_PROPERTIES, WINDOW_EDGES)
 from ..core.errors import InputError
 from ..core.materials import PROPERTIES, UNITS, Material, get_material, load_library_file
 
@@ -40,7 +41,7 @@ class ImageConfig:
 
     kind: str = "grayscale"
     pixel_size_um: float | None = None
-    crop_bottom_px: int | str = 0
+    crop_bottom_px: int | str = "auto"
     volume: bool = False
     slice_spacing_um: float | None = None
 
@@ -53,10 +54,17 @@ class SegmentConfig:
     classes: int | None = None
     thresholds: tuple[float, ...] | None = None
     denoise: str = "median"
-    denoise_px: float = 1.0
-    min_feature_px: int = 0
+    denoise_px: float | str = "auto"
+    min_feature_px: int | str = "auto"
     color_tolerance: float = 12.0
     fields: int = 16
+    # corrections before classification, and the trained route (polisect.segment)
+    shading: str = "auto"
+    stripes: str = "auto"
+    speckle: str = "auto"
+    scratches: str = "auto"
+    annotations: str | None = None
+    model: str | None = None
 
 
 @dataclass(frozen=True)
@@ -400,6 +408,8 @@ _VALUES = {
     ("uncertainty", "material"): ("bool",),
     ("windows", "target_error"): ("num", 1e-4, 0.99, "relative error at 95 %, e.g. 0.02"),
 }
+# keys that also take "auto" (chosen from the image by polisect.segment)
+_AUTO_KEYS = {"denoise_px", "min_feature_px"}
 # highest sane magnitude of a [[phase]] property override (diamond: ~2000 W/(m·K), ~1100 GPa)
 _PROPERTY_LIMITS = {"conductivity": 1e5, "youngs_modulus": 1e4, "poisson_ratio": 1.0,
                     "expansion": 1e-2}
@@ -450,7 +460,7 @@ def _check(cfg: Config) -> None:
     im, seg, sol = cfg.image, cfg.segment, cfg.solve
     for (section, key), rule in _VALUES.items():
         value = getattr(getattr(cfg, section), key)
-        if value is not None:
+        if value is not None and not (value == "auto" and key in _AUTO_KEYS):
             default = dataclasses.fields(type(getattr(cfg, section)))
             _value(value, rule, f"[{section}] {key}",
                    next(f.default for f in default if f.name == key))
@@ -476,6 +486,7 @@ def _check(cfg: Config) -> None:
     _choice(seg.denoise, DENOISERS, "[segment] denoise")
     if seg.method == "thresholds" and not seg.thresholds:
         raise InputError("[segment] method = \"thresholds\" needs thresholds = [t1, t2, ...]")
+    _check_segment_route(seg)
     for prop in sol.properties:
         _choice(prop, SOLVE_PROPERTIES, "[solve] properties entry")
     _choice(sol.method, SOLVE_METHODS, "[solve] method")
@@ -502,6 +513,30 @@ def _check(cfg: Config) -> None:
     for p in cfg.phases:
         for prop in sol.properties:
             p.material.require(*(n for n in needs[prop] if n != p.fit))
+
+
+def _check_segment_route(seg: SegmentConfig) -> None:
+    """The [segment] keys of the corrections, the defaults and the trained route."""
+    for key, options in SEGMENT_CORRECTIONS.items():
+        _choice(getattr(seg, key), options, f"[segment] {key}")
+    if seg.denoise_px != "auto" and (isinstance(seg.denoise_px, bool) or not isinstance(
+            seg.denoise_px, (int, float)) or seg.denoise_px < 1):
+        raise InputError(f"[segment] denoise_px = {seg.denoise_px!r}: give a radius of at "
+                         "least 1 pixel, or \"auto\" (chosen from the noise)")
+    if seg.min_feature_px != "auto" and (isinstance(seg.min_feature_px, bool) or not isinstance(
+            seg.min_feature_px, int) or seg.min_feature_px < 0):
+        raise InputError(f"[segment] min_feature_px = {seg.min_feature_px!r}: give a whole "
+                         "number of pixels ≥ 0, or \"auto\" (from the noise filter)")
+    for key in ("annotations", "model"):
+        if getattr(seg, key) is not None and not isinstance(getattr(seg, key), str):
+            raise InputError(f"[segment] {key} must be a file name in quotes")
+    if seg.method == "trained" and (seg.annotations is None) == (seg.model is None):
+        raise InputError("[segment] method = \"trained\" needs either annotations = "
+                         "\"strokes.png\" (0 = not annotated, v = phase label v − 1) or "
+                         "model = \"segmenter.npz\", not both")
+    if seg.method != "trained" and (seg.annotations or seg.model):
+        raise InputError("[segment] annotations and model are used by method = "
+                         "\"trained\" only; set it, or remove them")
 
 
 def _choice(value, options, what):

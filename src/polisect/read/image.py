@@ -33,13 +33,16 @@ from ..core.errors import InputError
 from ..core.memory import MAX_PIXELS, check_pixel_count
 
 __all__ = ["Micrograph", "read_image", "read_stack", "check_slice_spacing", "to_grayscale",
-           "find_info_band", "write_tiff"]
+           "find_info_band", "read_annotations", "write_tiff"]
 
 #: Smallest image side accepted, pixels.
 MIN_SIDE_PX = 2
 #: TIFF resolutions in dots per inch that imaging software writes by default; they carry no
 #: calibration and are ignored.
 DEFAULT_DPI = (72.0, 96.0, 150.0, 300.0, 600.0)
+#: An image with at most this many distinct grey levels (on a 64 × 64 sample) is taken as a
+#: label or palette map, which carries no information band.
+LABEL_LEVELS = 16
 #: ITU-R BT.709 luma weights of R, G and B.
 BT709 = (0.2126, 0.7152, 0.0722)
 
@@ -101,7 +104,7 @@ class Micrograph:
         return len(self.shape) == 3
 
 
-def read_image(path: str | os.PathLike, *, crop_bottom_px: int | str = 0,
+def read_image(path: str | os.PathLike, *, crop_bottom_px: int | str = "auto",
                pixel_size_um: float | None = None, pixel_size_from: str = "config",
                volume: bool = False) -> Micrograph:
     """Read a micrograph (or a stack of sections) from a file.
@@ -113,8 +116,8 @@ def read_image(path: str | os.PathLike, *, crop_bottom_px: int | str = 0,
     path : str or path-like
         TIFF (8/16/32-bit integer, float, RGB/RGBA, multi-page), PNG, JPEG or BMP.
     crop_bottom_px : int or 'auto'
-        Rows to cut from the bottom (an instrument information band); ``'auto'``
-        detects such a band with `find_info_band`.
+        Rows to cut from the bottom (an instrument information band); ``'auto'`` (the
+        default) detects such a band with `find_info_band`; 0 keeps every row.
     pixel_size_um : float, optional
         Pixel edge in micrometres given by the user.
     pixel_size_from : {'config', 'command line'}
@@ -179,7 +182,7 @@ SLICE_SUFFIXES = (".tif", ".tiff", ".png", ".bmp", ".jpg", ".jpeg")
 CUBIC_TOLERANCE = 0.01
 
 
-def read_stack(folder: str | os.PathLike, *, crop_bottom_px: int | str = 0,
+def read_stack(folder: str | os.PathLike, *, crop_bottom_px: int | str = "auto",
                pixel_size_um: float | None = None, pixel_size_from: str = "config",
                slice_spacing_um: float | None = None) -> Micrograph:
     """Read a folder of slice images as one (nz, ny, nx) volume.
@@ -598,7 +601,8 @@ def find_info_band(image: np.ndarray, *, max_fraction: float = 0.4, min_rows: in
     from the bottom edge, with up to three uniform separator lines above it. It is
     accepted when it is between *min_rows* and *max_fraction* of the height tall and the
     rows above look different (their median share of background-level pixels is at most
-    half and at least 0.3 below the band's mean share).
+    half and at least 0.3 below the band's mean share). Images with at most `LABEL_LEVELS`
+    distinct grey levels are label maps and have no band.
 
     Parameters
     ----------
@@ -626,7 +630,8 @@ def find_info_band(image: np.ndarray, *, max_fraction: float = 0.4, min_rows: in
     """
     g = np.asarray(image, dtype=np.float64)
     span = float(g.max() - g.min())
-    if span == 0:
+    if span == 0 or np.unique(g[::max(1, g.shape[0] // 64), ::max(1, g.shape[1] // 64)]).size \
+            <= LABEL_LEVELS:
         return 0
     tol = 0.02 * span
     level = np.median(g[-1])
@@ -646,6 +651,34 @@ def find_info_band(image: np.ndarray, *, max_fraction: float = 0.4, min_rows: in
             break
         run += 1
     return run
+
+
+def read_annotations(path: str | os.PathLike, micrograph: Micrograph) -> np.ndarray:
+    """Read an annotation (strokes) image for a micrograph.
+
+    The file holds whole numbers: 0 = not annotated, v = phase label v − 1. It has the
+    size of the micrograph's file (the rows of a cut information band are then cut from
+    it too) or of the micrograph as cut.
+
+    Raises
+    ------
+    InputError
+        Not a single-channel integer image, negative values, or another size.
+    """
+    ann = read_image(path, crop_bottom_px=0, pixel_size_um=1.0).data
+    if ann.ndim != 2 or not np.issubdtype(ann.dtype, np.integer) or ann.min() < 0:
+        raise InputError(f"{os.fspath(path)}: annotations must be a single-channel image of "
+                         "whole numbers ≥ 0 (0 = not annotated, v = phase label v − 1), e.g. "
+                         "an 8-bit PNG")
+    ny, nx = micrograph.shape[-2:]
+    cut = micrograph.cropped_bottom_px
+    if ann.shape == (ny + cut, nx) and cut:
+        ann = ann[:ny]
+    if ann.shape != (ny, nx):
+        raise InputError(f"{os.fspath(path)}: annotations of {ann.shape[1]} × {ann.shape[0]} px "
+                         f"do not match the image ({nx} × {ny + cut} px); paint them on the "
+                         "same image")
+    return ann.astype(np.int32)
 
 
 def write_tiff(path: str | os.PathLike, data: np.ndarray, *, pixel_size_um: float | None = None,
