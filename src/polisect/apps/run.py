@@ -41,6 +41,7 @@ class Outputs:
     phasemap: str
     overlay: str
     particles_csv: str | None = None
+    segmenter: str | None = None
 
     def files(self) -> dict[str, str]:
         """Kind → path of every file written."""
@@ -106,7 +107,9 @@ def write_outputs(analysis: Analysis, out_dir: str | os.PathLike, *, stem: str |
     rows = analysis.particle_rows
     names = Outputs(json=stem + ".json", csv=stem + ".csv", report=stem + "_report.html",
                     phasemap=stem + "_phases.tif", overlay=stem + "_overlay.png",
-                    particles_csv=stem + "_particles.csv" if rows else None)
+                    particles_csv=stem + "_particles.csv" if rows else None,
+                    segmenter=(stem + "_segmenter.npz" if analysis.segmenter is not None
+                               else None))
     staging = tempfile.mkdtemp(prefix=STAGING_PREFIX, dir=out_dir)
     try:
         def at(name):
@@ -114,6 +117,8 @@ def write_outputs(analysis: Analysis, out_dir: str | os.PathLike, *, stem: str |
 
         analysis.phasemap.save(at(names.phasemap))
         atomic_write(at(names.overlay), lambda tmp: _save_overlay(tmp, analysis, colors))
+        if names.segmenter:
+            analysis.segmenter.save(at(names.segmenter))
         if names.particles_csv:
             record.write_csv(rows, at(names.particles_csv))
         record.write_csv([record.headline(res)], at(names.csv))

@@ -44,7 +44,8 @@ Progress = Callable[[str], None]
 
 @dataclass(frozen=True, eq=False)
 class Analysis:
-    """A `Result` together with the arrays the report draws (never serialized)."""
+    """A `Result` together with the arrays the report draws (never serialized), and the
+    segmenter trained from this image's strokes (saved beside the outputs)."""
 
     result: Result
     phasemap: PhaseMap
@@ -53,6 +54,7 @@ class Analysis:
     particles: tuple = ()
     correlations: dict = field(default_factory=dict)
     field_maps: dict = field(default_factory=dict)
+    segmenter: object = None
 
     @property
     def particle_rows(self) -> list[dict]:
@@ -117,7 +119,8 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
                    cfg.solve.fields,
                    cfg.solve.voxels if cfg.solve.estimate_3d and cfg.phases else None)
     say("building the phase map")
-    phasemap, thresholds, seg_notes, seg_warnings = clock("segment", _phasemap, micro, cfg)
+    phasemap, thresholds, seg_notes, seg_warnings, segmentation, model = clock(
+        "segment", _phasemap, micro, cfg)
     warnings.extend(seg_warnings)
     if micro.pixel_size_um is None:
         warnings.append("pixel size unknown: sizes are in pixels; give [image] pixel_size_um "
@@ -159,7 +162,7 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
     uncertainty = {}
     if cfg.uncertainty.budget:
         uncertainty = clock("uncertainty", _uncertainty, phasemap, cfg, fractions, summaries,
-                            effective, effective_3d, windows, say, warnings)
+                            effective, effective_3d, windows, segmentation, say, warnings)
 
     src = Source(path=micro.path, sha256=micro.sha256, shape=tuple(phasemap.shape),
                  pixel_size_um=micro.pixel_size_um, pixel_size_from=micro.pixel_size_from,
@@ -174,12 +177,16 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
                     correlation={name: summarize_correlation(c)
                                  for name, c in correlations.items()} or None,
                     measured=measured, uncertainty=uncertainty,
+                    segmentation=segmentation.summary(model) if segmentation else None,
                     config_toml=cfg.raw, warnings=tuple(warnings), notes=tuple(notes),
                     timings_s=clock.timings, verification=verification,
                     created=_dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"))
     return Analysis(result=result, phasemap=phasemap, image=micro.data,
                     thresholds=tuple(thresholds), particles=particles,
-                    correlations=correlations, field_maps=solved.maps if solved else {})
+                    correlations=correlations, field_maps=solved.maps if solved else {},
+                    segmenter=(segmentation.segmenter if segmentation is not None
+                               and cfg.segment.method == "trained" and not cfg.segment.model
+                               else None))
 
 
 def _effective_3d(phasemap: PhaseMap, cfg: Config, effective: Effective | None, say: Progress,
@@ -228,7 +235,7 @@ def _effective_values(effective: Effective | None) -> dict[str, float]:
 
 
 def _uncertainty(phasemap: PhaseMap, cfg: Config, fractions, summaries, effective,
-                 effective_3d, windows, say: Progress, warnings: list) -> dict:
+                 effective_3d, windows, segmentation, say: Progress, warnings: list) -> dict:
     """The error budget of every headline number: sampling (field-to-field interval of the
     fractions, bootstrap interval of the particle D50), window size (the window study, when
     it ran), discretization (the map re-solved coarsened by 2 and 4, Richardson), material
@@ -246,11 +253,17 @@ def _uncertainty(phasemap: PhaseMap, cfg: Config, fractions, summaries, effectiv
         return abs(value) * q.supported_error_pct / 100.0
 
     names = {p.label: p.name for p in phasemap.phases}
+    ranges = segmentation.uncertainty.fractions if (segmentation is not None and
+                                                    segmentation.uncertainty) else {}
     out = {}
     for f in fractions:
         key = fraction_column(f.name)
-        out[key] = error_budget(key, f.fraction, sampling=(f.fraction_ci95[1] - f.fraction_ci95[0])
-                                / 2.0, window=window(key, f.fraction), phase_names=names)
+        r = ranges.get(f.label)
+        out[key] = error_budget(key, f.fraction,
+                                sampling=(f.fraction_ci95[1] - f.fraction_ci95[0]) / 2.0,
+                                window=window(key, f.fraction),
+                                segmentation=None if r is None else max(r[2] - r[0], r[0] - r[1]),
+                                phase_names=names)
     for name, s in summaries.items():
         d50 = getattr(getattr(s, "ecd", None), "d50", None)
         ci = (getattr(s, "ecd", None) and s.ecd.ci95.get("d50")) or None
@@ -737,13 +750,14 @@ def _micrograph(source, cfg: Config, pixel_size_um: float | None) -> Micrograph:
     return check_slice_spacing(micro, cfg.image.slice_spacing_um) if micro.is_volume else micro
 
 
-def _phasemap(micro: Micrograph, cfg: Config) -> tuple[PhaseMap, tuple, list, list]:
-    """The phase map of a micrograph, the thresholds used, the segmentation's notes and its
-    warnings (what a user must know before trusting the phase map)."""
-    labels, thresholds, notes, warnings = _labels(micro, cfg)
+def _phasemap(micro: Micrograph, cfg: Config):
+    """The phase map of a micrograph, the thresholds used, the segmentation's notes and
+    warnings (what a user must know before trusting the phase map), and the segmentation
+    itself with the model it used (None for label and palette images)."""
+    labels, thresholds, notes, warnings, segmentation, model = _labels(micro, cfg)
     phasemap = PhaseMap(labels.astype(np.int32, copy=False), _phase_table(labels, cfg),
                         micro.pixel_size_um)
-    return phasemap, thresholds, notes, warnings
+    return phasemap, thresholds, notes, warnings, segmentation, model
 
 
 def _labels(micro: Micrograph, cfg: Config):
@@ -761,28 +775,37 @@ def _labels(micro: Micrograph, cfg: Config):
                 raise InputError(f"{micro.path or 'image'}: [image] kind = \"labels\" needs "
                                  "integer labels; this image has fractional values")
             data = data.astype(np.int64)
-        return data, (), ["labels used as given"], []
+        return data, (), ["labels used as given"], [], None, None
     if kind == "palette":
         res = segment.segment_palette(data, {p.label: p.color for p in cfg.phases},
                                       tolerance=cfg.segment.color_tolerance)
-        return res.labels, (), list(res.notes), []
+        return res.labels, (), list(res.notes), [], None, None
+    from ..read.image import read_annotations
+    from ..segment import Segmenter, make_phasemap_labels
+
     grey = to_grayscale(data) if micro.is_rgb else data
     seg = cfg.segment
-    classes = seg.classes
-    notes = []
-    if seg.method == "multi-otsu" and classes is None:
-        if cfg.phases:
-            classes = len(cfg.phases)
-            notes.append(f"classes = {classes}, one per [[phase]]")
-        else:
-            classes = segment.suggest_classes(grey)
-            notes.append(f"classes = {classes} suggested from the histogram; set [segment] "
-                         "classes or --classes to choose")
     warnings = check_grey_range(cfg, float(np.min(grey)), float(np.max(grey)))
-    res = segment.segment_grayscale(grey, method=seg.method, classes=classes,
-                                    thresholds=seg.thresholds, denoise=seg.denoise,
-                                    denoise_px=seg.denoise_px, min_feature_px=seg.min_feature_px)
-    return res.labels, tuple(res.thresholds), notes + list(res.notes), warnings
+    annotations = segmenter = model = None
+    if seg.method == "trained":
+        if seg.model:
+            model = _beside_config(seg.model, cfg)
+            segmenter = Segmenter.load(model)
+        elif seg.annotations:
+            path = _beside_config(seg.annotations, cfg)
+            annotations = read_annotations(path, micro)
+            model = f"trained here from the strokes of {os.path.basename(path)}"
+    s = make_phasemap_labels(data, micro.pixel_size_um, seg, [p.label for p in cfg.phases],
+                             annotations=annotations, segmenter=segmenter)
+    notes = [c.what for c in s.corrections if c.applied] + list(s.notes)
+    return s.labels, tuple(s.thresholds), notes, warnings + list(s.warnings), s, model
+
+
+def _beside_config(path: str, cfg: Config) -> str:
+    """*path* as given, or relative to the configuration file's folder."""
+    if not os.path.isabs(path) and os.path.isfile(cfg.source) and not os.path.exists(path):
+        return os.path.join(os.path.dirname(os.path.abspath(cfg.source)), path)
+    return path
 
 
 def _with_porosity(pc, material: Material, pore_conductivity: float | None = None) -> Material:

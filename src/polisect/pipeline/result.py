@@ -24,6 +24,7 @@ from ..core.materials import Material
 from ..measure.summary import Correlation, ParticleSummary, VolumeParticleSummary
 from ..model3d.summary import Estimate3DRecord
 from ..properties.fit import FitResult
+from ..segment.segmentation import SegmentationSummary
 from ..properties.records import Effective
 from ..properties.schemes import Bound, Estimate
 from ..properties.shock import ShockIndices
@@ -129,6 +130,9 @@ class Result:
         The lab's ``[[measured]]`` values beside the computed ones.
     uncertainty : mapping headline column → Budget
         The error budget of every headline number (``[uncertainty]``).
+    segmentation : SegmentationSummary or None
+        How a micrograph became the phase map (corrections, confidence, the fractions
+        under a stated boundary movement); None for label and palette images.
     warnings, notes : tuple of str
     verification : Verification or None
         The second solver's agreement (``[solve] verify``).
@@ -154,6 +158,7 @@ class Result:
     correlation: Mapping[str, Correlation] | None = None
     measured: tuple[MeasuredComparison, ...] = ()
     uncertainty: Mapping[str, Budget] = field(default_factory=dict)
+    segmentation: SegmentationSummary | None = None
     warnings: tuple[str, ...] = ()
     notes: tuple[str, ...] = ()
     timings_s: Mapping[str, float] = field(default_factory=dict)

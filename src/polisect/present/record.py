@@ -38,6 +38,7 @@ from ..properties.records import (AxialModuli, ComparableModuli, Conductivity, E
                                   Elasticity, Expansion, Solver, Spread, value_of)
 from ..properties.schemes import Bound, Estimate
 from ..properties.shock import INDEX_WORDS, ShockIndices
+from ..segment.segmentation import SegmentationSummary
 from ..trust.budget import Budget
 from ..trust.measured import MeasuredComparison
 from ..trust.records import (LevelStats, QuantityFit, WindowLevelRecord,
@@ -90,6 +91,12 @@ def to_dict(result: Result) -> dict:
                              "fraction": c.fraction} for n, c in result.correlation.items()}
                         if result.correlation else None),
         "measured": [{f: getattr(m, f) for f in _MEASURED_FIELDS} for m in result.measured],
+        "segmentation": None if result.segmentation is None else {
+            **{f: getattr(result.segmentation, f) for f in _SEGMENTATION_FIELDS},
+            "corrections": [{"name": n, "applied": a, "amount": m, "what": w}
+                            for n, a, m, w in result.segmentation.corrections],
+            "fraction_ranges": {str(k): list(v) for k, v in
+                                result.segmentation.fraction_ranges.items()}},
         "uncertainty": {key: {"value": b.value, "unit": b.unit,
                               "components": dict(b.components), "combined": b.combined,
                               "largest": b.largest, "advice": b.advice,
@@ -290,6 +297,9 @@ def _windows(w: WindowRecord) -> dict:
             "notes": list(w.notes), "verdict": w.verdict}
 
 
+_SEGMENTATION_FIELDS = ("method", "thresholds", "confidence_mean", "uncertain_share",
+                        "confidence_level", "perturbation", "min_feature_px", "model")
+
 _FITTED_FIELDS = ("label", "property", "value", "interval", "target", "measured", "uncertainty",
                   "model", "steps", "derivative")
 
@@ -335,6 +345,7 @@ def from_dict(d: dict) -> Result:
                       for n, c in d["correlation"].items()} if d.get("correlation") else None),
         measured=tuple(MeasuredComparison(**{f: m[f] for f in _MEASURED_FIELDS})
                        for m in d.get("measured") or ()),
+        segmentation=_read_segmentation(d["segmentation"]) if d.get("segmentation") else None,
         uncertainty={key: Budget(key, b["value"], b["unit"], dict(b["components"]),
                                  b["combined"], b["largest"], b["advice"], tuple(b["notes"]))
                      for key, b in (d.get("uncertainty") or {}).items()},
@@ -346,6 +357,14 @@ def from_dict(d: dict) -> Result:
 
 def _read_fitted(f: dict) -> FitResult:
     return FitResult(**{k: (tuple(f[k]) if k == "interval" else f[k]) for k in _FITTED_FIELDS})
+
+
+def _read_segmentation(s: dict) -> SegmentationSummary:
+    return SegmentationSummary(
+        **{f: (tuple(s[f]) if f == "thresholds" else s[f]) for f in _SEGMENTATION_FIELDS},
+        corrections=tuple((c["name"], c["applied"], c["amount"], c["what"])
+                          for c in s["corrections"]),
+        fraction_ranges={int(k): tuple(v) for k, v in s["fraction_ranges"].items()})
 
 
 def _read_shock(s: dict) -> ShockIndices:

@@ -65,6 +65,39 @@ class ConfidenceSummary:
     level: float
 
 
+@dataclass(frozen=True)
+class SegmentationSummary:
+    """How the phase map was made, as the result keeps it.
+
+    Attributes
+    ----------
+    method : str
+    thresholds : tuple of float
+    corrections : tuple of (name, applied, amount, what)
+    confidence_mean, uncertain_share, confidence_level : float or None
+        The classifier's (or the grey-level model's) confidence: mean probability of the
+        class chosen, the share of pixels below *confidence_level*.
+    perturbation : str or None
+        The boundary movement of the uncertainty.
+    fraction_ranges : dict label → (nominal, low, high)
+        Fractions with the boundary pixels taken from or given to each phase.
+    min_feature_px : int
+    model : str or None
+        The segmenter file used, or how it was trained.
+    """
+
+    method: str
+    thresholds: tuple[float, ...]
+    corrections: tuple[tuple, ...]
+    confidence_mean: float | None
+    uncertain_share: float | None
+    confidence_level: float | None
+    perturbation: str | None
+    fraction_ranges: dict
+    min_feature_px: int
+    model: str | None = None
+
+
 @dataclass(frozen=True, eq=False)
 class Segmentation:
     """A phase map and everything known about how it was made.
@@ -111,6 +144,19 @@ class Segmentation:
     min_feature_px: int
     corrected: np.ndarray | None = None
     segmenter: Segmenter | None = None
+
+    def summary(self, model: str | None = None) -> "SegmentationSummary":
+        """What the result keeps of the segmentation (no arrays)."""
+        c = self.confidence_summary
+        u = self.uncertainty
+        return SegmentationSummary(
+            self.method, tuple(self.thresholds),
+            tuple((k.name, bool(k.applied), float(k.amount), k.what) for k in self.corrections),
+            None if c is None else c.mean, None if c is None else c.uncertain_share,
+            None if c is None else c.level, None if u is None else u.perturbation,
+            {} if u is None else {int(k): tuple(float(x) for x in v)
+                                  for k, v in u.fractions.items()},
+            int(self.min_feature_px), model)
 
     def fractions(self) -> dict[int, float]:
         """Pixel fraction of every label present."""
