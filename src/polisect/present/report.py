@@ -815,7 +815,32 @@ _COMPONENT_WORDS = {"sampling": "sampling", "window": "window", "segmentation": 
                     "model_2d_3d": "2D vs 3D"}
 
 
-SECTIONS = [_caution, _warnings, _source, _images, _fractions, _materials, _fitted,
+def _segmentation(analysis, r, colors) -> str:
+    sg = r.segmentation
+    if sg is None:
+        return ""
+    rows = [("Method", sg.method),
+            ("Smallest feature kept", f"{sg.min_feature_px} px")]
+    if sg.model:
+        rows.append(("Classifier", sg.model))
+    for name, applied, amount, what in sg.corrections:
+        rows.append((f"Correction: {name}", what if applied else f"not needed ({what})"))
+    if sg.confidence_mean is not None:
+        rows.append(("Confidence", f"mean probability of the class chosen "
+                     f"{number(sg.confidence_mean, 3)}; {number(100 * sg.uncertain_share, 2)} % "
+                     f"of the pixels below {number(sg.confidence_level, 2)}"))
+    names = {p.label: p.name for p in r.phases}
+    ranges = [(html.escape(names.get(k, str(k))), number(v[0], 4),
+               f"{number(v[1], 4)} – {number(v[2], 4)}") for k, v in sg.fraction_ranges.items()]
+    table = (grid(("Phase", "Fraction", "If the boundaries move"), ranges) if ranges else "")
+    return ("<section><h2>How the phase map was made</h2>"
+            + kv_table(rows)
+            + (f"<h3>Segmentation uncertainty</h3><p class=\"note\">"
+               f"{html.escape(sg.perturbation or '')}</p>" + table if ranges else "")
+            + "</section>")
+
+
+SECTIONS = [_caution, _warnings, _source, _images, _segmentation, _fractions, _materials, _fitted,
             _effective, _uncertainty, _measured, _temperatures, _estimate_3d, _schemes, _shock,
             _particles, _windows, _config, _raw_json]
 
