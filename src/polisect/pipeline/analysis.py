@@ -125,7 +125,10 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
     if micro.pixel_size_um is None:
         warnings.append("pixel size unknown: sizes are in pixels; give [image] pixel_size_um "
                         "or --pixel-size, or use a TIFF with resolution tags")
-    notes = [n for n in micro.notes if not n.startswith("pixel size unknown")] + seg_notes
+    read_warnings = [n for n in micro.notes if "using the first" in n]
+    warnings.extend(read_warnings)
+    notes = [n for n in micro.notes if not n.startswith("pixel size unknown")
+             and n not in read_warnings] + seg_notes
 
     fits = {}
     if any(p.fit for p in cfg.phases) and cfg.solve.properties:
