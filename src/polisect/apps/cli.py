@@ -61,6 +61,9 @@ def _add_analyze(sub):
     p.add_argument("--assign", help="materials per class, e.g. 0=air,1=alumina,2=zirconia")
     p.add_argument("--pixel-size", type=float, metavar="UM", help="pixel size in µm")
     p.add_argument("--kind", choices=("grayscale", "labels", "palette"), help="[image] kind")
+    p.add_argument("--crop-bottom", metavar="N|auto|0",
+                   help="rows of the microscope's information band to cut from the bottom: a "
+                        "number, auto (find it; the default) or 0 (keep every row)")
     p.add_argument("--quiet", action="store_true",
                    help="no progress messages while it runs; the result summary (fractions, "
                         "properties, warnings, where the outputs are) is still printed")
@@ -182,6 +185,13 @@ def _config(args):
     cfg = load_config(args.config) if args.config else None
     if any(v is not None for v in (args.classes, args.assign, args.kind)) or cfg is None:
         cfg = quick_config(classes=args.classes, assign=args.assign, kind=args.kind, base=cfg)
+    crop = getattr(args, "crop_bottom", None)
+    if crop is not None:
+        rows = crop.strip().lower()
+        if rows != "auto" and not rows.isdigit():
+            raise InputError(f"--crop-bottom {crop!r}: give a number of rows, auto or 0")
+        cfg = dataclasses.replace(cfg, image=dataclasses.replace(
+            cfg.image, crop_bottom_px="auto" if rows == "auto" else int(rows)))
     return cfg
 
 
