@@ -58,7 +58,8 @@ from elsewhere, even if a user's string slipped through unescaped."""
 
 def csp_meta(policy: str = STANDALONE_CSP) -> str:
     """The ``<meta http-equiv>`` element that carries *policy* in a written page."""
-    return f'<meta http-equiv="Content-Security-Policy" content="{html.escape(policy)}">'
+    return (f'<meta http-equiv="Content-Security-Policy" '
+            f'content="{html.escape(policy, quote=False)}">')
 
 
 def page(title: str, meta: str, body: str) -> str:

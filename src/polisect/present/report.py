@@ -779,10 +779,12 @@ def _uncertainty(analysis, r, colors) -> str:
     from ..trust.budget import COMPONENTS
 
     rows, bars, advice = [], [], {}
+    shown = [c for c in COMPONENTS
+             if any(b.components.get(c) is not None for b in r.uncertainty.values())]
     for key, b in r.uncertainty.items():
         words, unit, sc = column_words(key)
         comps = ["–" if b.components.get(c) is None else number(b.components[c] * sc, 2)
-                 for c in COMPONENTS]
+                 for c in shown]
         rows.append((html.escape(words) + (f" ({unit})" if unit else ""),
                      with_uncertainty(b.value, b.combined, sc), *comps,
                      html.escape(_COMPONENT_WORDS.get(b.largest, "–"))))
@@ -792,7 +794,7 @@ def _uncertainty(analysis, r, colors) -> str:
             bars.append((words, {c: (b.components.get(c) or 0.0) / abs(b.value)
                                  for c in COMPONENTS}))
     head = (("Quantity", "Value ± combined (95 %)")
-            + tuple(_COMPONENT_WORDS[c] for c in COMPONENTS) + ("Largest",))
+            + tuple(_COMPONENT_WORDS[c] for c in shown) + ("Largest",))
     fig = figure_png(figures.budget_bars(bars)) if bars else ""
     items = "".join(f"<li><strong>{html.escape(', '.join(qs))}:</strong> {html.escape(text)}"
                     "</li>" for text, qs in advice.items())
@@ -801,7 +803,9 @@ def _uncertainty(analysis, r, colors) -> str:
             + (f'<figure class="wide"><img alt="error budget" src="{fig}"></figure>'
                if fig else "")
             + '<p class="note">Each component is a ± half-width at about 95 % in the quantity\'s '
-            "unit; – means not assessed. The independent components are combined as a "
+            "unit; – means not assessed (a component assessed for no quantity is left out: "
+            f"here {', '.join(_COMPONENT_WORDS[c] for c in COMPONENTS if c not in shown) or 'none'}"
+            "). The independent components are combined as a "
             "root-sum-square. Sampling: the field-to-field interval (fractions) or the bootstrap "
             "interval (D50); window: the window-size study; discretization: the map re-solved "
             "coarsened by 2 and 4 (Richardson extrapolation); material: the stated "
