@@ -310,8 +310,11 @@ def _run_demo(args) -> int:
     print("Demo: sections of the fictional Kestrel Foundry Supply's two product lines")
     print("(2D sections solved as prismatic structures, generalized plane strain)\n")
     for title, row, report in written:
-        fractions = ", ".join(f"{k[len('fraction_'):]} {v:.3f}" for k, v in row.items()
-                              if k.startswith("fraction_") and not k.endswith(("_low", "_high")))
+        fractions = ", ".join(
+            f"{k[len('fraction_'):]} {v:.3f}"
+            + (f" ± {row[k + '_u95']:.3f}" if row.get(k + "_u95") is not None else "")
+            for k, v in row.items()
+            if k.startswith("fraction_") and not k.endswith(("_low", "_high", "_u95")))
         print(f"  {title}")
         print(f"    fractions: {fractions}")
         print(f"    k = {show(row.get('conductivity_W_mK'), 'conductivity')},  "

@@ -800,7 +800,7 @@ def _labels(micro: Micrograph, cfg: Config):
             model = f"trained here from the strokes of {os.path.basename(path)}"
     s = make_phasemap_labels(data, micro.pixel_size_um, seg, [p.label for p in cfg.phases],
                              annotations=annotations, segmenter=segmenter)
-    notes = [c.what for c in s.corrections if c.applied] + list(s.notes)
+    notes = list(s.notes)      # the corrections are in the result's segmentation block
     return s.labels, tuple(s.thresholds), notes, warnings + list(s.warnings), s, model
 
 
