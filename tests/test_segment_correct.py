@@ -104,3 +104,15 @@ def test_bad_options():
         correct_image(np.zeros((8, 8)), 2, shading="on")
     with pytest.raises(InputError, match="2D"):
         correct_image(np.zeros((2, 8, 8)), 2)
+
+
+def test_shading_fit_on_a_tiny_two_level_image_keeps_going():
+    """A 32 × 32 image of two grey levels, one of them 0, leaves too few interior pixels for
+    the shading surface: the fit stops instead of dividing by zero, and the image is
+    segmented (found by the kill test of `polisect analyze`; common practice, no source)."""
+    from polisect.segment import make_phasemap_labels
+
+    rng = np.random.default_rng(3)
+    image = ((rng.random((32, 32)) < 0.3) * 200).astype(np.uint8)
+    seg = make_phasemap_labels(image, None, None, (0, 1))
+    assert np.isfinite(seg.labels).all() and set(np.unique(seg.labels)) <= {0, 1}

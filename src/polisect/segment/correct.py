@@ -220,12 +220,17 @@ def estimate_shading(image: np.ndarray, classes: int, *, degree: int = SHADING_D
     for _ in range(iterations):
         labels, means = _classify(smooth / gain, classes, filtered=True)
         interior = _interior(labels)[sy, sx].ravel()
+        if np.count_nonzero(interior) < 4 * basis.shape[0]:
+            break              # too few interior pixels to fit a surface: keep the gain
         lab = labels[sy, sx].ravel()[interior]
         target = work[sy, sx].ravel()[interior]
         design = basis[:, interior].T * means[lab][:, None]
         coef = _robust_lstsq(design, target)
         new = _surface(coef, ny, nx, degree)
-        new = np.clip(new / new.mean(), 0.2, 5.0)
+        level = new.mean()
+        if not np.isfinite(level) or level <= 0:
+            break              # no usable surface (e.g. a class of grey level 0 only)
+        new = np.clip(new / level, 0.2, 5.0)
         change = float(np.abs(new - gain).max())
         gain = new
         if change < 1e-3:
