@@ -31,7 +31,7 @@ from ..measure.morphology import (enclosed_fractions, field_fractions, particle_
                                   phase_particles)
 from ..measure.summary import (summarize_correlation, summarize_particles,
                                summarize_volume_particles)
-from ..properties.records import Effective, value_of
+from ..properties.records import Effective, scalar, value_of
 from ..properties.shock import ShockIndices
 from ..read.config import Config, check_grey_range, validate
 from ..read.image import Micrograph, check_slice_spacing, read_image, read_stack, to_grayscale
@@ -214,27 +214,16 @@ def _effective_3d(phasemap: PhaseMap, cfg: Config, effective: Effective | None, 
     return est.summary()
 
 
-_EFFECTIVE_VALUES = {"conductivity_W_mK": ("conductivity", "mean"),
-                     "youngs_modulus_GPa": ("elasticity", "youngs_modulus"),
-                     "poisson_ratio": ("elasticity", "poisson_ratio"),
-                     "shear_modulus_GPa": ("elasticity", "shear_modulus"),
-                     "bulk_modulus_GPa": ("elasticity", "bulk_modulus"),
-                     "expansion_per_K": ("expansion", "mean")}
-"""Headline column of an effective property → (block, attribute) of `Effective`."""
-
-_SENSITIVITY_NAMES = {"conductivity_W_mK": "conductivity", "youngs_modulus_GPa": "youngs_modulus",
+_SCALAR_OF_COLUMN = {"conductivity_W_mK": "conductivity", "youngs_modulus_GPa": "youngs_modulus",
                       "poisson_ratio": "poisson_ratio", "shear_modulus_GPa": "shear_modulus",
                       "bulk_modulus_GPa": "bulk_modulus", "expansion_per_K": "expansion"}
+"""Headline column of an effective property → its isotropic scalar (`records.SCALARS`)."""
 
 
 def _effective_values(effective: Effective | None) -> dict[str, float]:
     """Headline column → the value of every effective property *effective* holds."""
-    out = {}
-    for key, (block, attr) in _EFFECTIVE_VALUES.items():
-        b = getattr(effective, block) if effective is not None else None
-        if b is not None and value_of(getattr(b, attr)) is not None:
-            out[key] = value_of(getattr(b, attr))
-    return out
+    values = {key: scalar(effective, name) for key, name in _SCALAR_OF_COLUMN.items()}
+    return {key: v for key, v in values.items() if v is not None}
 
 
 def _uncertainty(phasemap: PhaseMap, cfg: Config, fractions, summaries, effective,
@@ -291,7 +280,7 @@ def _uncertainty(phasemap: PhaseMap, cfg: Config, fractions, summaries, effectiv
         out[key] = error_budget(
             key, value, unit=quantity_label(key)[1], window=window(key, value),
             discretization=discretization.get(key), material=material.get(
-                _SENSITIVITY_NAMES[key]),
+                _SCALAR_OF_COLUMN[key]),
             model_2d_3d=(model_2d_3d_term(value, three_d[key]) if key in three_d else None),
             phase_names=names)
     return out

@@ -153,3 +153,25 @@ class Effective:
     conductivity: Conductivity | None = None
     elasticity: Elasticity | None = None
     expansion: Expansion | None = None
+
+
+SCALARS = {"conductivity": ("conductivity", "mean"),
+           "youngs_modulus": ("elasticity", "youngs_modulus"),
+           "poisson_ratio": ("elasticity", "poisson_ratio"),
+           "shear_modulus": ("elasticity", "shear_modulus"),
+           "bulk_modulus": ("elasticity", "bulk_modulus"),
+           "expansion": ("expansion", "mean")}
+"""Isotropic scalar of an effective property → (block, attribute) of `Effective`."""
+
+
+def scalar(effective: "Effective | None", name: str) -> float | None:
+    """The isotropic scalar *name* of *effective* (the mean of a `Spread`), or None.
+
+    Examples
+    --------
+    >>> scalar(None, "conductivity") is None
+    True
+    """
+    block, attr = SCALARS[name]
+    b = getattr(effective, block) if effective is not None else None
+    return None if b is None else value_of(getattr(b, attr))

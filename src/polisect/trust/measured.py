@@ -32,7 +32,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from ..properties.records import Effective, value_of
+from ..properties.records import Effective, scalar
 from ..properties.schemes import Bound
 
 ROOM_C = 20.0
@@ -41,12 +41,10 @@ ROOM_C = 20.0
 MATCH_K = 5.0
 """A measurement within this many kelvin of a solved temperature is compared with it."""
 
-_READ = {"conductivity": ("conductivity", "mean"),
-         "youngs_modulus": ("elasticity", "youngs_modulus"),
-         "shear_modulus": ("elasticity", "shear_modulus"),
-         "expansion": ("expansion", "mean"),
-         "mean_expansion": ("expansion", "mean")}
-"""Measured property → (block, attribute) of `Effective` holding its computed value."""
+_SCALAR = {"conductivity": "conductivity", "youngs_modulus": "youngs_modulus",
+           "shear_modulus": "shear_modulus", "expansion": "expansion",
+           "mean_expansion": "expansion"}
+"""Measured property → the isotropic scalar of `Effective` computed for it."""
 
 _BOUND = {"conductivity": "conductivity", "youngs_modulus": "youngs_modulus",
           "shear_modulus": "shear_modulus", "expansion": "expansion",
@@ -126,12 +124,12 @@ def compare_measured(measured, by_temperature: dict[float, Effective],
     """
     out = []
     for m in measured:
-        block, attr = _READ[m.property]
+        name = _SCALAR[m.property]
         at = min(by_temperature, key=lambda t: abs(t - m.temperature_C), default=None)
         section = None
         if at is not None and abs(at - m.temperature_C) <= MATCH_K:
-            section = _value(by_temperature[at], block, attr)
-        e3 = (_value(effective_3d, block, attr)
+            section = scalar(by_temperature[at], name)
+        e3 = (scalar(effective_3d, name)
               if effective_3d is not None and abs(m.temperature_C - ROOM_C) <= MATCH_K else None)
         b = (bounds or {}).get(_BOUND[m.property])
         lower = upper = None
@@ -143,11 +141,6 @@ def compare_measured(measured, by_temperature: dict[float, Effective],
                                       m.method, section, e3, lower, upper, z2, z3,
                                       _verdict(m, section, e3, lower, upper, by_temperature)))
     return tuple(out)
-
-
-def _value(effective: Effective, block: str, attr: str) -> float | None:
-    b = getattr(effective, block)
-    return None if b is None else value_of(getattr(b, attr))
 
 
 def _verdict(m, section, e3, lower, upper, by_temperature) -> str:
