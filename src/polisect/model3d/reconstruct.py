@@ -43,7 +43,7 @@ from ..core.materials import Material
 from ..core.phasemap import Phase, PhaseMap
 from ..measure.morphology import particle_holes, phase_particle_labels, phase_particles
 from ..properties.records import (Conductivity, Effective, Elasticity, Expansion, Solver, Spread,
-                                  value_of)
+                                  scalar)
 from .summary import (Estimate3DRecord, FamilyRecord, PackingRecord, Versus2D, VolumeRecord)
 
 #: Resolution rule: the volume-weighted D10 sphere spans at least this many voxels ...
@@ -588,13 +588,10 @@ class Realization:
     expansion: object | None = None
 
 
-#: (property, its attribute, the quantity's name in the result, words) of the scalars
-#: compared with 2D.
-_COMPARED = (("conductivity", "mean", "mean_W_mK", "mean conductivity"),
-             ("elasticity", "youngs_modulus", "youngs_modulus_GPa", "Young's modulus"),
-             ("elasticity", "shear_modulus", "shear_modulus_GPa", "shear modulus"),
-             ("elasticity", "poisson_ratio", "poisson_ratio", "Poisson's ratio"),
-             ("expansion", "mean", "mean_per_K", "mean thermal expansion"))
+#: The scalars compared with 2D (`polisect.properties.records.SCALARS` names) and their words.
+_COMPARED = (("conductivity", "mean conductivity"), ("youngs_modulus", "Young's modulus"),
+             ("shear_modulus", "shear modulus"), ("poisson_ratio", "Poisson's ratio"),
+             ("expansion", "mean thermal expansion"))
 
 
 @dataclass(frozen=True, eq=False)
@@ -831,15 +828,9 @@ def compare_2d(est: Estimate3D, effective_2d: Effective) -> tuple[Versus2D, ...]
     tuple of Versus2D
         One per quantity both hold.
     """
-    spreads = {("conductivity", "mean"): est.conductivity,
-               ("elasticity", "youngs_modulus"): est.youngs_modulus,
-               ("elasticity", "shear_modulus"): est.shear_modulus,
-               ("elasticity", "poisson_ratio"): est.poisson_ratio,
-               ("expansion", "mean"): est.expansion}
     out = []
-    for prop, attr, key, words in _COMPARED:
-        block = getattr(effective_2d, prop)
-        v2, s3 = None if block is None else value_of(getattr(block, attr)), spreads[(prop, attr)]
+    for name, words in _COMPARED:
+        v2, s3 = scalar(effective_2d, name), getattr(est, name)
         if v2 is None or s3 is None or v2 == 0:
             continue
         diff = 100.0 * (s3.mean - v2) / abs(v2)
@@ -854,5 +845,5 @@ def compare_2d(est: Estimate3D, effective_2d: Effective) -> tuple[Versus2D, ...]
         sentence = (f"The 3D estimate of the {words} is {abs(diff):.1f} % "
                     f"{'higher' if diff > 0 else 'lower'} than the 2D section's value: "
                     f"{meaning}.")
-        out.append(Versus2D(key, float(v2), s3.mean, diff, sentence))
+        out.append(Versus2D(name, float(v2), s3.mean, diff, sentence))
     return tuple(out)

@@ -11,7 +11,8 @@ from ..properties.records import Effective
 
 @dataclass(frozen=True)
 class Versus2D:
-    """A 3D estimate beside the 2D section's value of the same quantity."""
+    """A 3D estimate beside the 2D section's value of the same quantity (``quantity``: the
+    name of the isotropic scalar, `polisect.properties.records.SCALARS`)."""
 
     quantity: str
     section_2d: float

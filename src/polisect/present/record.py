@@ -52,6 +52,12 @@ ESTIMATE_KEYS = {"conductivity": "conductivity_W_mK", "bulk_modulus": "bulk_modu
                  "poisson_ratio": "poisson_ratio", "expansion": "expansion_per_K"}
 """`Estimate` field → JSON key of the scheme and bound tables."""
 
+VERSUS_KEYS = {"conductivity": "mean_W_mK", "youngs_modulus": "youngs_modulus_GPa",
+               "shear_modulus": "shear_modulus_GPa", "poisson_ratio": "poisson_ratio",
+               "expansion": "mean_per_K"}
+"""Scalar compared by the 3D estimate → its ``versus_2d[].quantity`` in the JSON form."""
+_VERSUS_NAMES = {v: k for k, v in VERSUS_KEYS.items()}
+
 SHOCK_KEYS = {"R": "R_K", "R_prime": "R_prime_W_m", "R_4prime": "R_4prime_m"}
 
 
@@ -210,7 +216,7 @@ def _estimate_3d(e: Estimate3DRecord) -> dict:
                                   "solidity_mean": f.solidity_mean} for f in e.families]},
         "packings": [{"seed": p.seed, "spheres": p.spheres, "method": p.method,
                       "fractions": dict(p.fractions), "seconds": p.seconds} for p in e.packings],
-        "versus_2d": [{"quantity": c.quantity, "section_2d": c.section_2d,
+        "versus_2d": [{"quantity": VERSUS_KEYS[c.quantity], "section_2d": c.section_2d,
                        "estimate_3d": c.estimate_3d, "difference_pct": c.difference_pct,
                        "sentence": c.sentence} for c in e.versus_2d],
         "warnings": list(e.warnings)})
@@ -443,7 +449,7 @@ def _read_3d(e: dict) -> Estimate3DRecord:
             for f in s["families"]),
         packings=tuple(PackingRecord(p["seed"], p["spheres"], p["method"], dict(p["fractions"]),
                                      p["seconds"]) for p in e["packings"]),
-        versus_2d=tuple(Versus2D(c["quantity"], c["section_2d"], c["estimate_3d"],
+        versus_2d=tuple(Versus2D(_VERSUS_NAMES[c["quantity"]], c["section_2d"], c["estimate_3d"],
                                  c["difference_pct"], c["sentence"]) for c in e["versus_2d"]),
         warnings=tuple(e.get("warnings") or ()))
 

@@ -14,7 +14,7 @@ from matplotlib.colors import ListedColormap
 
 from ..core.atomic import atomic_write_text
 from ..core.materials import library
-from ..properties.records import Spread, value_of
+from ..properties.records import SCALARS, Spread, value_of
 from ..properties.shock import INDEX_WORDS
 from . import figures, record
 from .htmlkit import (CAUTION_SECTION, CSS, PALETTE, csp_meta, figure_png, grid, kv_table,
@@ -641,17 +641,16 @@ def _estimate_3d(analysis, r, colors) -> str:
     if not e3:
         return ""
     eff = e3.effective
-    labels = {"mean_W_mK": ("Thermal conductivity", "W/(m·K)", 1.0, eff.conductivity, "mean"),
-              "youngs_modulus_GPa": ("Young's modulus", "GPa", 1.0, eff.elasticity,
-                                     "youngs_modulus"),
-              "shear_modulus_GPa": ("Shear modulus", "GPa", 1.0, eff.elasticity,
-                                    "shear_modulus"),
-              "poisson_ratio": ("Poisson's ratio", "", 1.0, eff.elasticity, "poisson_ratio"),
-              "mean_per_K": ("Thermal expansion", "10⁻⁶/K", 1e6, eff.expansion, "mean")}
+    labels = {"conductivity": ("Thermal conductivity", "W/(m·K)", 1.0),
+              "youngs_modulus": ("Young's modulus", "GPa", 1.0),
+              "shear_modulus": ("Shear modulus", "GPa", 1.0),
+              "poisson_ratio": ("Poisson's ratio", "", 1.0),
+              "expansion": ("Thermal expansion", "10⁻⁶/K", 1e6)}
     rows, sentences = [], []
     for v in e3.versus_2d:
-        name, unit, sc, block, attr = labels.get(v.quantity, (v.quantity, "", 1.0, None, ""))
-        spread = getattr(block, attr) if block is not None else None
+        name, unit, sc = labels[v.quantity]
+        block, attr = SCALARS[v.quantity]
+        spread = getattr(getattr(eff, block), attr, None) if getattr(eff, block) else None
         ci = spread.ci95 if isinstance(spread, Spread) else None
         ci_txt = ("–" if not ci or ci[0] is None
                   else f"{number(ci[0] * sc)} – {number(ci[1] * sc)}")
