@@ -12,6 +12,7 @@ import json
 from ..core.atomic import atomic_write_text
 from ..core.errors import InputError
 from ..core.materials import Material, get_material
+from ..present.record import estimate_to_dict
 from ..properties.schemes import evaluate
 
 _KEYS = {"k": "conductivity", "conductivity": "conductivity",
@@ -159,7 +160,7 @@ def run_estimate(phase_specs: list[str], matrix: str | None, two_d: bool,
             raise InputError(f"hollow phase {name!r} is given twice")
         hollow[name] = ratio
     result = evaluate(phases, matrix=matrix, dim=2 if two_d else 3, hollow=hollow)
-    text = json.dumps(result.to_dict(), indent=2)
+    text = json.dumps(estimate_to_dict(result), indent=2)
     if json_out == "-":
         return text
     table = result.format_table()

@@ -265,6 +265,14 @@ def _schemes(t: SchemeTable | None) -> dict | None:
             for name, e in t.estimates.items()}
 
 
+def estimate_to_dict(result) -> dict:
+    """The JSON form of ``polisect estimate`` (a `SchemesResult`): ``dim``, ``matrix``,
+    ``schemes``, ``bounds`` (keys as in a result's scheme tables) and ``notes``."""
+    table = SchemeTable(dict(result.schemes), dict(result.bounds))
+    return plain({"dim": result.dim, "matrix": result.matrix, "schemes": _schemes(table),
+                  "bounds": _bounds(table), "notes": list(result.notes)})
+
+
 def _bounds(t: SchemeTable | None) -> dict | None:
     if t is None:
         return None

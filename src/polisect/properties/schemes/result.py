@@ -24,9 +24,6 @@ from .estimates import (composite_assemblage, differential, generalized_self_con
                         mori_tanaka, self_consistent)
 from .expansion import expansion_estimate, kerner, transverse_estimate, turner
 
-JSON_KEYS = {"conductivity": "conductivity_W_mK", "bulk_modulus": "bulk_modulus_GPa",
-             "shear_modulus": "shear_modulus_GPa", "youngs_modulus": "youngs_modulus_GPa",
-             "poisson_ratio": "poisson_ratio", "expansion": "expansion_per_K"}
 HEADINGS = {"conductivity": "k W/(m·K)", "bulk_modulus": "K GPa", "shear_modulus": "G GPa",
             "youngs_modulus": "E GPa", "poisson_ratio": "nu", "expansion": "alpha 1e-6/K"}
 
@@ -54,9 +51,10 @@ class Estimate:
     poisson_ratio: float | None = None
     expansion: float | None = None
 
-    def to_dict(self) -> dict:
-        """``{conductivity_W_mK, bulk_modulus_GPa, ..., expansion_per_K}``."""
-        return {JSON_KEYS[f.name]: getattr(self, f.name) for f in fields(self)}
+
+
+PROPERTY_NAMES = tuple(f.name for f in fields(Estimate))
+"""The properties an `Estimate` and the bounds speak of, in order."""
 
 
 @dataclass(frozen=True)
@@ -65,10 +63,6 @@ class Bound:
 
     lower: float | None = None
     upper: float | None = None
-
-    def to_dict(self) -> dict:
-        """``{lower, upper}``."""
-        return {"lower": self.lower, "upper": self.upper}
 
 
 @dataclass(frozen=True)
@@ -182,13 +176,6 @@ class SchemesResult:
         """Place a computed *value* of *prop* against the bounds (see `place`)."""
         b = self.bound(prop)
         return place(value, b.lower, b.upper, tol)
-
-    def to_dict(self) -> dict:
-        """JSON form: ``dim``, ``matrix``, ``schemes``, ``bounds`` and ``notes``."""
-        return {"dim": self.dim, "matrix": self.matrix,
-                "schemes": {name: e.to_dict() for name, e in self.schemes},
-                "bounds": {JSON_KEYS[p]: b.to_dict() for p, b in self.bounds},
-                "notes": list(self.notes)}
 
     def format_table(self) -> str:
         """Plain-text table of bounds and estimates for the terminal."""
@@ -454,7 +441,7 @@ class _Context:
     def bounds(self, lo: Moduli, hi: Moduli) -> tuple:
         out = {"conductivity": Bound(lo.conductivity, hi.conductivity)}
         if lo.bulk is None or not self.elastic:
-            return tuple((p, out.get(p, Bound())) for p in JSON_KEYS)
+            return tuple((p, out.get(p, Bound())) for p in PROPERTY_NAMES)
         out["bulk_modulus"] = Bound(lo.bulk, hi.bulk)
         out["shear_modulus"] = Bound(lo.shear, hi.shear)
         if self.dim == 3:
@@ -471,7 +458,7 @@ class _Context:
                                          t_hi.transverse_moduli(lo.shear)[1])
         if self.alpha is not None and self.two_phase:
             out["expansion"] = self._expansion_bound(lo, hi)
-        return tuple((p, out.get(p, Bound())) for p in JSON_KEYS)
+        return tuple((p, out.get(p, Bound())) for p in PROPERTY_NAMES)
 
     def _expansion_bound(self, lo: Moduli, hi: Moduli) -> Bound:
         i, j = np.flatnonzero(self.f > 0)
