@@ -23,6 +23,12 @@ PROPERTY_WORDS = {"conductivity_W_mK": ("conductivity", "W/(m·K)"),
                   "expansion_3d_per_K": ("3D-estimate thermal expansion", "1/K")}
 """Effective-property column → (words, unit)."""
 
+SCALAR_COLUMNS = {"conductivity_W_mK": "conductivity", "youngs_modulus_GPa": "youngs_modulus",
+                  "poisson_ratio": "poisson_ratio", "shear_modulus_GPa": "shear_modulus",
+                  "bulk_modulus_GPa": "bulk_modulus", "expansion_per_K": "expansion"}
+"""Headline column of an effective property → the name of its isotropic scalar
+(`polisect.properties.records.SCALARS`)."""
+
 SOLVED_COLUMNS = {"conductivity": "conductivity_W_mK", "elasticity": "youngs_modulus_GPa",
                   "expansion": "expansion_per_K"}
 """Solved property → the headline column of its isotropic value."""

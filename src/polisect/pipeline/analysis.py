@@ -26,7 +26,7 @@ from .. import __version__
 from ..core.errors import InputError
 from ..core.materials import Material
 from ..core.phasemap import Phase, PhaseMap
-from ..core.quantities import SOLVED_COLUMNS, fraction_column
+from ..core.quantities import SCALAR_COLUMNS, SOLVED_COLUMNS, fraction_column
 from ..measure.morphology import (enclosed_fractions, field_fractions, particle_phases,
                                   phase_particles)
 from ..measure.summary import (summarize_correlation, summarize_particles,
@@ -214,15 +214,11 @@ def _effective_3d(phasemap: PhaseMap, cfg: Config, effective: Effective | None, 
     return est.summary()
 
 
-_SCALAR_OF_COLUMN = {"conductivity_W_mK": "conductivity", "youngs_modulus_GPa": "youngs_modulus",
-                      "poisson_ratio": "poisson_ratio", "shear_modulus_GPa": "shear_modulus",
-                      "bulk_modulus_GPa": "bulk_modulus", "expansion_per_K": "expansion"}
-"""Headline column of an effective property → its isotropic scalar (`records.SCALARS`)."""
 
 
 def _effective_values(effective: Effective | None) -> dict[str, float]:
     """Headline column → the value of every effective property *effective* holds."""
-    values = {key: scalar(effective, name) for key, name in _SCALAR_OF_COLUMN.items()}
+    values = {key: scalar(effective, name) for key, name in SCALAR_COLUMNS.items()}
     return {key: v for key, v in values.items() if v is not None}
 
 
@@ -280,7 +276,7 @@ def _uncertainty(phasemap: PhaseMap, cfg: Config, fractions, summaries, effectiv
         out[key] = error_budget(
             key, value, unit=quantity_label(key)[1], window=window(key, value),
             discretization=discretization.get(key), material=material.get(
-                _SCALAR_OF_COLUMN[key]),
+                SCALAR_COLUMNS[key]),
             model_2d_3d=(model_2d_3d_term(value, three_d[key]) if key in three_d else None),
             phase_names=names)
     return out

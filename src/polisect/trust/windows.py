@@ -288,15 +288,14 @@ def solver_evaluator(phasemap, properties, *, method: str = "auto", tol: float =
         labels = solver_labels(window)
         out, stiff = {}, None
         if "conductivity" in properties:
-            out["conductivity_W_mK"] = solve.conductivity(labels, materials, method=method,
-                                                          tol=tol).mean()
+            out[PROPERTY_KEYS["conductivity"]] = solve.conductivity(
+                labels, materials, method=method, tol=tol).mean()
         if "elasticity" in properties:
             stiff = solve.elasticity(labels, materials, plane=plane, method=method, tol=tol)
-            out["youngs_modulus_GPa"] = stiff.isotropic().youngs_modulus
+            out[PROPERTY_KEYS["elasticity"]] = stiff.isotropic().youngs_modulus
         if "expansion" in properties:
-            out["expansion_per_K"] = solve.expansion(labels, materials, plane=plane,
-                                                     method=method, tol=tol,
-                                                     stiffness=stiff).mean()
+            out[PROPERTY_KEYS["expansion"]] = solve.expansion(
+                labels, materials, plane=plane, method=method, tol=tol, stiffness=stiff).mean()
         return out
 
     return evaluate
@@ -466,8 +465,9 @@ def _fit(key, value, point_var, fit_levels, levels, area, ndim, z, target, confi
                       supported * 100.0, required, side, images, gitman_side, "",
                       side * pixel_um if pixel_um else None)
     head = f"{quantity_words(key)}: {percent_words(supported)} at {confidence * 100:g} %"
-    verdict = (f"{head}; this image is large enough for {percent_words(target)}" if images <= 1 else
-               f"{head}; for {percent_words(target)} it takes {need_words(fit, area, ndim, pixel_um)}")
+    need = need_words(fit, area, ndim, pixel_um)
+    verdict = (f"{head}; this image is large enough for {percent_words(target)}" if images <= 1
+               else f"{head}; for {percent_words(target)} it takes {need}")
     return dataclasses.replace(fit, verdict=verdict)
 
 
