@@ -45,6 +45,25 @@ def test_outside_the_bounds_is_flagged_and_temperatures_matched():
     assert hot.section is None and "temperatures_C" in hot.verdict and hot.lower is None
 
 
+def test_measured_at_a_temperature_meets_the_3d_estimate_there():
+    """A measurement at 800 °C is compared with the 3D estimate solved at 800 °C, one at
+    20 °C with the room-temperature estimate, and one at 400 °C (not solved in 3D) with no
+    3D value (the GUM difference z = (computed − measured)/u, JCGM 100:2008)."""
+    m = _measured({"property": "conductivity", "value": 2.0, "uncertainty": 0.5,
+                   "temperature_C": 800.0},
+                  {"property": "conductivity", "value": 4.0, "uncertainty": 0.5},
+                  {"property": "conductivity", "value": 3.0, "uncertainty": 0.5,
+                   "temperature_C": 400.0})
+    hot, room, mid = compare_measured(
+        m, {20.0: _effective(4.2), 400.0: _effective(3.1), 800.0: _effective(2.4)},
+        effective_3d=_effective(4.5), by_temperature_3d={20.0: _effective(4.5),
+                                                         800.0: _effective(2.5)})
+    assert hot.estimate_3d == 2.5 and hot.z_3d == pytest.approx(1.0)
+    assert hot.section == 2.4 and "3D estimate agrees within 1" in hot.verdict
+    assert room.estimate_3d == 4.5
+    assert mid.estimate_3d is None and mid.section == 3.1
+
+
 @pytest.mark.parametrize("entry,text", [
     ({"property": "hardness", "value": 1.0}, "choose one of"),
     ({"property": "conductivity", "value": "2"}, "finite number"),

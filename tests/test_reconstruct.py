@@ -433,3 +433,32 @@ def test_3d_estimate_from_a_section_matches_the_volume():
                      ("shear_modulus_GPa", 0.05), ("bulk_modulus_GPa", 0.05)):
         t, v = out[key]
         assert v == pytest.approx(t, rel=rel), key
+
+
+def test_temperatures_solve_the_same_volumes_again(section_stats):
+    """The 3D estimate at a further set of phase properties equals a separate estimate with
+    those properties and the same seed (the same volumes, solved from a warm start to the
+    same tolerance; energy identity of CG, Strakoš & Tichý 2002, ETNA 13, 56)."""
+    lab, _ = section_stats
+    cool = {MATRIX: Material(conductivity=2.0, youngs_modulus=100.0, poisson_ratio=0.2),
+            SOLID: Material(conductivity=30.0, youngs_modulus=400.0, poisson_ratio=0.23),
+            SHELL: Material(conductivity=30.0, youngs_modulus=400.0, poisson_ratio=0.23),
+            PORE: Material(conductivity=0.0, youngs_modulus=0.0, poisson_ratio=0.0)}
+    hot = {MATRIX: Material(conductivity=1.5, youngs_modulus=90.0, poisson_ratio=0.21),
+           SOLID: Material(conductivity=10.0, youngs_modulus=360.0, poisson_ratio=0.24),
+           SHELL: Material(conductivity=10.0, youngs_modulus=360.0, poisson_ratio=0.24),
+           PORE: Material(conductivity=0.1, youngs_modulus=0.0, poisson_ratio=0.0)}
+
+    def phasemap(mats):
+        return PhaseMap(lab, tuple(Phase(v, f"p{v}", m) for v, m in mats.items()), 0.5)
+
+    both = estimate_3d(phasemap(cool), ["conductivity", "elasticity"], voxels=32,
+                       realizations=2, tol=1e-7, temperatures=[(800.0, hot)])
+    alone = estimate_3d(phasemap(hot), ["conductivity", "elasticity"], voxels=32,
+                        realizations=2, tol=1e-7)
+    ((t, at),) = both.at_temperatures
+    assert t == 800.0
+    for name in ("conductivity", "youngs_modulus", "poisson_ratio"):
+        assert getattr(at, name).mean == pytest.approx(getattr(alone, name).mean, rel=1e-5)
+    assert both.conductivity.mean > 1.5 * at.conductivity.mean
+    assert at.summary().effective.conductivity.mean.mean == at.conductivity.mean

@@ -105,3 +105,36 @@ def test_quantity_keys_and_labels_of_the_headline_row():
     assert quantity_label("particles_SiC_ecd_d50") == ("SiC particle D50", "µm")
     assert quantity_label("conductivity_W_mK") == ("conductivity", "W/(m·K)")
     assert quantity_label("something_else") == ("something_else", "")
+
+
+@pytest.fixture(scope="module")
+def hot_result():
+    """A section solved at two temperatures with a small 3D estimate (two realizations)."""
+    labels = compose((64, 64), [Inclusions(1, 0.25, 6.0, min_gap=2.0)], seed=3,
+                     matrix_label=0).labels
+    cfg = config_from_dict({
+        "image": {"kind": "labels", "pixel_size_um": 0.5},
+        "phase": [{"label": 0, "name": "matrix", "material": "mullite"},
+                  {"label": 1, "name": "spheres", "material": "alumina", "particles": True}],
+        "solve": {"tolerance": 1e-4, "fields": False, "estimate_3d": True, "voxels": 32,
+                  "realizations": 2, "temperatures_C": [20, 800]},
+        "measured": [{"property": "conductivity", "value": 4.0, "uncertainty": 0.3,
+                      "temperature_C": 800,
+                      "method": "hot wire (invented for the test)"}]})
+    return analyze(labels, cfg).result
+
+
+def test_json_form_of_the_temperature_blocks_reads_back_exactly(hot_result):
+    """The 2D and 3D effective blocks over temperature go to JSON and back unchanged, the
+    3D one at every temperature of [solve] temperatures_C (docs/results.md; common
+    practice, no source)."""
+    d = to_dict(hot_result)
+    assert [b["temperature_C"] for b in d["effective_by_temperature"]] == [20, 800]
+    assert [b["temperature_C"] for b in d["effective_3d_by_temperature"]] == [20, 800]
+    back = from_dict(json.loads(json.dumps(d)))
+    assert to_dict(back) == d
+    hot3 = back.effective_3d_by_temperature[1].effective
+    assert hot3.conductivity.mean.mean == \
+        hot_result.effective_3d_by_temperature[1].effective.conductivity.mean.mean
+    assert back.effective_3d_by_temperature[0].effective.conductivity.mean.mean == \
+        hot_result.effective_3d.effective.conductivity.mean.mean

@@ -33,6 +33,7 @@ import dataclasses
 import math
 import time
 from dataclasses import dataclass
+from typing import Mapping, Sequence
 
 import numpy as np
 from scipy import ndimage as ndi
@@ -616,6 +617,10 @@ class Estimate3D:
         The 2D section's values beside (empty when none were given).
     seed : int
     warnings : tuple of str
+    at_temperatures : tuple of (float, Estimate3D)
+        The same volumes solved with the phase properties at further temperatures (°C),
+        each an estimate of its own (its own realizations' results; `estimate_3d`'s
+        *temperatures*).
     """
 
     properties: tuple[str, ...]
@@ -631,6 +636,7 @@ class Estimate3D:
     versus_2d: tuple[Versus2D, ...]
     seed: int
     warnings: tuple[str, ...]
+    at_temperatures: tuple = ()
 
     def _mean_tensor(self, prop: str, attr: str) -> list:
         return np.mean([getattr(getattr(r, prop), attr) for r in self.realizations], axis=0)
@@ -701,7 +707,8 @@ def _matrix_of(phasemap: PhaseMap) -> int:
 def estimate_3d(phasemap: PhaseMap, properties=PROPERTIES, *, voxels: int = 160,
                 realizations: int = 3, seed: int = 0, tol: float = 1e-6,
                 method: str = "auto", effective_2d: Effective | None = None,
-                voxel_size: float | None = None, progress=None) -> Estimate3D:
+                voxel_size: float | None = None, progress=None,
+                temperatures: Sequence[tuple[float, Mapping]] = ()) -> Estimate3D:
     """Estimate a section's 3D effective properties from reconstructed sphere packings.
 
     `section_statistics` → `plan_volume` → *realizations* × (`reconstruct` → 3D solves
@@ -729,6 +736,12 @@ def estimate_3d(phasemap: PhaseMap, properties=PROPERTIES, *, voxels: int = 160,
         instead of the resolution rule's (`plan_volume`); e.g. the section's pixel size.
     progress : callable, optional
         Called with a stage description.
+    temperatures : sequence of (float, mapping label → Material)
+        Further phase properties (e.g. at each of ``[solve] temperatures_C``) at which the
+        same reconstructed volumes are solved again: the volumes are built once, only the
+        phase properties change, and each solve starts from the previous one's solution
+        (warm start, `polisect.properties.solve.cg`). Their estimates are in
+        ``Estimate3D.at_temperatures``.
 
     Returns
     -------
@@ -745,8 +758,6 @@ def estimate_3d(phasemap: PhaseMap, properties=PROPERTIES, *, voxels: int = 160,
     ASTM E562 (Student t interval of a mean over n − 1 degrees of freedom).
     Saltykov, S. A. (1967). In Stereology (H. Elias, ed.), Springer, 163-173.
     """
-    from ..properties.solve import conductivity, elasticity, expansion
-
     say = progress or (lambda msg: None)
     props = tuple(properties)
     unknown = [p for p in props if p not in PROPERTIES]
@@ -767,35 +778,70 @@ def estimate_3d(phasemap: PhaseMap, properties=PROPERTIES, *, voxels: int = 160,
     if realizations < 2:
         warnings.append("a single realization gives no interval; use 3 or more")
     mats = phasemap.materials
-    runs = []
+    runs, hot_runs = [], []
     for k, child in enumerate(np.random.SeedSequence(seed).spawn(realizations)):
         tick = time.perf_counter()
         say(f"3D estimate: realization {k + 1} of {realizations}: packing "
             f"{plan.voxels}³ voxels")
         rec = reconstruct(stats, plan, seed=np.random.default_rng(child))
-        res = {}
-        if "conductivity" in props:
-            say(f"3D estimate: realization {k + 1}: conductivity")
-            res["conductivity"] = conductivity(rec.labels, mats, method=method, tol=tol)
-        if "elasticity" in props or "expansion" in props:
-            say(f"3D estimate: realization {k + 1}: stiffness")
-            stiff = elasticity(rec.labels, mats, method=method, tol=tol)
-            res["elasticity"] = stiff if "elasticity" in props else None
-            if "expansion" in props:
-                say(f"3D estimate: realization {k + 1}: thermal expansion")
-                res["expansion"] = expansion(rec.labels, mats, method=method, tol=tol,
-                                             stiffness=stiff)
-        for what, r in res.items():
-            if r is not None and not r.converged:
-                warnings.append(f"realization {k + 1}: the {what} solver stopped before its "
-                                f"tolerance after {r.iterations} iterations")
+        res, start = _solve_volume(rec.labels, mats, props, method, tol, bool(temperatures),
+                                   lambda what: say(f"3D estimate: realization {k + 1}: {what}"))
+        hot = []
+        for i, (t, mats_t) in enumerate(temperatures, start=1):
+            res_t, start = _solve_volume(
+                rec.labels, mats_t, props, method, tol, i < len(temperatures),
+                lambda what: say(f"3D estimate: realization {k + 1}: {what} at {t:g} °C"),
+                start)
+            hot.append(res_t)
+        del start
+        for at, results in [(None, res)] + list(zip((t for t, _ in temperatures), hot)):
+            for what, r in results.items():
+                if r is not None and not r.converged:
+                    where = "" if at is None else f" at {at:g} °C"
+                    warnings.append(f"realization {k + 1}: the {what} solver stopped before "
+                                    f"its tolerance{where} after {r.iterations} iterations")
         runs.append(Realization(seed=k, spheres=int(rec.packing.radii.size),
                                 packing=rec.packing.method, fractions=rec.fractions(),
                                 seconds=time.perf_counter() - tick, **res))
+        hot_runs.append([dataclasses.replace(runs[-1], **h) for h in hot])
     est = _summarise(props, tuple(runs), stats, plan, seed, warnings)
+    if temperatures:
+        est = dataclasses.replace(est, at_temperatures=tuple(
+            (t, _summarise(props, tuple(r[i] for r in hot_runs), stats, plan, seed, ()))
+            for i, (t, _) in enumerate(temperatures)))
     if effective_2d:
         est = dataclasses.replace(est, versus_2d=compare_2d(est, effective_2d))
     return est
+
+
+def _solve_volume(labels, mats, props, method, tol, keep, say, start=None):
+    """The 3D solves of one volume: solver results by property (``elasticity`` None when
+    only the expansion was asked for) and the solver results that start the next solve of
+    the same volume (warm start, `polisect.properties.solve.cg`; kept when *keep*)."""
+    from ..properties.solve import conductivity, elasticity, expansion
+
+    start = start or {}
+    res, kept = {}, {}
+    if "conductivity" in props:
+        say("conductivity")
+        res["conductivity"] = conductivity(labels, mats, method=method, tol=tol,
+                                           start=start.get("conductivity"),
+                                           keep_fluctuations=keep)
+        kept["conductivity"] = res["conductivity"]
+    if "elasticity" in props or "expansion" in props:
+        say("stiffness")
+        stiff = elasticity(labels, mats, method=method, tol=tol,
+                           start=start.get("elasticity"), keep_fluctuations=keep)
+        res["elasticity"] = stiff if "elasticity" in props else None
+        if "expansion" in props:
+            say("thermal expansion")
+            res["expansion"] = expansion(labels, mats, method=method, tol=tol, stiffness=stiff)
+        kept["elasticity"] = stiff
+    if not keep:
+        return res, {}
+    return {name: (dataclasses.replace(r, fluctuations=None)
+                   if getattr(r, "fluctuations", None) is not None else r)
+            for name, r in res.items()}, kept
 
 
 def _summarise(props, runs, stats, plan, seed, warnings) -> Estimate3D:

@@ -145,16 +145,16 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
     if effective is not None and schemes.get(phasemap.ndim) is not None:
         warnings.extend(bounds_warnings(effective, schemes[phasemap.ndim]))
     shock = _shock(effective, cfg, notes)
-    effective_3d = None
+    effective_3d, by_temperature_3d = None, ()
     if cfg.solve.estimate_3d:
-        effective_3d = clock("estimate_3d", _effective_3d, phasemap, cfg, effective, say,
-                             warnings, notes)
+        effective_3d, by_temperature_3d = clock("estimate_3d", _effective_3d, phasemap, cfg,
+                                                effective, say, warnings, notes)
     by_temperature = ()
     if cfg.solve.temperatures_C and effective is not None:
-        by_temperature = clock("temperatures", _temperatures, phasemap, cfg, effective, say,
+        by_temperature = clock("temperatures", _temperatures, phasemap, cfg, solved, say,
                                warnings, notes)
-    measured = (_measured(cfg, effective, by_temperature, effective_3d, schemes.get(3))
-                if cfg.measured else ())
+    measured = (_measured(cfg, effective, by_temperature, effective_3d, schemes.get(3),
+                          by_temperature_3d) if cfg.measured else ())
     verification = None
     if cfg.solve.verify and effective is not None:
         verification = clock("verify", _verify, phasemap, cfg, effective, say)
@@ -174,6 +174,7 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
     result = Result(source=src, phases=fractions, version=__version__,
                     particles=summaries or None, effective=effective, shock=shock,
                     effective_3d=effective_3d, effective_by_temperature=by_temperature,
+                    effective_3d_by_temperature=by_temperature_3d,
                     schemes=schemes.get(phasemap.ndim),
                     schemes_3d=schemes.get(3) if two_d_section else None,
                     windows=windows,
@@ -194,24 +195,42 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
 
 def _effective_3d(phasemap: PhaseMap, cfg: Config, effective: Effective | None, say: Progress,
                   warnings: list, notes: list):
-    """The 3D estimate from the section's statistics (``[solve] estimate_3d``), or None."""
+    """The 3D estimate from the section's statistics (``[solve] estimate_3d``), or None, and
+    its effective properties at each of ``[solve] temperatures_C`` (the same volumes solved
+    again with the phase properties of `_phasemap_at`; empty without temperatures)."""
     if phasemap.ndim == 3:
         notes.append("estimate_3d: the input is a volume, solved in 3D as it is (effective)")
-        return None
+        return None, ()
     if not cfg.phases or not cfg.solve.properties:
         notes.append("estimate_3d: no materials or no properties asked for; not built")
-        return None
+        return None, ()
     from ..model3d.reconstruct import estimate_3d
+    from ..trust.measured import ROOM_C
 
+    pore_size = _pore_sizes(phasemap) if cfg.solve.temperatures_C else {}
+    hot = []
+    for t in cfg.solve.temperatures_C:
+        if abs(t - ROOM_C) < 1e-9:
+            continue
+        try:
+            hot.append((t, _phasemap_at(phasemap, cfg, t, pore_size).materials))
+        except InputError as exc:
+            warnings.append(f"3D estimate not solved at {t:g} °C: {exc}")
     try:
         est = estimate_3d(phasemap, cfg.solve.properties, voxels=cfg.solve.voxels,
                           realizations=cfg.solve.realizations, tol=cfg.solve.tolerance,
-                          method=cfg.solve.method, effective_2d=effective, progress=say)
+                          method=cfg.solve.method, effective_2d=effective, progress=say,
+                          temperatures=hot)
     except InputError as exc:
         warnings.append(f"3D estimate not built: {exc}")
-        return None
+        return None, ()
     warnings.extend(f"3D estimate: {w}" for w in est.warnings)
-    return est.summary()
+    record = est.summary()
+    solved = dict((t, e.summary().effective) for t, e in est.at_temperatures)
+    by_temperature = tuple(
+        AtTemperature(t, record.effective if abs(t - ROOM_C) < 1e-9 else solved[t])
+        for t in cfg.solve.temperatures_C if abs(t - ROOM_C) < 1e-9 or t in solved)
+    return record, by_temperature
 
 
 
@@ -355,19 +374,20 @@ def _resolution(phasemap: PhaseMap, cfg: Config, notes: list) -> list[str]:
 
 
 def _measured(cfg: Config, effective: Effective | None, by_temperature, effective_3d,
-              bounds_3d):
-    """The ``[[measured]]`` values beside the computed ones (at the solved temperatures) and
-    the bounds of the isotropic 3D composite."""
+              bounds_3d, by_temperature_3d=()):
+    """The ``[[measured]]`` values beside the computed ones (at the solved temperatures, the
+    3D estimate's too) and the bounds of the isotropic 3D composite."""
     from ..trust.measured import ROOM_C, compare_measured
 
     solved = {ROOM_C: effective} if effective else {}
     solved.update({t.temperature_C: t.effective for t in by_temperature})
     return compare_measured(cfg.measured, solved,
                             effective_3d.effective if effective_3d else None,
-                            dict(bounds_3d.bounds) if bounds_3d else None)
+                            dict(bounds_3d.bounds) if bounds_3d else None,
+                            {t.temperature_C: t.effective for t in by_temperature_3d})
 
 
-def _temperatures(phasemap: PhaseMap, cfg: Config, effective: Effective, say: Progress,
+def _temperatures(phasemap: PhaseMap, cfg: Config, start, say: Progress,
                   warnings: list, notes: list) -> tuple[AtTemperature, ...]:
     """The section solved with the phase properties at each of ``[solve] temperatures_C``.
 
@@ -376,13 +396,17 @@ def _temperatures(phasemap: PhaseMap, cfg: Config, effective: Effective, say: Pr
     phase's mean intercept length measured on the image (Loeb 1954, on from
     `radiation.RADIATION_ON_ABOVE_C`); porosity below the pixel is applied after. A
     temperature a material has no data for is left out with a warning. At the library's
-    own temperature (20 °C) the analysis's solve is the answer and is not repeated.
+    own temperature (20 °C) the analysis's solve (*start*) is the answer and is not
+    repeated. Each solve starts from the fluctuations of the one before (the analysis's
+    own solve first; warm start, `polisect.properties.solve.cg`): the same answer to the
+    tolerance in fewer iterations.
     """
     from ..properties.effective import solve_effective
-    from ..properties.radiation import RADIATION_ON_ABOVE_C, pore_phase
+    from ..properties.radiation import RADIATION_ON_ABOVE_C
     from ..trust.measured import ROOM_C
 
     pore_size = _pore_sizes(phasemap)
+    effective = start.effective
     out = []
     for t in cfg.solve.temperatures_C:
         if abs(t - ROOM_C) < 1e-9:
@@ -391,23 +415,14 @@ def _temperatures(phasemap: PhaseMap, cfg: Config, effective: Effective, say: Pr
             continue
         say(f"solving at {t:g} °C")
         try:
-            phases = []
-            for p in phasemap.phases:
-                pc = cfg.phase(p.label)
-                base = pc.material if pc is not None else p.material
-                if base.is_pore and base.name == "air":
-                    hot = pore_phase(t, pore_size.get(p.label, 0.0),
-                                     radiation=None if pore_size.get(p.label) else False)
-                else:
-                    hot = base.at(t, _needed(cfg.solve.properties))
-                phases.append(Phase(p.label, p.name, hot if pc is None
-                                    else _with_porosity(pc, hot), p.particles))
+            pm = _phasemap_at(phasemap, cfg, t, pore_size)
         except InputError as exc:
             warnings.append(f"not solved at {t:g} °C: {exc}")
             continue
-        pm = PhaseMap(phasemap.labels, tuple(phases), phasemap.voxel_size_um)
         solved = solve_effective(pm, cfg.solve.properties, method=cfg.solve.method,
-                                 tol=cfg.solve.tolerance, plane=cfg.solve.plane, maps=False)
+                                 tol=cfg.solve.tolerance, plane=cfg.solve.plane, maps=False,
+                                 start=start, keep_fluctuations=True)
+        start = solved
         warnings.extend(f"at {t:g} °C: {w}" for w in solved.warnings)
         warnings.extend(f"at {t:g} °C: effective properties refused: {why}"
                         for why in solved.refused)
@@ -419,6 +434,25 @@ def _temperatures(phasemap: PhaseMap, cfg: Config, effective: Effective, say: Pr
         notes.append(f"temperatures: radiation across pores from {RADIATION_ON_ABOVE_C:g} °C "
                      f"(Loeb 1954), pore size = mean intercept length on the image ({sizes})")
     return tuple(out)
+
+
+def _phasemap_at(phasemap: PhaseMap, cfg: Config, t: float, pore_size: dict) -> PhaseMap:
+    """The phase map with every phase's properties at *t* °C (see `_temperatures`); raises
+    `InputError` when a material has no data at *t*."""
+    from ..properties.radiation import pore_phase
+
+    phases = []
+    for p in phasemap.phases:
+        pc = cfg.phase(p.label)
+        base = pc.material if pc is not None else p.material
+        if base.is_pore and base.name == "air":
+            hot = pore_phase(t, pore_size.get(p.label, 0.0),
+                             radiation=None if pore_size.get(p.label) else False)
+        else:
+            hot = base.at(t, _needed(cfg.solve.properties))
+        phases.append(Phase(p.label, p.name, hot if pc is None else _with_porosity(pc, hot),
+                            p.particles))
+    return PhaseMap(phasemap.labels, tuple(phases), phasemap.voxel_size_um)
 
 
 def _needed(properties) -> tuple[str, ...]:
@@ -516,7 +550,8 @@ def _effective(phasemap: PhaseMap, cfg: Config, say: Progress, warnings: list, n
                      "(give [[phase]] entries or --assign)")
         return None
     solved = solve_effective(phasemap, props, method=cfg.solve.method, tol=cfg.solve.tolerance,
-                             plane=cfg.solve.plane, maps=cfg.solve.fields, progress=say)
+                             plane=cfg.solve.plane, maps=cfg.solve.fields, progress=say,
+                             keep_fluctuations=bool(cfg.solve.temperatures_C))
     warnings.extend(solved.warnings)
     warnings.extend(f"effective properties refused: {why}" for why in solved.refused)
     return solved

@@ -120,6 +120,9 @@ class Result:
         The 3D estimate from the section's statistics.
     effective_by_temperature : tuple of AtTemperature
         The section solved at each of ``[solve] temperatures_C``.
+    effective_3d_by_temperature : tuple of AtTemperature
+        The 3D estimate's volumes solved at each of ``[solve] temperatures_C`` (scalars
+        are `Spread` over the realizations; no shock indices).
     particles : mapping phase name → ParticleSummary or VolumeParticleSummary, or None
     schemes, schemes_3d : SchemeTable or None
         Bounds and estimates for the model solved, and (2D sections) for spheres.
@@ -164,6 +167,7 @@ class Result:
     timings_s: Mapping[str, float] = field(default_factory=dict)
     created: str = ""
     verification: Verification | None = None
+    effective_3d_by_temperature: tuple[AtTemperature, ...] = ()
 
     def phase(self, name: str) -> PhaseFraction:
         """The phase called *name* (KeyError when there is none)."""

@@ -85,6 +85,9 @@ def to_dict(result: Result) -> dict:
             {"temperature_C": t.temperature_C, **_effective(t.effective),
              **({"shock": _shock(t.shock)} if t.shock else {})}
             for t in result.effective_by_temperature],
+        "effective_3d_by_temperature": [
+            {"temperature_C": t.temperature_C, **_effective(t.effective)}
+            for t in result.effective_3d_by_temperature],
         "particles": ({n: _particles(s) for n, s in result.particles.items()}
                       if result.particles else None),
         "schemes": _schemes(result.schemes),
@@ -349,6 +352,9 @@ def from_dict(d: dict) -> Result:
             AtTemperature(b["temperature_C"], _read_effective(b),
                           _read_shock(b["shock"]) if b.get("shock") else None)
             for b in d.get("effective_by_temperature") or ()),
+        effective_3d_by_temperature=tuple(
+            AtTemperature(b["temperature_C"], _read_effective(b))
+            for b in d.get("effective_3d_by_temperature") or ()),
         particles=({n: _read_particles(b) for n, b in d["particles"].items()}
                    if d.get("particles") else None),
         schemes=_read_schemes(d.get("schemes"), d.get("bounds")),

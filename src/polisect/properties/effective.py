@@ -8,7 +8,7 @@ prismatic structure (the section extruded along the viewing direction).
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Callable
 
 import numpy as np
@@ -41,13 +41,16 @@ AXES_2D = "x = image columns (left to right), y = image rows (top to bottom)"
 @dataclass(frozen=True, eq=False)
 class Solved:
     """The effective properties, the warnings the solves raised, per-pixel maps for the
-    report (image-indexed arrays), and why a physically meaningless result was refused
-    (`polisect.properties.sanity`; the refused property is left out of ``effective``)."""
+    report (image-indexed arrays), why a physically meaningless result was refused
+    (`polisect.properties.sanity`; the refused property is left out of ``effective``), and
+    on request the solver results holding the solved fluctuations (``starts``: property →
+    result without fields), the start of a warm solve of the same labels."""
 
     effective: Effective
     warnings: tuple[str, ...] = ()
     maps: dict = field(default_factory=dict)
     refused: tuple[str, ...] = ()
+    starts: dict = field(default_factory=dict)
 
 
 def solver_record(facts: SolverFacts) -> Solver:
@@ -66,7 +69,8 @@ def model_words(ndim: int, plane: str) -> str:
 def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
                     tol: float = 1e-6, plane: str = "generalized-plane-strain",
                     maps: bool = True, progress: Callable[[str], None] | None = None,
-                    criterion: str = "energy") -> Solved:
+                    criterion: str = "energy", start: Solved | None = None,
+                    keep_fluctuations: bool = False) -> Solved:
     """Run the solvers asked for on a phase map.
 
     Parameters
@@ -87,6 +91,13 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
         Called with a stage description.
     criterion : {'energy', 'residual'}
         Stopping rule of the solvers (see `polisect.properties.solve.conductivity`).
+    start : Solved, optional
+        A solve of the same labels with other phase properties (another temperature) made
+        with *keep_fluctuations*: its fluctuations start the solvers (warm start,
+        `polisect.properties.solve.cg`; same answer to *tol*, fewer iterations).
+    keep_fluctuations : bool
+        Keep the solved fluctuations in ``Solved.starts`` (float32: about 4 bytes per pixel,
+        load case and component).
 
     Returns
     -------
@@ -102,6 +113,8 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
     out_maps: dict[str, np.ndarray] = {}
     c_rec = e_rec = x_rec = None
     fractions = fractions_of(labels)
+    before = start.starts if start is not None else {}
+    starts: dict = {}
 
     def sane(result) -> bool:
         """Warnings of the sanity checks kept; False when the result must be refused."""
@@ -113,7 +126,10 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
     if "conductivity" in props:
         say("solving for the effective conductivity")
         c = conductivity(labels, mats, method=method, tol=tol, fields=["x"] if maps else False,
-                         criterion=criterion)
+                         criterion=criterion, start=before.get("conductivity"),
+                         keep_fluctuations=keep_fluctuations)
+        if keep_fluctuations:
+            starts["conductivity"] = replace(c, fields=None)
         _converged(c, "conductivity", warnings)
         if sane(c):
             c_rec = Conductivity(c.tensor, c.mean(), c.anisotropy(), solver_record(c.facts))
@@ -126,7 +142,10 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
         stiff = elasticity(labels, mats, plane=plane, method=method,
                            tol=stiffness_tolerance(tol, criterion) if "expansion" in props
                            else tol, fields=maps and "elasticity" in props,
-                           criterion=criterion)
+                           criterion=criterion, start=before.get("elasticity"),
+                           keep_fluctuations=keep_fluctuations)
+        if keep_fluctuations:
+            starts["elasticity"] = replace(stiff, fields=None, phase_strains=None)
         _converged(stiff, "elasticity", warnings)
     stiff_ok = stiff is not None and sane(stiff)
     if "elasticity" in props and stiff_ok:
@@ -147,7 +166,7 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
     effective = Effective(phasemap.ndim, plane if two_d else None,
                           model_words(phasemap.ndim, plane), PRISMATIC_NOTE if two_d else None,
                           AXES_2D if two_d else AXES_2D + ", z = slices", c_rec, e_rec, x_rec)
-    return Solved(effective, tuple(warnings), out_maps, tuple(refused))
+    return Solved(effective, tuple(warnings), out_maps, tuple(refused), starts)
 
 
 def solver_labels(labels: np.ndarray) -> np.ndarray:

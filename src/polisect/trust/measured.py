@@ -68,7 +68,7 @@ class MeasuredComparison:
     section : float or None
         Computed on the section's model at that temperature (None: not computed there).
     estimate_3d : float or None
-        Computed by the 3D estimate (room temperature only).
+        Computed by the 3D estimate at that temperature (None: not computed there).
     lower, upper : float or None
         Hashin–Shtrikman bounds of the isotropic 3D composite (room temperature values).
     z_section, z_3d : float or None
@@ -105,7 +105,9 @@ def agreement(computed: float, measured: float, uncertainty: float | None) -> st
 
 def compare_measured(measured, by_temperature: dict[float, Effective],
                      effective_3d: Effective | None = None,
-                     bounds: dict[str, Bound] | None = None) -> tuple[MeasuredComparison, ...]:
+                     bounds: dict[str, Bound] | None = None,
+                     by_temperature_3d: dict[float, Effective] | None = None
+                     ) -> tuple[MeasuredComparison, ...]:
     """Set every measured value beside the computed ones.
 
     Parameters
@@ -117,6 +119,10 @@ def compare_measured(measured, by_temperature: dict[float, Effective],
         The 3D estimate (at room temperature).
     bounds : dict, optional
         `Estimate` field → `Bound` of the isotropic 3D composite.
+    by_temperature_3d : dict, optional
+        Temperature (°C) → the 3D estimate's `Effective` solved at it; a measured value
+        within `MATCH_K` of one of them is compared with it (else with *effective_3d* at
+        room temperature).
 
     Returns
     -------
@@ -125,12 +131,10 @@ def compare_measured(measured, by_temperature: dict[float, Effective],
     out = []
     for m in measured:
         name = _SCALAR[m.property]
-        at = min(by_temperature, key=lambda t: abs(t - m.temperature_C), default=None)
-        section = None
-        if at is not None and abs(at - m.temperature_C) <= MATCH_K:
-            section = scalar(by_temperature[at], name)
-        e3 = (scalar(effective_3d, name)
-              if effective_3d is not None and abs(m.temperature_C - ROOM_C) <= MATCH_K else None)
+        section = _nearest(by_temperature, m.temperature_C, name)
+        e3 = _nearest(by_temperature_3d or {}, m.temperature_C, name)
+        if e3 is None and effective_3d is not None and abs(m.temperature_C - ROOM_C) <= MATCH_K:
+            e3 = scalar(effective_3d, name)
         b = (bounds or {}).get(_BOUND[m.property])
         lower = upper = None
         if b is not None and abs(m.temperature_C - ROOM_C) <= MATCH_K:
@@ -141,6 +145,16 @@ def compare_measured(measured, by_temperature: dict[float, Effective],
                                       m.method, section, e3, lower, upper, z2, z3,
                                       _verdict(m, section, e3, lower, upper, by_temperature)))
     return tuple(out)
+
+
+def _nearest(by_temperature: dict[float, Effective], temperature: float,
+             name: str) -> float | None:
+    """The scalar *name* of the effective properties solved within `MATCH_K` of
+    *temperature*, or None."""
+    at = min(by_temperature, key=lambda t: abs(t - temperature), default=None)
+    if at is None or abs(at - temperature) > MATCH_K:
+        return None
+    return scalar(by_temperature[at], name)
 
 
 def _verdict(m, section, e3, lower, upper, by_temperature) -> str:

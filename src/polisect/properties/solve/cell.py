@@ -108,6 +108,12 @@ class Solution:
         (`methods.Run.energy_form`); zeros for `ms`.
     energy_error : float or None
         Estimated relative error of this load's effective diagonal entry (`cg.pcg`).
+    own : float
+        ``xᵀr / N`` of this solve, the correction of its diagonal entry in the energy
+        form: zero to rounding from a cold start, not from a warm one (`cg`).
+    fluctuation : (nc, *grid) float32 ndarray or None
+        The solved fluctuation, kept on request to start the same load case on the same
+        image with other phase properties (`cg`, warm start).
     """
 
     phase_means: np.ndarray
@@ -117,6 +123,8 @@ class Solution:
     gradient: np.ndarray | None = None
     cross: np.ndarray = field(default_factory=lambda: np.zeros(0))
     energy_error: float | None = None
+    own: float = 0.0
+    fluctuation: np.ndarray | None = None
 
     def mean_flux(self, cell: Cell, load: Load) -> np.ndarray:
         """Mean flux ``⟨L:g + τ⟩``, shape (nc, d)."""

@@ -31,6 +31,27 @@ form (`methods.Run.energy_form`) err by ``e_iᵀAe_j/N``, so ``|ΔC_ij| ≤ √(
 Loads without a known ``S`` (an eigenstrain alone) and ``criterion="residual"`` stop on
 ``‖r_k‖₂ ≤ tol ‖b‖₂``.
 
+Warm start. From a start ``x₀`` (the solution of the same image with other phase
+properties, e.g. the previous temperature) CG solves for the correction: ``A d = r₀``,
+``r₀ = b − A x₀``, from ``d = 0``, and returns ``x_k = x₀ + d_k``. Its error
+``x* − x₀ − d_k`` is the error of the correction, so the window sum above bounds
+``‖x* − x_k‖²_A`` exactly as before. What changes is the effective entry: ``bᵀx_k`` is no
+longer ``‖x_k‖²_A``, and the entry must come from the energy functional
+
+    J(x) = S − 2bᵀx + xᵀAx = S − bᵀx − xᵀr,     r = b − Ax.
+
+With ``Ax* = b``, ``J(x) = S − x*ᵀAx* + (x − x*)ᵀA(x − x*)``, so
+``J(x) − J(x*) = ‖x − x*‖²_A`` — the same one-sided, quadratic error as the cold start
+(``J(x*) = S − bᵀx*`` is N times the exact entry). Along the iterations,
+``J(x₀ + d) = J(x₀) − 2r₀ᵀd + dᵀAd`` and CG from zero keeps ``r₀ᵀd_k = ‖d_k‖²_A``, so
+``J(x_k) = J(x₀) − ‖d_k‖²_A``: the stopping rule is the cold one with ``J(x₀)`` in place of
+``S``. The entry computed from the mean flux is ``(S − bᵀx)/N`` and differs from
+``J(x)/N`` by ``xᵀr/N``; `solve_system` returns that correction (zero to rounding for a
+cold start), which `methods.Run.energy_form` subtracts from the diagonal. A start whose
+residual is below ``EXACT_START ‖b‖₂`` is returned as it is (zero iterations): its
+relative energy error is of order κ·EXACT_START², negligible for any condition number
+κ < 10¹⁸.
+
 References
 ----------
 .. [1] Hestenes, M. R. & Stiefel, E. (1952). Methods of conjugate gradients for solving
@@ -62,6 +83,9 @@ layer across the cell) is resolved to that fraction of the Voigt value, not rela
 itself."""
 MIN_DELAY = 5
 """Smallest delay ``d`` of the error estimate (iterations); d = max(5, ⌊k/3⌋)."""
+EXACT_START = 1e-12
+"""A start with ``‖b − Ax₀‖₂ ≤ EXACT_START ‖b‖₂`` is taken as the solution (see the module
+notes)."""
 
 
 @dataclass(frozen=True)
@@ -87,8 +111,10 @@ class CGInfo:
 
 def pcg(apply_A: Apply, apply_M: Apply, b: np.ndarray, tol: float, maxiter: int,
         energy: float | None = None, criterion: str = "energy",
-        residual: np.ndarray | None = None) -> tuple[np.ndarray, CGInfo]:
-    """Solve ``A x = b`` (A symmetric positive semi-definite, b in its range) from x = 0.
+        residual: np.ndarray | None = None,
+        x0: np.ndarray | None = None) -> tuple[np.ndarray, CGInfo]:
+    """Solve ``A x = b`` (A symmetric positive semi-definite, b in its range) from x = 0 or
+    from a start *x0* (CG on the correction, see the module notes).
 
     Parameters
     ----------
@@ -106,25 +132,36 @@ def pcg(apply_A: Apply, apply_M: Apply, b: np.ndarray, tol: float, maxiter: int,
     criterion : {'energy', 'residual'}
     residual : (n,) ndarray, optional
         Filled with the final residual ``b − Ax`` (used by the energy-form tensor).
+    x0 : (n,) ndarray, optional
+        Start (any float dtype); zero when omitted.
 
     Returns
     -------
     x : (n,) ndarray
     info : CGInfo
     """
-    x = np.zeros_like(b)
     norm_b = np.sqrt(kernels.dot(b, b))
     r = residual if residual is not None else np.empty_like(b)
-    r[:] = b
-    if norm_b == 0.0:
-        return x, CGInfo(0, np.zeros(1), True, 0.0 if energy is not None else None)
+    if x0 is None:
+        x = np.zeros_like(b)
+        r[:] = b
+        start = 1.0
+    else:
+        x = np.array(x0, dtype=b.dtype)
+        apply_A(x, r)
+        np.subtract(b, r, out=r)
+        start = np.sqrt(kernels.dot(r, r)) / norm_b if norm_b > 0.0 else 0.0
+        if energy is not None:
+            energy = energy - kernels.dot(b, x) - kernels.dot(x, r)          # J(x₀)
+    if norm_b == 0.0 or start <= (EXACT_START if x0 is not None else 0.0):
+        return x, CGInfo(0, np.array([start]), True, 0.0 if energy is not None else None)
     use_energy = criterion == "energy" and energy is not None and energy > 0.0
     z = np.empty_like(b)
     ap = z              # one buffer: z is used up in p before A p is written, and A p
     rz = apply_M(r, z)  # before the next z
     p = z.copy()
-    history = [1.0]
-    norm_x = [0.0]                 # ‖x_k‖²_A = Σ_{i<k} α_i γ_i
+    history = [start]
+    norm_x = [0.0]                 # ‖x_k − x₀‖²_A = Σ_{i<k} α_i γ_i
     estimate = None
     converged = False
     iterations = 0
@@ -154,19 +191,25 @@ def pcg(apply_A: Apply, apply_M: Apply, b: np.ndarray, tol: float, maxiter: int,
 
 
 def solve_system(apply_A: Apply, apply_M: Apply, b: np.ndarray, solver, load: Load,
-                 earlier: list | None, criterion: str):
-    """`pcg` on one load case with the energy of its uniform state, then the energy-form
-    corrections ``x_iᵀ r / N`` against the *earlier* fluctuations (appending this one)."""
+                 earlier: list | None, criterion: str, x0: np.ndarray | None = None):
+    """`pcg` on one load case with the energy of its uniform state (from the start *x0* when
+    given), then the energy-form corrections ``x_iᵀ r / N`` against the *earlier*
+    fluctuations (appending this one) and its own ``xᵀr / N`` (see the module notes).
+
+    Returns
+    -------
+    x, info, cross, own
+    """
     n = solver.cell.labels.size
     voigt = load.mean_energy(solver.cell)
     r = np.empty_like(b)
     x, info = pcg(apply_A, apply_M, b, solver.tol, solver.maxiter,
-                  None if voigt is None else voigt * n, criterion, residual=r)
+                  None if voigt is None else voigt * n, criterion, residual=r, x0=x0)
     cross = np.zeros(0)
     if earlier is not None:
         cross = np.array([mixed_dot(e, r) / n for e in earlier])
         earlier.append(x.astype(np.float16))
-    return x, info, cross
+    return x, info, cross, kernels.dot(x, r) / n
 
 
 def mixed_dot(single: np.ndarray, double: np.ndarray, block: int = 1 << 16) -> float:

@@ -31,11 +31,15 @@ class ConductivityResult(HasFacts):
         ``method``, ``iterations``, ``seconds``, ``residuals``, ``converged`` are also
         attributes of the result.
     fields : ConductivityFields or None
+    fluctuations : tuple of (1, *grid) float32 ndarray, or None
+        The solved temperature fluctuation of each load case, when asked for
+        (``keep_fluctuations``): the start of a warm solve of the same image (``start``).
     """
 
     tensor: np.ndarray
     facts: SolverFacts
     fields: ConductivityFields | None = None
+    fluctuations: tuple | None = None
 
     def mean(self) -> float:
         """Isotropic projection: the mean conductivity tr(k)/d."""
@@ -65,22 +69,24 @@ def field_flags(names: Sequence[str], fields) -> list[bool]:
 def solve_scalar(labels: np.ndarray, k: np.ndarray, method: str, tol: float,
                  maxiter: int | None, flags: list[bool],
                  names: Sequence[str] | None = None,
-                 criterion: str = "energy") -> tuple[np.ndarray, Run]:
+                 criterion: str = "energy", starts: Sequence | None = None,
+                 keep: bool = False) -> tuple[np.ndarray, Run]:
     """Effective tensor (energy form, `methods.Run.energy_form`) of the scalar problem with
     per-phase tensors *k* (P, d, d); *names* label its load cases in the live progress
-    (default "gradient x", …)."""
+    (default "gradient x", …); *starts* and *keep* as for `methods.solve_loads`."""
     dim = labels.ndim
     cell = Cell(labels, k.reshape(k.shape[0], 1, dim, 1, dim))
     loads = [Load(np.eye(dim)[i][None, :]) for i in range(dim)]
     names = names or [f"gradient {a}" for a in AXIS_NAMES[:dim]]
-    run = solve_loads(cell, loads, method, tol, maxiter, flags, names, criterion)
+    run = solve_loads(cell, loads, method, tol, maxiter, flags, names, criterion, starts, keep)
     tensor = np.column_stack([s.mean_flux(cell, ld)[0] for s, ld in zip(run.solutions, loads)])
     return run.energy_form(tensor), run
 
 
 def conductivity(labels, materials: Mapping, *, method: str = "auto", tol: float = 1e-6,
                  maxiter: int | None = None, fields=False,
-                 criterion: str = "energy") -> ConductivityResult:
+                 criterion: str = "energy", start: ConductivityResult | None = None,
+                 keep_fluctuations: bool = False) -> ConductivityResult:
     """Effective conductivity tensor of a periodic 2D or 3D phase map.
 
     One load case per axis: a unit mean temperature gradient with periodic fluctuations.
@@ -107,6 +113,13 @@ def conductivity(labels, materials: Mapping, *, method: str = "auto", tol: float
         load cases.
     criterion : {'energy', 'residual'}
         Stopping rule of 'fft' and 'fe' (see *tol*).
+    start : ConductivityResult, optional
+        A result of the same labels (other conductivities, e.g. another temperature) kept
+        with ``keep_fluctuations``: its fluctuations start CG (warm start, see
+        `polisect.properties.solve.cg`); the answer is the same to the tolerance.
+    keep_fluctuations : bool
+        Keep the solved fluctuations (float32, one field per load case) to start another
+        solve.
 
     Returns
     -------
@@ -131,7 +144,9 @@ def conductivity(labels, materials: Mapping, *, method: str = "auto", tol: float
     names = AXIS_NAMES[:image.dim]
     flags = field_flags(names, fields)
     k = conductivity_tensors(image)
-    tensor, run = solve_scalar(image.labels, k, method, tol, maxiter, flags, None, criterion)
+    tensor, run = solve_scalar(image.labels, k, method, tol, maxiter, flags, None, criterion,
+                               starts_of(start, "fluctuations", image.labels.shape, len(names)),
+                               keep_fluctuations)
     out = None
     if any(flags):
         kept = [i for i, f in enumerate(flags) if f]
@@ -139,7 +154,19 @@ def conductivity(labels, materials: Mapping, *, method: str = "auto", tol: float
         flux = _flux(k, image.labels, grads)
         grads[:, :, ~np.any(k.reshape(len(k), -1) != 0, axis=1)[image.labels]] = np.nan
         out = ConductivityFields(tuple(names[i] for i in kept), grads, flux)
-    return ConductivityResult(tensor, SolverFacts.of(run), out)
+    return ConductivityResult(tensor, SolverFacts.of(run), out,
+                              run.fluctuations if keep_fluctuations else None)
+
+
+def starts_of(result, name: str, shape: tuple[int, ...], count: int) -> tuple | None:
+    """The kept fluctuations *name* of an earlier *result* as starts of *count* load cases
+    on a grid of *shape*; None for no result, or fluctuations not kept or of another grid
+    (a cold start then)."""
+    kept = None if result is None else getattr(result, name, None)
+    if kept is None or len(kept) != count or \
+            any(x is not None and x.shape[1:] != shape for x in kept):
+        return None
+    return kept
 
 
 def _flux(k: np.ndarray, labels: np.ndarray, grads: np.ndarray) -> np.ndarray:

@@ -22,7 +22,7 @@ import numpy as np
 
 from ...core import tensors
 from .cell import Cell, Load
-from .conductivity import field_flags, solve_scalar
+from .conductivity import field_flags, solve_scalar, starts_of
 from .fields import VOIGT_NAMES, ElasticFields
 from .methods import solve_loads
 from .phases import ElasticPhases, PhaseImage, check_plane, elastic_phases, phase_image
@@ -54,6 +54,10 @@ class ElasticityResult(HasFacts):
         load case (order of `load_stiffness`): ``f_p`` times the phase averages of the
         strain-localisation tensor, which give the thermal expansion without another
         solve (`expansion`).
+    fluctuations, antiplane_fluctuations : tuple of (nc, *grid) float32 ndarray, or None
+        The solved displacement fluctuations of the load cases (and of the two antiplane
+        loads of generalized plane strain), when asked for (``keep_fluctuations``): the
+        start of a warm solve of the same image (``start``).
     """
 
     stiffness: np.ndarray
@@ -62,6 +66,8 @@ class ElasticityResult(HasFacts):
     prismatic_stiffness: np.ndarray | None = None
     fields: ElasticFields | None = None
     phase_strains: np.ndarray | None = None
+    fluctuations: tuple | None = None
+    antiplane_fluctuations: tuple | None = None
 
     @property
     def load_stiffness(self) -> np.ndarray:
@@ -118,7 +124,8 @@ def axial_map(axial: np.ndarray) -> np.ndarray:
 
 def elasticity(labels, materials: Mapping, *, plane: str = GPS, method: str = "auto",
                tol: float = 1e-6, maxiter: int | None = None, fields=False,
-               criterion: str = "energy") -> ElasticityResult:
+               criterion: str = "energy", start: ElasticityResult | None = None,
+               keep_fluctuations: bool = False) -> ElasticityResult:
     """Effective stiffness of a periodic 2D or 3D phase map.
 
     Parameters
@@ -141,6 +148,12 @@ def elasticity(labels, materials: Mapping, *, plane: str = GPS, method: str = "a
         ('xx', 'yy', 'xy', …, 'zz' for the axial load of generalized plane strain).
     criterion : {'energy', 'residual'}
         Stopping rule of 'fft' and 'fe' (see `conductivity`).
+    start : ElasticityResult, optional
+        A result of the same labels and plane mode (other phase stiffnesses, e.g. another
+        temperature) kept with ``keep_fluctuations``: its fluctuations start CG (warm
+        start, `polisect.properties.solve.cg`).
+    keep_fluctuations : bool
+        Keep the solved fluctuations (float32) to start another solve.
 
     Returns
     -------
@@ -163,12 +176,17 @@ def elasticity(labels, materials: Mapping, *, plane: str = GPS, method: str = "a
     """
     image = phase_image(labels, materials)
     return elastic_result(image, check_plane(plane, image.dim), method, tol, maxiter, fields,
-                          criterion)
+                          criterion, start, keep_fluctuations)
 
 
 def elastic_result(image: PhaseImage, plane: str | None, method: str, tol: float,
-                   maxiter: int | None, fields, criterion: str = "energy") -> ElasticityResult:
-    """`elasticity` on a checked `PhaseImage`."""
+                   maxiter: int | None, fields, criterion: str = "energy",
+                   start: ElasticityResult | None = None,
+                   keep: bool = False) -> ElasticityResult:
+    """`elasticity` on a checked `PhaseImage` (*start*, *keep*: its ``start`` and
+    ``keep_fluctuations``)."""
+    if start is not None and start.plane != plane:
+        start = None
     phases = elastic_phases(image, plane, thermal=False)
     cell = elastic_cell(image, phases)
     dim = image.dim
@@ -181,7 +199,9 @@ def elastic_result(image: PhaseImage, plane: str | None, method: str, tol: float
     flags = field_flags(names, fields)
     run = solve_loads(cell, loads, method, tol, maxiter, flags,
                       [f"{'axial ' if plane == GPS and n == 'zz' else ''}strain {n}"
-                       for n in names], criterion)
+                       for n in names], criterion,
+                      starts_of(start, "fluctuations", image.labels.shape, len(loads)), keep)
+    kept = run.fluctuations if keep else None
     run, grads = run.take_fields()
     C = np.column_stack([tensors.stress_to_voigt(s.mean_flux(cell, ld))
                          for s, ld in zip(run.solutions, loads)])
@@ -190,13 +210,14 @@ def elastic_result(image: PhaseImage, plane: str | None, method: str, tol: float
         C = run.energy_form(C)
         out_fields = _fields(cell, phases, grads, loads, names, flags, C, zz_tau=None)
         return ElasticityResult(C, plane, SolverFacts.of(run), fields=out_fields,
-                                phase_strains=strains)
+                                phase_strains=strains, fluctuations=kept)
     zz = [s.average(axial_map(phases.axial), phases.axial_stiffness if name == "zz" else None,
                     cell.fractions) for s, name in zip(run.solutions, names)]
     C4 = run.energy_form(np.vstack([C, zz]))                   # rows/cols xx, yy, xy, zz
     antiplane, anti_run = solve_scalar(image.labels, phases.antiplane, method, tol, maxiter,
                                        [False, False], ["axial shear xz", "axial shear yz"],
-                                       criterion)
+                                       criterion, starts_of(start, "antiplane_fluctuations",
+                                                            image.labels.shape, 2), keep)
     prismatic = np.zeros((6, 6))
     prismatic[np.ix_(PRISMATIC_ORDER, PRISMATIC_ORDER)] = C4
     prismatic[np.ix_([4, 3], [4, 3])] = antiplane
@@ -205,7 +226,7 @@ def elastic_result(image: PhaseImage, plane: str | None, method: str, tol: float
     out_fields = _fields(cell, phases, grads, loads, names, flags, C4,
                          zz_tau=phases.axial_stiffness)
     return ElasticityResult(condensed, plane, SolverFacts.of(run, anti_run), prismatic, out_fields,
-                            strains)
+                            strains, kept, anti_run.fluctuations if keep else None)
 
 
 def _fields(cell: Cell, phases: ElasticPhases, grads: list, loads, names, flags,

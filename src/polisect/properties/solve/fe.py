@@ -192,16 +192,20 @@ class AMGSolver:
         return b.ravel()
 
     def solve(self, load: Load, fields: bool = False, earlier: list | None = None,
-              criterion: str = "energy") -> Solution:
-        """Solve one load case (*earlier*: as for `FourierSolver.solve`)."""
+              criterion: str = "energy", start: np.ndarray | None = None,
+              keep: bool = False) -> Solution:
+        """Solve one load case (*earlier*, *start*, *keep*: as for `FourierSolver.solve`;
+        the start is taken at the kept dofs, zero at the pinned ones)."""
         cell = self.cell
         b = self.load_vector(load)[self.kept] * self.free
-        x, info, cross = solve_system(self.apply, self.precondition, b, self, load, earlier,
-                                      criterion)
+        x0 = None if start is None else \
+            np.moveaxis(np.asarray(start, dtype=np.float64), 0, -1).ravel()[self.kept] * self.free
+        x, info, cross, own = solve_system(self.apply, self.precondition, b, self, load,
+                                           earlier, criterion, x0)
         u = np.zeros(cell.labels.size * cell.ncomp)
         u[self.kept] = x
         u = np.moveaxis(u.reshape(cell.shape + (cell.ncomp,)), -1, 0)
         g = grid.centre_gradient(u, load.E)
         return Solution(grid.phase_means(cell.labels, g, cell.n_phases), info.iterations,
                         info.residuals, info.converged, g if fields else None, cross,
-                        info.energy_error)
+                        info.energy_error, own, u.astype(np.float32) if keep else None)

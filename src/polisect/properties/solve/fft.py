@@ -145,19 +145,24 @@ class FourierSolver:
         return kernels.store_dot(z.reshape(-1), out, r, self.mask)
 
     def solve(self, load: Load, fields: bool = False, earlier: list | None = None,
-              criterion: str = "energy") -> Solution:
+              criterion: str = "energy", start: np.ndarray | None = None,
+              keep: bool = False) -> Solution:
         """Solve one load case.
 
         *earlier* holds the fluctuations of the load cases solved before (float16); the
         energy-form corrections against them are computed, then this fluctuation is
-        appended (see `methods.Run.energy_form`).
+        appended (see `methods.Run.energy_form`). *start* (nc, *grid) is the fluctuation
+        CG starts from (warm start, `cg`; zero at floating nodes); *keep* keeps the
+        solved fluctuation in the solution (float32).
         """
         cell = self.cell
         b = grid.load_vector(self.labels, load.sigma0(cell)).ravel()
-        x, info, cross = solve_system(self.apply, self.precondition, b, self, load, earlier,
-                                      criterion)
-        g = grid.centre_gradient(x.reshape((cell.ncomp,) + cell.shape), load.E)
+        x0 = None if start is None else np.asarray(start, dtype=np.float64).ravel() * self.mask
+        x, info, cross, own = solve_system(self.apply, self.precondition, b, self, load,
+                                           earlier, criterion, x0)
+        u = x.reshape((cell.ncomp,) + cell.shape)
+        g = grid.centre_gradient(u, load.E)
         return Solution(grid.phase_means(self.labels, g, cell.n_phases), info.iterations,
                         info.residuals, info.converged, g if fields else None, cross,
-                        info.energy_error)
+                        info.energy_error, own, u.astype(np.float32) if keep else None)
 

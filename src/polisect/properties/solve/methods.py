@@ -69,6 +69,12 @@ class Run:
     def converged(self) -> bool:
         return all(s.converged for s in self.solutions)
 
+    @property
+    def fluctuations(self) -> tuple:
+        """The kept fluctuations of the load cases (`Solution.fluctuation`), the start of a
+        warm solve."""
+        return tuple(s.fluctuation for s in self.solutions)
+
     def take_fields(self) -> tuple["Run", list]:
         """This run without its gradient fields, and the fields (so that a caller can free
         each one as soon as it has used it)."""
@@ -83,12 +89,14 @@ class Run:
         off-diagonal error is linear in the error of ``x_j``. The energy form
         ``⟨(E_i + ∇x_i):L:(E_j + ∇x_j)⟩ = C_ij − x_iᵀr_j/N`` (i < j, ``r_j`` the final
         residual of j) errs by ``e_iᵀAe_j/N`` only, so ``|ΔC_ij| ≤ √(ΔC_ii ΔC_jj)``; the
-        diagonal is unchanged (``x_jᵀr_j = 0`` for CG iterates). The earlier fluctuations
+        diagonal ``C_jj − x_jᵀr_j/N`` is ``J(x_j)/N`` (`cg`, warm start; the correction
+        vanishes for CG iterates from zero). The earlier fluctuations
         are kept in half precision (2 bytes a value, relative rounding 5e-4), which
         perturbs only the small correction: its effect is below 1e-3 of the solver error.
         """
         out = np.array(C, dtype=float)
         for j, s in enumerate(self.solutions):
+            out[j, j] = C[j, j] - s.own
             for i, correction in enumerate(s.cross[:j]):
                 out[i, j] = out[j, i] = C[i, j] - correction
         return out
@@ -96,11 +104,14 @@ class Run:
 
 def solve_loads(cell: Cell, loads: list[Load], method: str, tol: float, maxiter: int | None,
                 fields: list[bool], names: Sequence[str] | None = None,
-                criterion: str = "energy") -> Run:
+                criterion: str = "energy", starts: Sequence | None = None,
+                keep: bool = False) -> Run:
     """Solve every load case on *cell* with one solver set up once.
 
     *names* label the load cases in the live progress (`solve.progress`); *criterion*
-    is the stopping rule of `cg.pcg` ('energy' or 'residual').
+    is the stopping rule of `cg.pcg` ('energy' or 'residual'). *starts* holds a start
+    fluctuation (nc, *grid) or None per load case (warm start, `cg`); *keep* keeps every
+    solved fluctuation in single precision (`Run.fluctuations`).
 
     Warns (RuntimeWarning) when a load case stops at *maxiter* before the tolerance.
     """
@@ -111,9 +122,13 @@ def solve_loads(cell: Cell, loads: list[Load], method: str, tol: float, maxiter:
     solutions = []
     earlier: list[np.ndarray] = []
     labels = names if names is not None else [None] * len(loads)
-    for index, (load, want, label) in enumerate(zip(loads, fields, labels), start=1):
+    starts = list(starts) if starts is not None else [None] * len(loads)
+    if len(starts) != len(loads):
+        raise ValueError(f"{len(starts)} starts for {len(loads)} load cases")
+    for index, (load, want, label, x0) in enumerate(zip(loads, fields, labels, starts),
+                                                    start=1):
         progress.load_case(index, len(loads), name, tol, label)
-        solutions.append(solver.solve(load, want, earlier, criterion))
+        solutions.append(solver.solve(load, want, earlier, criterion, start=x0, keep=keep))
     del earlier
     solutions = tuple(solutions)
     seconds = time.perf_counter() - start

@@ -213,9 +213,11 @@ class MSSolver:
         self._factor = factor
 
     def solve(self, load: Load, fields: bool = False, earlier: list | None = None,
-              criterion: str = "energy") -> Solution:
+              criterion: str = "energy", start: np.ndarray | None = None,
+              keep: bool = False) -> Solution:
         """Run the fixed point for one load case (it stops on its equilibrium error; the
-        fields are not Galerkin iterates, so *earlier* and *criterion* are not used)."""
+        fields are not Galerkin iterates, so *earlier* and *criterion* are not used, and
+        it always starts from the uniform strain: *start* and *keep* are not used)."""
         cell = self.cell
         nv, shape, n = len(self.comp_a), cell.shape, cell.labels.size
         tau = np.zeros((cell.n_phases, nv)) if load.tau is None else \
