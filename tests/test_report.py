@@ -198,3 +198,28 @@ def test_bench_help_explains_its_columns(capsys):
         main(["bench", "--help"])
     text = capsys.readouterr().out
     assert "FFT-preconditioned" in text and "'no' when it stopped" in text
+
+
+def test_report_shows_the_3d_estimate_over_temperature():
+    """With [solve] temperatures_C and estimate_3d the temperature section has the 3D
+    estimate's table (means with their 95 % intervals) beside the 2D one, and the curves
+    (issue 15; common practice, no source)."""
+    labels = np.zeros((64, 64), dtype=np.int32)
+    yy, xx = np.mgrid[:64, :64]
+    for cy, cx in ((16, 16), (16, 48), (48, 16), (48, 48)):
+        labels[(yy - cy) ** 2 + (xx - cx) ** 2 <= 49] = 1
+    cfg = config_from_dict({
+        "image": {"kind": "labels", "pixel_size_um": 1.0},
+        "solve": {"properties": ["conductivity"], "tolerance": 1e-4, "estimate_3d": True,
+                  "voxels": 24, "realizations": 2, "temperatures_C": [20, 800]},
+        "phase": [{"label": 0, "name": "mullite", "material": "mullite"},
+                  {"label": 1, "name": "alumina", "material": "alumina", "particles": True}]})
+    analysis = analyze(labels, cfg)
+    page = html_report(analysis)
+    section = page[page.index("Effective properties over temperature"):]
+    section = section[:section.index("</section>")]
+    assert "3D estimate over temperature" in section
+    table_3d = section[section.index("3D estimate over temperature"):]
+    hot = analysis.result.effective_3d_by_temperature[1].effective.conductivity.mean
+    assert f"{number(hot.mean, trim=True)} [" in table_3d
+    assert 'alt="properties over temperature"' in section

@@ -229,25 +229,41 @@ def window_figure(windows):
     return fig
 
 
-def over_temperature(curves: dict):
-    """Each effective property against temperature (one panel per property).
+def over_temperature(curves: dict, curves_3d: dict | None = None):
+    """Each effective property against temperature (one panel per property): the section's
+    values, and the 3D estimate's means with their intervals as bars when given.
 
     Parameters
     ----------
-    curves : dict
-        (symbol, kind) → list of (temperature °C, value in the unit people read).
+    curves, curves_3d : dict
+        (symbol, kind) → list of (temperature °C, value in the unit people read), a 3D
+        point optionally with its interval: (temperature, mean, low, high).
     """
     from .units import heading
 
-    n = len(curves)
+    curves_3d = curves_3d or {}
+    keys = list(dict.fromkeys(list(curves) + list(curves_3d)))
+    n = len(keys)
     fig, axes = new_axes((2.6 * n, 2.4), 1, n, squeeze=False)
-    for ax, ((sym, kind), pts) in zip(axes[0], curves.items()):
-        t, v = zip(*pts)
-        ax.plot(t, v, "o-", color="#20304f", markersize=4)
+    for ax, key in zip(axes[0], keys):
+        sym, kind = key
+        if key in curves:
+            t, v = zip(*curves[key])
+            ax.plot(t, v, "o-", color="#20304f", markersize=4, label="2D section")
+        if key in curves_3d:
+            pts = curves_3d[key]
+            t = [p[0] for p in pts]
+            v = [p[1] for p in pts]
+            low = [p[1] - p[2] if len(p) > 2 else 0.0 for p in pts]
+            high = [p[3] - p[1] if len(p) > 2 else 0.0 for p in pts]
+            ax.errorbar(t, v, yerr=[low, high], fmt="s--", color="#c8553d", markersize=4,
+                        capsize=2, label="3D estimate")
         ax.set_xlabel("temperature (°C)", fontsize=8)
         ax.set_title(heading(sym, kind), fontsize=9)
         ax.tick_params(labelsize=7)
         ax.grid(alpha=0.3)
+    if curves_3d:
+        axes[0][0].legend(fontsize=7, loc="best")
     fig.tight_layout()
     return fig
 

@@ -676,41 +676,65 @@ def _estimate_3d(analysis, r, colors) -> str:
             "phases need a real volume (docs/methods.md).</p></section>")
 
 
+_TEMPERATURE_COLUMNS = (("conductivity", "mean", "conductivity", "k"),
+                        ("elasticity", "youngs_modulus", "modulus", "E"),
+                        ("elasticity", "poisson_ratio", "poisson", "ν"),
+                        ("expansion", "mean", "expansion", "α"))
+
+
 def _temperatures(analysis, r, colors) -> str:
-    if not r.effective_by_temperature:
+    if not r.effective_by_temperature and not r.effective_3d_by_temperature:
         return ""
-    rows, curves = [], {}
-    cols = (("conductivity", "mean", "conductivity", "k"), ("elasticity", "youngs_modulus",
-            "modulus", "E"), ("elasticity", "poisson_ratio", "poisson", "ν"),
-            ("expansion", "mean", "expansion", "α"))
-    present = [c for c in cols if any(getattr(t.effective, c[0]) is not None
-                                      for t in r.effective_by_temperature)]
-    for t in r.effective_by_temperature:
-        row = [number(t.temperature_C)]
-        for block, attr, kind, sym in present:
-            b = getattr(t.effective, block)
-            v = None if b is None else value_of(getattr(b, attr))
-            row.append("–" if v is None else number(v * scale_of(kind), trim=True))
-            if v is not None:
-                curves.setdefault((sym, kind), []).append((t.temperature_C, v * scale_of(kind)))
-        if t.shock is not None:
-            row.append(number(t.shock.R, trim=True))
-        rows.append(tuple(row))
-    head = ("Temperature (°C)",) + tuple(heading(sym, kind) for _, _, kind, sym in present)
-    if any(t.shock is not None for t in r.effective_by_temperature):
-        head += ("R (K)",)
-    fig = figure_png(figures.over_temperature(curves)) if curves else ""
+    curves, curves_3d = {}, {}
+    table = _over_temperature(r.effective_by_temperature, curves, shock=True)
+    table_3d = _over_temperature(r.effective_3d_by_temperature, curves_3d, shock=False)
+    fig = figure_png(figures.over_temperature(curves, curves_3d)) if curves or curves_3d else ""
     notes = "".join(f"<li>{html.escape(n[len('temperatures: '):])}</li>" for n in r.notes
                     if n.startswith("temperatures:"))
-    return ("<section><h2>Effective properties over temperature</h2>" + grid(head, rows)
+    return ("<section><h2>Effective properties over temperature</h2>" + table
             + (f'<figure class="wide"><img alt="properties over temperature" src="{fig}"></figure>'
                if fig else "")
             + f'<p class="note">The section solved again with every phase at each '
-            "temperature (the library's tables, interpolated linearly); expansion is the "
+            "temperature (the library's tables, interpolated linearly), each solve started "
+            "from the previous temperature's solution; expansion is the "
             "instantaneous coefficient α(T) of the composite; R is Hasselman's comparative "
             "crack-initiation index from these values. Same model as above ("
             f"{html.escape(r.effective.model if r.effective else '')}).</p>"
+            + ("<h3>3D estimate over temperature</h3>" + table_3d
+               + '<p class="note">The 3D estimate\'s reconstructed volumes (built once) solved '
+               "with the phase properties at each temperature: mean over the realizations "
+               "with its 95 % interval (shown as bars in the curves, beside the 2D section's "
+               "values).</p>" if table_3d else "")
             + (f'<ul class="note">{notes}</ul>' if notes else "") + "</section>")
+
+
+def _over_temperature(blocks, curves: dict, shock: bool) -> str:
+    """The table of effective properties over temperature (2D values, or 3D means with
+    their intervals) and their curve points in *curves* ((symbol, kind) → points; a point is
+    (T, value) or (T, mean, low, high))."""
+    if not blocks:
+        return ""
+    present = [c for c in _TEMPERATURE_COLUMNS if any(getattr(t.effective, c[0]) is not None
+                                                      for t in blocks)]
+    with_shock = shock and any(t.shock is not None for t in blocks)
+    rows = []
+    for t in blocks:
+        row = [number(t.temperature_C)]
+        for block, attr, kind, sym in present:
+            b = getattr(t.effective, block)
+            x = None if b is None else getattr(b, attr)
+            v, sc = value_of(x), scale_of(kind)
+            ci = x.ci95 if isinstance(x, Spread) else None
+            row.append("–" if v is None else number(v * sc, trim=True) + (
+                f" [{number(ci[0] * sc)} – {number(ci[1] * sc)}]" if ci else ""))
+            if v is not None:
+                curves.setdefault((sym, kind), []).append(
+                    (t.temperature_C, v * sc) + ((ci[0] * sc, ci[1] * sc) if ci else ()))
+        if with_shock:
+            row.append(number(t.shock.R, trim=True) if t.shock is not None else "–")
+        rows.append(tuple(row))
+    head = ("Temperature (°C)",) + tuple(heading(sym, kind) for _, _, kind, sym in present)
+    return grid(head + (("R (K)",) if with_shock else ()), rows)
 
 
 _PROPERTY_WORDS = {"conductivity": "conductivity", "youngs_modulus": "Young's modulus",
