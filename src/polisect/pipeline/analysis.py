@@ -207,9 +207,10 @@ def _effective_3d(phasemap: PhaseMap, cfg: Config, effective: Effective | None, 
     from ..model3d.reconstruct import estimate_3d
     from ..trust.measured import ROOM_C
 
-    pore_size = _pore_sizes(phasemap) if cfg.solve.temperatures_C else {}
+    temperatures = cfg.solve.temperatures_C or ()
+    pore_size = _pore_sizes(phasemap) if temperatures else {}
     hot = []
-    for t in cfg.solve.temperatures_C:
+    for t in temperatures:
         if abs(t - ROOM_C) < 1e-9:
             continue
         try:
@@ -229,7 +230,7 @@ def _effective_3d(phasemap: PhaseMap, cfg: Config, effective: Effective | None, 
     solved = dict((t, e.summary().effective) for t, e in est.at_temperatures)
     by_temperature = tuple(
         AtTemperature(t, record.effective if abs(t - ROOM_C) < 1e-9 else solved[t])
-        for t in cfg.solve.temperatures_C if abs(t - ROOM_C) < 1e-9 or t in solved)
+        for t in temperatures if abs(t - ROOM_C) < 1e-9 or t in solved)
     return record, by_temperature
 
 

@@ -183,21 +183,54 @@ def load_config(path: str | os.PathLike) -> Config:
         When the file is missing, is not valid TOML, or holds an unknown key or a bad value.
     """
     path = os.fspath(path)
-    try:
-        with open(path, "rb") as f:
-            text = f.read().decode("utf-8")
-    except FileNotFoundError:
-        raise InputError(f"{path}: config file not found; check the path given to --config")
-    except UnicodeDecodeError:
-        raise InputError(f"{path}: config file is not UTF-8 text")
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"{path}: not valid TOML ({exc}); fix the syntax at that line")
+    data, text = _read_toml(path, "config file", "check the path given to --config")
     try:
         return config_from_dict(data, source=path, raw=text)
     except InputError as exc:
         raise InputError(f"{path}: {exc}") from None
+
+
+MEASURED_FILE = "measured.toml"
+"""The batch-wide table of measured values: a file of this name in an image folder holds
+``[[measured]]`` tables (the configuration's format) for the images of that folder and its
+subfolders (the nearest file up to the batch folder wins); `read_measured_file`."""
+
+
+def read_measured_file(path: str | os.PathLike) -> tuple[MeasuredValue, ...]:
+    """The ``[[measured]]`` tables of a batch's `MEASURED_FILE`, each checked as in a run
+    configuration.
+
+    Raises
+    ------
+    InputError
+        Naming the file (and the entry) when it is not UTF-8 TOML, holds anything but
+        ``[[measured]]`` tables, or an entry is malformed.
+    """
+    path = os.fspath(path)
+    data, _ = _read_toml(path, "measured-values file", "")
+    unknown = set(data) - {"measured"}
+    if unknown:
+        raise InputError(f"{path}: only [[measured]] tables belong in a measured-values file; "
+                         f"found {', '.join(sorted(unknown))}")
+    try:
+        return measured_values(data.get("measured", []))
+    except InputError as exc:
+        raise InputError(f"{path}: {exc}") from None
+
+
+def _read_toml(path: str, what: str, hint: str) -> tuple[dict, str]:
+    """The parsed TOML file at *path* and its text; `InputError` naming the file."""
+    try:
+        with open(path, "rb") as f:
+            text = f.read().decode("utf-8")
+    except FileNotFoundError:
+        raise InputError(f"{path}: {what} not found" + (f"; {hint}" if hint else "")) from None
+    except UnicodeDecodeError:
+        raise InputError(f"{path}: {what} is not UTF-8 text") from None
+    try:
+        return tomllib.loads(text), text
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"{path}: not valid TOML ({exc}); fix the syntax at that line") from None
 
 
 def config_from_dict(data: dict, *, source: str = "dict", raw: str = "") -> Config:

@@ -30,9 +30,11 @@ Examples
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
+from typing import Mapping, Sequence
 
-from ..properties.records import Effective, scalar
+from ..properties.records import SCALARS, Effective, Spread, scalar
 from ..properties.schemes import Bound
 
 ROOM_C = 20.0
@@ -175,3 +177,157 @@ def _verdict(m, section, e3, lower, upper, by_temperature) -> str:
                      f"of these phases ({lower:.4g}–{upper:.4g}): check the phase map (pores "
                      "missed or over-counted) and the phase properties")
     return "; ".join(parts)
+
+
+@dataclass(frozen=True)
+class BatchMeasured:
+    """One measured value beside a batch's mean of the computed ones.
+
+    Attributes
+    ----------
+    property, value, uncertainty, temperature_C, method
+        As measured (`MeasuredComparison`).
+    n : int
+        Sections with a computed value at that temperature (the section's model).
+    section_mean : float or None
+        Their mean.
+    section_ci95 : (float, float) or None
+        95 % interval of that mean, Student t over the sections (n ≥ 2).
+    z_section : float or None
+        (mean − measured) / u_c with the combined standard uncertainty
+        u_c = √(u² + s²/n): the measurement's u and the standard error of the batch mean
+        (u alone for one section).
+    n_3d, estimate_3d_mean, estimate_3d_ci95, z_3d
+        The same for the 3D estimate; with one section its interval and standard error are
+        those over the realizations.
+    verdict : str
+    """
+
+    property: str
+    value: float
+    uncertainty: float | None
+    temperature_C: float
+    method: str
+    n: int
+    section_mean: float | None
+    section_ci95: tuple[float, float] | None
+    z_section: float | None
+    n_3d: int
+    estimate_3d_mean: float | None
+    estimate_3d_ci95: tuple[float, float] | None
+    z_3d: float | None
+    verdict: str
+
+
+def compare_batch(measured, sections: Sequence[Mapping[float, Effective]],
+                  sections_3d: Sequence[Mapping[float, Effective]] = ()
+                  ) -> tuple[BatchMeasured, ...]:
+    """Set every measured value beside a batch's mean of the computed values.
+
+    Parameters
+    ----------
+    measured : sequence of `polisect.read.config.MeasuredValue` (or anything with its
+        attributes)
+    sections : sequence of dict
+        Per section: temperature (°C) → the section's `Effective` solved at it.
+    sections_3d : sequence of dict
+        Per section with a 3D estimate: temperature → its `Effective` (scalars `Spread`).
+
+    Returns
+    -------
+    tuple of BatchMeasured
+
+    References
+    ----------
+    JCGM 100:2008 (GUM): combined standard uncertainty of independent components, root sum
+    of squares. ASTM E562: Student-t interval of a mean over sections.
+
+    Examples
+    --------
+    >>> from polisect.read.config import MeasuredValue
+    >>> from polisect.properties.records import Conductivity
+    >>> import numpy as np
+    >>> def eff(k):
+    ...     return Effective(2, None, "", None, "", Conductivity(np.eye(2) * k, k, 0.0, None))
+    >>> (b,) = compare_batch([MeasuredValue("conductivity", 2.0, 0.3)], [{20.0: eff(2.3)},
+    ...                      {20.0: eff(2.5)}])
+    >>> b.n, round(b.section_mean, 2), round(b.z_section, 2)
+    (2, 2.4, 1.26)
+    """
+    out = []
+    for m in measured:
+        name = _SCALAR[m.property]
+        values = [v for v in (_nearest(s, m.temperature_C, name) for s in sections)
+                  if v is not None]
+        spreads = [_nearest_spread(s, m.temperature_C, name) for s in sections_3d]
+        spreads = [x for x in spreads if x is not None]
+        mean2, ci2, se2 = _batch_mean(values)
+        mean3, ci3, se3 = _batch_mean([x.mean for x in spreads])
+        if len(spreads) == 1 and spreads[0].ci95 is not None:
+            ci3, se3 = spreads[0].ci95, _standard_error(spreads[0])
+        z2 = _z(mean2, se2, m)
+        z3 = _z(mean3, se3, m)
+        parts = []
+        if mean2 is None:
+            parts.append(f"no section computed the {m.property.replace('_', ' ')} at "
+                         f"{m.temperature_C:g} °C")
+        else:
+            parts.append(f"the batch mean of the section's model {_words(z2, mean2, m)}")
+        if mean3 is not None:
+            parts.append(f"the 3D estimate's {_words(z3, mean3, m)}")
+        out.append(BatchMeasured(m.property, m.value, m.uncertainty, m.temperature_C,
+                                 m.method, len(values), mean2, ci2, z2, len(spreads), mean3,
+                                 ci3, z3, "; ".join(parts)))
+    return tuple(out)
+
+
+def _nearest_spread(by_temperature: Mapping[float, Effective], temperature: float,
+                    name: str) -> Spread | None:
+    """`_nearest` for a 3D estimate: the `Spread` of the scalar (a plain number becomes a
+    spread of one value)."""
+    at = min(by_temperature, key=lambda t: abs(t - temperature), default=None)
+    if at is None or abs(at - temperature) > MATCH_K:
+        return None
+    eff = by_temperature[at]
+    block, attr = SCALARS[name]
+    x = getattr(getattr(eff, block), attr) if getattr(eff, block) is not None else None
+    if x is None or isinstance(x, Spread):
+        return x
+    return Spread(float(x), None, (float(x),))
+
+
+def _batch_mean(values) -> tuple[float | None, tuple[float, float] | None, float | None]:
+    """Mean, Student-t 95 % interval and standard error of per-section values (interval
+    and standard error None below two sections)."""
+    if not values:
+        return None, None, None
+    s = Spread.of(values)
+    return s.mean, s.ci95, _standard_error(s)
+
+
+def _standard_error(s: Spread) -> float | None:
+    """s/√n of the values of a `Spread` (None for one value)."""
+    n = len(s.values)
+    if n < 2:
+        return None
+    mean = sum(s.values) / n
+    return math.sqrt(sum((v - mean) ** 2 for v in s.values) / (n - 1) / n)
+
+
+def _z(mean: float | None, se: float | None, m) -> float | None:
+    """(mean − measured) / √(u² + se²), or None without a mean or any uncertainty."""
+    if mean is None:
+        return None
+    u2 = (m.uncertainty or 0.0) ** 2 + (se or 0.0) ** 2
+    return (mean - m.value) / math.sqrt(u2) if u2 > 0 else None
+
+
+def _words(z: float | None, mean: float, m) -> str:
+    if z is None:
+        return agreement(mean, m.value, None)
+    for k in (1, 2, 3):
+        if abs(z) <= k:
+            return (f"agrees within {k} combined standard uncertaint"
+                    f"{'y' if k == 1 else 'ies'}")
+    return (f"differs by {abs(z):.1f} combined standard uncertainties "
+            f"({'above' if z > 0 else 'below'})")
