@@ -379,3 +379,59 @@ def test_index_page_escapes_names_and_forbids_scripts():
                       [{"image": evil, "reason": "<script>x</script>"}])
     assert "<script>" not in text and "<img src=x" not in text
     assert 'http-equiv="Content-Security-Policy"' in text
+
+
+MEASURED_A = ('# invented values for the test\n[[measured]]\nproperty = "conductivity"\n'
+              'value = 2.0\nuncertainty = 0.2\nmethod = "laser flash (invented)"\n')
+
+
+def test_measured_file_beside_the_images(tmp_path, capsys):
+    """A measured.toml next to a batch's images is compared with that batch's mean of the
+    computed values: mean and Student-t interval over the sections (ASTM E562) and z in the
+    combined standard uncertainty √(u² + SE²) (JCGM 100:2008); measured.csv, the index and
+    the console say so; a batch without a file has none."""
+    root = tmp_path / "images"
+    for i, rel in enumerate(GOOD):
+        path = root / rel
+        path.parent.mkdir(parents=True, exist_ok=True)
+        fraction = 0.25 if rel.startswith("A") else 0.35
+        tifffile.imwrite(path, rsa_discs((64, 64), fraction, 3.0, seed=i).labels.astype(np.uint8))
+    (root / "A" / "measured.toml").write_text(MEASURED_A)
+    cfg = tmp_path / "c.toml"
+    cfg.write_text(CONFIG)
+    out = tmp_path / "out"
+    assert main(["batch", str(root), "--out", str(out), "--config", str(cfg), "--quiet"]) == 0
+    err = capsys.readouterr().err
+    assert "measured values beside the batch means" in err and "A: conductivity at 20 °C" in err
+    manifest = read_manifest(out)
+    assert manifest["measured_files"] == {"A/measured.toml": [
+        {"property": "conductivity", "value": 2.0, "uncertainty": 0.2, "temperature_C": 20.0,
+         "method": "laser flash (invented)"}]}
+    computed = []
+    for rel in ("A/s0.tif", "A/s1.tif"):
+        with open(out / manifest["entries"][rel]["outputs"]["json"]) as f:
+            computed.append(json.load(f)["effective"]["conductivity"]["mean_W_mK"])
+    rows = list(csv.DictReader(open(out / "measured.csv")))
+    assert [r["batch"] for r in rows] == ["A"]
+    mean = float(np.mean(computed))
+    se = float(np.std(computed, ddof=1)) / np.sqrt(2)
+    assert float(rows[0]["section_mean"]) == pytest.approx(mean)
+    assert float(rows[0]["section_z"]) == pytest.approx((mean - 2.0) / np.hypot(0.2, se))
+    assert rows[0]["section_n"] == "2"
+    page = (out / "index.html").read_text()
+    assert "Measured beside computed" in page and "laser flash (invented)" in page
+
+
+def test_malformed_measured_file_names_the_file_and_the_entry(folder, tmp_path):
+    """A bad measured.toml stops the batch before any image, naming the file and the entry
+    (common practice, no source)."""
+    root = tmp_path / "images"
+    shutil.copytree(folder[0] / "A", root / "A")
+    (root / "A" / "measured.toml").write_text(
+        MEASURED_A + '[[measured]]\nproperty = "hardness"\nvalue = 1.0\n')
+    with pytest.raises(InputError, match=r"measured\.toml: \[\[measured\]\] number 2: "
+                                         r"property = 'hardness'"):
+        run_batch(root, tmp_path / "out", config=load_config(folder[1]), quiet=True)
+    (root / "A" / "measured.toml").write_text('[other]\nx = 1\n')
+    with pytest.raises(InputError, match=r"measured\.toml: only \[\[measured\]\] tables"):
+        run_batch(root, tmp_path / "out", config=load_config(folder[1]), quiet=True)

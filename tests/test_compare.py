@@ -183,3 +183,69 @@ def test_outliers_are_listed_on_the_page():
     page = html_comparison(compare(secs))
     table = page.split("<h2>Outliers</h2>")[1].split("</section>")[0]
     assert "A/s2.tif" in table and "2.6" in table
+
+
+def _hot_result(path, name, k20, k800, k800_3d):
+    """A result solved at 20 and 800 °C with a 3D estimate at 800 °C (three realizations)
+    and the run configuration's measured conductivity at 800 °C (invented for the test)."""
+    from dataclasses import replace
+
+    from polisect.pipeline.result import AtTemperature
+    from polisect.properties.records import Spread
+    from polisect.read.config import measured_values
+    from polisect.trust.measured import compare_measured
+
+    def eff(k, dim=2):
+        return Effective(dim, None, "test model", None, "x, y",
+                         Conductivity(getattr(k, "mean", k) * np.eye(dim), k, 0.0,
+                                      Solver("fft", 1, 0.0, 1e-6, True)))
+
+    base = Result(source=Source(path=f"/data/{name}", sha256=None, shape=(64, 64),
+                                pixel_size_um=None, pixel_size_from="unknown"),
+                  phases=(PhaseFraction(0, "matrix", Material(name="m"), 1.0, (0, 1)),),
+                  version="test", effective=eff(k20))
+    measured = compare_measured(measured_values([{"property": "conductivity", "value": 2.0,
+                                                  "uncertainty": 0.1, "temperature_C": 800,
+                                                  "method": "hot wire (invented)"}]),
+                                {20.0: eff(k20), 800.0: eff(k800)})
+    spread = Spread.of(k800_3d)
+    r = replace(base, effective_by_temperature=(AtTemperature(20.0, eff(k20)),
+                                                AtTemperature(800.0, eff(k800))),
+                effective_3d_by_temperature=(AtTemperature(800.0, eff(spread, 3)),),
+                measured=measured)
+    write_json(r, path)
+
+
+def test_compare_shows_measured_beside_the_batch_means(tmp_path, capsys):
+    """A measured value at 800 °C is set beside each batch's mean of the computed values at
+    800 °C (2D model and 3D estimate) with their Student-t intervals over the sections
+    (ASTM E562) and z = (mean − measured)/√(u² + SE²) (combined standard uncertainty, JCGM
+    100:2008), on the console, the page and the JSON."""
+    values = {"A": [2.1, 2.3, 2.2], "B": [2.6, 2.8, 2.7]}
+    for batch, ks in values.items():
+        (tmp_path / batch).mkdir()
+        for i, k in enumerate(ks):
+            _hot_result(tmp_path / batch / f"s{i}.json", f"s{i}.tif", 5.0, k,
+                        [k + 0.2, k + 0.3, k + 0.25])
+    sections = load_sections([tmp_path / "A", tmp_path / "B"])
+    c = compare(sections)
+    (a,) = c.measured["A"]
+    ks = np.array(values["A"])
+    se = ks.std(ddof=1) / np.sqrt(3)
+    assert a.section_mean == pytest.approx(ks.mean()) and a.n == 3
+    assert a.z_section == pytest.approx((ks.mean() - 2.0) / np.hypot(0.1, se))
+    half = 4.302653 * se                                   # t(0.975, 2)
+    assert a.section_ci95 == pytest.approx((ks.mean() - half, ks.mean() + half), rel=1e-5)
+    assert a.estimate_3d_mean == pytest.approx(ks.mean() + 0.25) and a.n_3d == 3
+    (b,) = c.measured["B"]
+    assert b.z_section > 3 and "differs by" in b.verdict
+    page = html_comparison(c)
+    assert "Measured beside computed" in page and "hot wire (invented)" in page
+    d = json.loads(c.to_json())
+    assert d["measured"]["A"][0]["section"]["mean"] == pytest.approx(ks.mean())
+    assert main(["compare", str(tmp_path / "A"), str(tmp_path / "B"),
+                 "--out", str(tmp_path / "c.html")]) == 0
+    err = capsys.readouterr().err
+    assert "measured beside computed" in err
+    assert "A: conductivity at 800 °C measured 2.00 ± 0.10 W/(m·K)" in err
+    assert f"section model {ks.mean():.3g}" in err

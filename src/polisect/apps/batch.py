@@ -8,7 +8,14 @@ process pool (or on a Dask distributed cluster) and writes, in the output folder
 * ``manifest.json`` (atomic): for every input its content hash, the configuration hash,
   its status (``done`` / ``failed`` with a one-line reason) and its output paths;
 * ``summary.csv`` (one row of headline numbers per image), ``failures.csv`` and
-  ``index.html`` linking every report.
+  ``index.html`` linking every report;
+* ``measured.csv`` when the batch has measured values: each beside the batch mean of the
+  computed values at its temperature (`polisect.apps.measured`). They come from the run
+  configuration's ``[[measured]]`` and from a measured-values file next to the images
+  (`polisect.read.config.MEASURED_FILE`, ``measured.toml``: it covers the images of its
+  folder and subfolders, the nearest one winning; an entry of the configuration wins over
+  the file's for the same property and temperature). The file is read before any image is
+  analysed; a malformed one stops the batch with an error naming the file and the entry.
 
 A corrupt or unreadable image is recorded as failed and the batch goes on. Killed at any
 moment and run again with ``resume=True``, the batch redoes nothing that is done: an image
@@ -48,12 +55,13 @@ from typing import Iterable, Iterator
 
 from .. import __version__
 from ..core.atomic import atomic_write_text
-from ..read.config import Config
+from ..read.config import MEASURED_FILE, Config, MeasuredValue, read_measured_file
 from ..core.errors import InputError
 from ..present.htmlkit import CAUTION_MANY_SECTION, grid, page
 from ..present.units import column_words, number
 from ..core.quantities import quantity_keys
 from ..present.record import csv_text, headline, read_result
+from .measured import batch_measured, computed_of, html_measured, measured_dict
 from .run import run_section
 
 MANIFEST = "manifest.json"
@@ -578,6 +586,11 @@ class BatchResult:
     notes : tuple of str
         What the user should know about this run (temporary files a killed run left, images
         gone since the last run, names the --group-by regex does not match).
+    measured : dict
+        Batch → its measured values beside the batch means
+        (`polisect.trust.measured.BatchMeasured`); empty without measured values.
+    measured_csv : str or None
+        Path of measured.csv, when written.
     """
 
     out: str
@@ -592,6 +605,8 @@ class BatchResult:
     failures_csv: str
     index_html: str
     notes: tuple[str, ...] = field(default_factory=tuple)
+    measured: dict = field(default_factory=dict)
+    measured_csv: str | None = None
 
 
 def run_batch(folder: str | os.PathLike, out: str | os.PathLike, *, config=None,
@@ -657,6 +672,11 @@ def run_batch(folder: str | os.PathLike, out: str | os.PathLike, *, config=None,
         previous = read_manifest(out) if resume else None
         old = (previous or {}).get("entries", {})
         tasks, entries, skipped = _plan(folder, out, rels, grouping, config_sha, old)
+        files = measured_files(folder, rels)
+        for rel, entry in entries.items():
+            entry.pop("measured_file", None)
+            if files[0].get(rel):
+                entry["measured_file"] = files[0][rel]
         gone = sorted(set(old) - set(rels))
         if gone:
             notes.append(f"{len(gone)} image(s) of the previous run are no longer in the folder "
@@ -669,7 +689,7 @@ def run_batch(folder: str | os.PathLike, out: str | os.PathLike, *, config=None,
                     "folder": folder, "pattern": pattern,
                     "group_by": group_by or "folder", "config_sha256": config_sha,
                     "config_source": getattr(settings.config, "source", ""),
-                    "started": _now(), "entries": entries}
+                    "measured_files": files[1], "started": _now(), "entries": entries}
         _write_manifest(out, manifest)
         bar = ProgressBar(len(rels), skipped, stream=stream, quiet=quiet)
         bar.draw()
@@ -693,11 +713,14 @@ def run_batch(folder: str | os.PathLike, out: str | os.PathLike, *, config=None,
             manifest["finished"] = _now()
             _write_manifest(out, manifest)
         bar.draw(final=True)
-        paths = write_tables(out, manifest)
+        measured = measured_table(out, manifest)
+        paths = write_tables(out, manifest, measured)
+        measured_csv = write_measured_csv(out, measured)
     counts = _counts(entries)
     return BatchResult(out, len(rels), counts["done"], counts["failed"], skipped,
                        time.perf_counter() - t_start, analysis_s,
-                       os.path.join(out, MANIFEST), *paths, notes=tuple(notes))
+                       os.path.join(out, MANIFEST), *paths, notes=tuple(notes),
+                       measured=measured, measured_csv=measured_csv)
 
 
 def _plan(folder: str, out: str, rels: list[str], grouping: Grouping, config_sha: str,
@@ -785,7 +808,80 @@ def summary_rows(out: str, manifest: dict) -> tuple[list[dict], list[dict]]:
     return rows, failures
 
 
-def write_tables(out: str, manifest: dict) -> tuple[str, str, str]:
+def measured_files(folder: str, rels: list[str]) -> tuple[dict, dict]:
+    """The measured-values files of a batch folder: image → the file covering it (relative
+    paths; the nearest `MEASURED_FILE` in its folder or a parent up to *folder*), and file →
+    its entries as plain tables (read and checked by `read_measured_file`)."""
+    found: dict[str, str | None] = {}
+    covering, tables = {}, {}
+    for rel in rels:
+        parts = rel.split("/")[:-1]
+        for depth in range(len(parts), -1, -1):
+            sub = "/".join(parts[:depth])
+            if sub not in found:
+                name = f"{sub}/{MEASURED_FILE}" if sub else MEASURED_FILE
+                found[sub] = name if os.path.isfile(os.path.join(folder, *name.split("/"))) \
+                    else None
+            if found[sub]:
+                covering[rel] = found[sub]
+                break
+    for name in sorted(set(covering.values())):
+        tables[name] = [dataclasses.asdict(m) for m in
+                        read_measured_file(os.path.join(folder, *name.split("/")))]
+    return covering, tables
+
+
+def measured_of(manifest: dict | None) -> dict:
+    """Image → the `MeasuredValue` entries of the measured-values file covering it, as a
+    batch manifest records them (empty without a manifest or files)."""
+    if not manifest:
+        return {}
+    tables = manifest.get("measured_files") or {}
+    return {rel: tuple(MeasuredValue(**m) for m in tables.get(e.get("measured_file"), ()))
+            for rel, e in manifest["entries"].items() if e.get("measured_file")}
+
+
+def measured_table(out: str, manifest: dict) -> dict:
+    """Batch → its measured values beside the batch means of the computed ones, from the
+    done images' results and the measured-values files (`polisect.apps.measured`)."""
+    batch_wide = measured_of(manifest)
+    groups: dict[str, list] = {}
+    for rel in sorted(manifest["entries"]):
+        e = manifest["entries"][rel]
+        if e["status"] == "done":
+            result = read_result(os.path.join(out, e["outputs"]["json"]))
+            groups.setdefault(e["group"], []).append(computed_of(result,
+                                                                 batch_wide.get(rel, ())))
+    return batch_measured(groups)
+
+
+def write_measured_csv(out: str, measured: dict) -> str | None:
+    """Write measured.csv (atomic) when there are measured values; return its path."""
+    if not measured:
+        return None
+    path = os.path.join(out, "measured.csv")
+    rows = [{"batch": b, **plain_row(measured_dict(m))} for b, ms in measured.items()
+            for m in ms]
+    atomic_write_text(path, csv_text(rows))
+    return path
+
+
+def plain_row(d: dict, prefix: str = "") -> dict:
+    """A nested dict as one flat CSV row (``section_mean``, ``section_ci95``, …); an
+    interval as ``low – high`` text."""
+    out = {}
+    for k, v in d.items():
+        key = f"{prefix}{k}"
+        if isinstance(v, dict):
+            out.update(plain_row(v, f"{key}_"))
+        elif isinstance(v, list):
+            out[key] = " – ".join(f"{x:.6g}" for x in v)
+        else:
+            out[key] = "" if v is None else v
+    return out
+
+
+def write_tables(out: str, manifest: dict, measured: dict | None = None) -> tuple[str, str, str]:
     """Write summary.csv, failures.csv and index.html (atomic); return their paths."""
     rows, failures = summary_rows(out, manifest)
     summary = os.path.join(out, "summary.csv")
@@ -793,13 +889,15 @@ def write_tables(out: str, manifest: dict) -> tuple[str, str, str]:
     index = os.path.join(out, "index.html")
     atomic_write_text(summary, csv_text(rows) if rows else "image,batch\n")
     atomic_write_text(fails, csv_text(failures) if failures else "image,batch,status,reason\n")
-    atomic_write_text(index, index_html(manifest, rows, failures))
+    atomic_write_text(index, index_html(manifest, rows, failures, measured))
     return summary, fails, index
 
 
-def index_html(manifest: dict, rows: list[dict], failures: list[dict]) -> str:
+def index_html(manifest: dict, rows: list[dict], failures: list[dict],
+               measured: dict | None = None) -> str:
     """The batch's index page: every section with its headline numbers (in the units people
-    read, `polisect.present.units`), each batch's mean, and the report links."""
+    read, `polisect.present.units`), each batch's mean, the measured values beside the batch
+    means (*measured*, `measured_table`), and the report links."""
     entries = manifest["entries"]
     keys = list(dict.fromkeys(k for r in rows for k in quantity_keys(r)))
     words = {k: column_words(k) for k in keys}
@@ -829,6 +927,7 @@ def index_html(manifest: dict, rows: list[dict], failures: list[dict]) -> str:
         parts.append(f"<section><h2>Batch {html.escape(g)}</h2><div class=\"tablewrap\">"
                      f"<table class=\"grid\"><thead><tr><th>Image</th>{head}<th></th></tr>"
                      f"</thead><tbody>{''.join(body)}</tbody></table></div></section>")
+    parts.append(html_measured(measured or {}))
     if failures:
         parts.append('<section class="warn"><h2>Failed images</h2>'
                      + grid(("Image", "Reason"), [(f["image"], f["reason"]) for f in failures])

@@ -478,6 +478,7 @@ def _add_batch(sub):
 
 def _run_batch(args) -> int:
     from .batch import run_batch
+    from .measured import measured_lines
 
     cfg = _with_window_options(_config(args), args)
     r = run_batch(args.folder, args.out, config=cfg, pattern=args.pattern, jobs=args.jobs,
@@ -489,6 +490,10 @@ def _run_batch(args) -> int:
         print(f"{r.done} of {r.total} images done ({r.skipped} from before), {r.failed} "
               f"failed, {r.seconds:.1f} s\n  index:    {r.index_html}\n  summary:  "
               f"{r.summary_csv}\n  failures: {r.failures_csv}", file=sys.stderr)
+    if r.measured:
+        print("measured values beside the batch means (batch mean [95 % interval]; z in "
+              f"combined standard uncertainties; also in {r.measured_csv} and the index):\n"
+              + "\n".join(f"  {line}" for line in measured_lines(r.measured)), file=sys.stderr)
     return EXIT_OK
 
 
@@ -519,6 +524,7 @@ def _add_compare(sub):
 
 def _run_compare(args) -> int:
     from .compare import compare, load_sections, means_lines, spec_lines, write_html
+    from .measured import measured_lines
 
     comparison = compare(load_sections(args.dirs, args.group_by), specs=args.spec)
     write_html(comparison, args.out)
@@ -527,6 +533,10 @@ def _run_compare(args) -> int:
              + ", ".join(comparison.batches),
              "batch means (± = 95 % interval of the mean):"]
     lines += [f"  {s}" for s in means_lines(comparison)]
+    if comparison.measured:
+        lines.append("measured beside computed (batch mean [95 % interval]; z in combined "
+                     "standard uncertainties):")
+        lines += [f"  {s}" for s in measured_lines(comparison.measured)]
     if comparison.specs:
         lines.append("specification limits (pass: the whole interval meets the limit):")
         lines += [f"  {s}" for s in spec_lines(comparison)]

@@ -34,13 +34,14 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..core.atomic import atomic_write_text
-from .batch import Grouping, read_manifest
+from .batch import Grouping, measured_of, read_manifest
 from ..core.errors import InputError
 from ..present.htmlkit import CAUTION_MANY_SECTION, PALETTE, figure_png, grid, new_axes, page
 from ..core.quantities import fraction_column, quantity_keys
 from ..present.record import SCHEMA, headline, plain, read_result, whole_image_variances
 from ..present.units import (column_words, kind_of, number, scale_of, with_uncertainty,
                              with_unit)
+from .measured import batch_measured, computed_of, html_measured, measured_dict
 from ..trust.sectionstats import (ALPHA, Grubbs, difference, gitman_chi2, grubbs, holm, json_number,
                            one_way_anova, p_text, section_spread, sig, summarize, welch_anova,
                            welch_t)
@@ -66,6 +67,12 @@ class Section:
         The result JSON it was read from.
     report : str or None
         Its HTML report, when known.
+    solved, solved_3d : dict
+        Temperature (°C) → the effective properties of the section's model and of its 3D
+        estimate (empty when not computed), for the measured values.
+    measured : tuple
+        The measured values that concern the section: its run configuration's and its
+        batch's measured-values file's (`polisect.trust.measured.merge_measured`).
     """
 
     name: str
@@ -74,14 +81,20 @@ class Section:
     within_variance: dict = field(default_factory=dict)
     json_path: str | None = None
     report: str | None = None
+    solved: dict = field(default_factory=dict)
+    solved_3d: dict = field(default_factory=dict)
+    measured: tuple = ()
 
 
 def section_from_result(result, *, name: str, batch: str, json_path: str | None = None,
-                        report: str | None = None) -> Section:
-    """A `Section` from a `Result` (its headline numbers and window study)."""
+                        report: str | None = None, measured=()) -> Section:
+    """A `Section` from a `Result` (its headline numbers, window study and effective
+    properties over temperature); *measured*: the batch's measured-values file's entries."""
     row = headline(result)
     values = {k: float(row[k]) for k in quantity_keys(row)}
-    return Section(name, batch, values, whole_image_variances(result), json_path, report)
+    c = computed_of(result, measured)
+    return Section(name, batch, values, whole_image_variances(result), json_path, report,
+                   c.solved, c.solved_3d, c.measured)
 
 
 def load_sections(dirs, group_by: str | None = None) -> list[Section]:
@@ -111,6 +124,7 @@ def load_sections(dirs, group_by: str | None = None) -> list[Section]:
                              "batch or holding result JSON files")
         dir_name = os.path.basename(os.path.normpath(os.path.abspath(folder)))
         manifest = read_manifest(folder)
+        batch_wide = measured_of(manifest)
         if manifest is not None:
             entries = [(e["outputs"]["json"], rel, e["group"], e["outputs"].get("report"))
                        for rel, e in sorted(manifest["entries"].items()) if e["status"] == "done"]
@@ -134,7 +148,8 @@ def load_sections(dirs, group_by: str | None = None) -> list[Section]:
             else:
                 batch = dir_name
             sections.append(section_from_result(result, name=rel, batch=batch, json_path=path,
-                                                report=report))
+                                                report=report,
+                                                measured=batch_wide.get(rel, ())))
     if not sections:
         raise InputError(f"no result JSON files found in {', '.join(map(str, dirs))}; run "
                          "polisect analyze or polisect batch first")
@@ -242,10 +257,15 @@ class Comparison:
     quantities: tuple[QuantityComparison, ...]
     alpha: float = ALPHA
     specs: tuple = ()
+    measured: dict = field(default_factory=dict)
+    """Batch → tuple of `polisect.trust.measured.BatchMeasured` (batches with measured
+    values)."""
 
     def to_dict(self) -> dict:
         return {"schema": "polisect.compare/1", "alpha": self.alpha,
                 "specs": [r.to_dict() for r in self.specs],
+                "measured": {b: [measured_dict(m) for m in ms]
+                             for b, ms in self.measured.items()},
                 "batches": {b: [s.name for s in self.sections if s.batch == b]
                             for b in self.batches},
                 "sections": [{"name": s.name, "batch": s.batch, "values": s.values,
@@ -308,7 +328,9 @@ def compare(sections, quantities=None, alpha: float = ALPHA, specs=()) -> Compar
         if sums is None:
             sums = _compare_quantity(sections, batches, sp.key, alpha).summaries
         checked.append(check_spec(sp, sections, sums))
-    return Comparison(batches, sections, compared, alpha, tuple(checked))
+    return Comparison(batches, sections, compared, alpha, tuple(checked),
+                      batch_measured({b: [s for s in sections if s.batch == b]
+                                      for b in batches}))
 
 
 def _difference_sentence(key, label, unit, scale, ref, other, x, y, d) -> str:
@@ -519,7 +541,8 @@ def check_spec(spec: Spec, sections, summaries: dict) -> SpecResult:
 
 def html_comparison(comparison: Comparison, title: str = "Section comparison") -> str:
     """The comparison as a self-contained HTML page (figures embedded)."""
-    parts = [CAUTION_MANY_SECTION, _html_overview(comparison), _html_specs(comparison),
+    parts = [CAUTION_MANY_SECTION, _html_overview(comparison), html_measured(comparison.measured),
+             _html_specs(comparison),
              _html_findings(comparison), _html_outliers(comparison)]
     parts += [_html_quantity(q, comparison) for q in comparison.quantities]
     parts.append(_HOW_TO_READ)

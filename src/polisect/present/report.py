@@ -19,8 +19,8 @@ from ..properties.shock import INDEX_WORDS
 from . import figures, record
 from .htmlkit import (CAUTION_SECTION, CSS, PALETTE, csp_meta, figure_png, grid, kv_table,
                       new_axes)
-from .units import (column_words, heading, number, scale_of, show, tensor_cells, unit_text,
-                    with_uncertainty, with_unit)
+from .units import (MEASURED_KINDS, column_words, heading, number, scale_of, show,
+                    tensor_cells, unit_text, with_uncertainty, with_unit)
 
 EDGE_NOTES = {
     "periodic": "periodic — each window solved as a periodic cell; a window cut from a "
@@ -742,17 +742,13 @@ _PROPERTY_WORDS = {"conductivity": "conductivity", "youngs_modulus": "Young's mo
                    "expansion": "expansion (instantaneous)",
                    "mean_expansion": "expansion (mean from 20 °C)"}
 
-_MEASURED_KIND = {"conductivity": "conductivity", "youngs_modulus": "modulus",
-                  "shear_modulus": "modulus", "expansion": "expansion",
-                  "mean_expansion": "expansion"}
-
 
 def _measured(analysis, r, colors) -> str:
     if not r.measured:
         return ""
     rows = []
     for m in r.measured:
-        kind = _MEASURED_KIND[m.property]
+        kind = MEASURED_KINDS[m.property]
         sc = scale_of(kind)
         rows.append((html.escape(_PROPERTY_WORDS[m.property]), number(m.temperature_C),
                      with_uncertainty(m.value, m.uncertainty, sc), html.escape(m.method or "–"),
@@ -786,7 +782,7 @@ def _fitted(analysis, r, colors) -> str:
                      f"{number(f.interval[0] * sc)} – {number(f.interval[1] * sc)}",
                      html.escape(_PROPERTY_WORDS[f.target]),
                      with_uncertainty(f.measured, f.uncertainty,
-                                      scale_of(_MEASURED_KIND[f.target])), str(f.steps)))
+                                      scale_of(MEASURED_KINDS[f.target])), str(f.steps)))
     head = ("Phase", "Property", "Fitted value", "95 % interval", "Fitted to", "Measured (±u)",
             "Solves")
     return ("<section><h2>Phase properties back-calculated from measurements</h2>"

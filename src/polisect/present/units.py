@@ -71,6 +71,11 @@ UNITS = {
 }
 """Kind of quantity → how people read it."""
 
+MEASURED_KINDS = {"conductivity": "conductivity", "youngs_modulus": "modulus",
+                  "shear_modulus": "modulus", "expansion": "expansion",
+                  "mean_expansion": "expansion"}
+"""A ``[[measured]]`` property → its kind of quantity."""
+
 _HEADLINE_KINDS = {"conductivity": "conductivity", "youngs_modulus": "modulus",
                    "bulk_modulus": "modulus", "shear_modulus": "modulus",
                    "poisson_ratio": "poisson", "expansion": "expansion",

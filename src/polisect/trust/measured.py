@@ -281,6 +281,24 @@ def compare_batch(measured, sections: Sequence[Mapping[float, Effective]],
     return tuple(out)
 
 
+def merge_measured(explicit, batch_wide) -> tuple:
+    """The measured values of a batch: *batch_wide* (the batch's measured-values file) and
+    *explicit* (the run configuration's ``[[measured]]``), the configuration's entry winning
+    where both give the same property within `MATCH_K` of the same temperature; repeats
+    (same property, temperature, value, uncertainty and method) once."""
+    def same(a, b) -> bool:
+        return a.property == b.property and abs(a.temperature_C - b.temperature_C) <= MATCH_K
+
+    kept = [m for m in batch_wide if not any(same(m, e) for e in explicit)]
+    seen, out = set(), []
+    for m in list(explicit) + kept:
+        key = (m.property, m.temperature_C, m.value, m.uncertainty, m.method)
+        if key not in seen:
+            seen.add(key)
+            out.append(m)
+    return tuple(out)
+
+
 def _nearest_spread(by_temperature: Mapping[float, Effective], temperature: float,
                     name: str) -> Spread | None:
     """`_nearest` for a 3D estimate: the `Spread` of the scalar (a plain number becomes a
