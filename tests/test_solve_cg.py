@@ -73,17 +73,13 @@ def test_energy_form_bounds_off_diagonal_error():
     assert err[0, 1] <= np.sqrt(err[0, 0] * err[1, 1]) * (1 + 1e-6) + 1e-12
 
 
-@settings(max_examples=20, deadline=None)
-@given(st.integers(4, 30), st.integers(0, 10_000))
-def test_cg_energy_identity(n, seed):
-    """‖x_k‖²_A = Σ α_i γ_i = bᵀx_k for CG from zero on a random SPD system (Strakoš &
-    Tichý 2002, eq. 3.3; Hestenes & Stiefel 1952), so S − bᵀx_k is the effective entry of
-    the iterate."""
+def spd_system(n, seed):
+    """A random symmetric positive definite system, its operator and a Jacobi
+    preconditioner in `pcg`'s calling form, and the generator (for more draws)."""
     rng = np.random.default_rng(seed)
     Q = rng.standard_normal((n, n))
     A = Q @ Q.T + n * np.eye(n)
     b = rng.standard_normal(n)
-    seen = {}
 
     def apply_A(x, out):
         out[:] = A @ x
@@ -93,6 +89,17 @@ def test_cg_energy_identity(n, seed):
         out[:] = r / np.diag(A)
         return float(r @ out)
 
+    return A, b, apply_A, apply_M, rng
+
+
+@settings(max_examples=20, deadline=None)
+@given(st.integers(4, 30), st.integers(0, 10_000))
+def test_cg_energy_identity(n, seed):
+    """‖x_k‖²_A = Σ α_i γ_i = bᵀx_k for CG from zero on a random SPD system (Strakoš &
+    Tichý 2002, eq. 3.3; Hestenes & Stiefel 1952), so S − bᵀx_k is the effective entry of
+    the iterate."""
+    A, b, apply_A, apply_M, _ = spd_system(n, seed)
+    seen = {}
     S = 10.0 * float(b @ np.linalg.solve(A, b))
     x, info = pcg(apply_A, apply_M, b, 1e-8, 3 * n, energy=S)
     seen["energy"] = float(x @ A @ x)
@@ -121,19 +128,7 @@ def test_warm_start_energy_functional(n, seed):
     """From a start x₀, J(x) = S − bᵀx − xᵀr exceeds J(x*) = S − bᵀx* by exactly
     ‖x − x*‖²_A, and the warm-started iterate reaches the cold one's accuracy (the energy
     identity behind Strakoš & Tichý 2002, ETNA 13, 56, eq. 3.3, applied to the correction)."""
-    rng = np.random.default_rng(seed)
-    Q = rng.standard_normal((n, n))
-    A = Q @ Q.T + n * np.eye(n)
-    b = rng.standard_normal(n)
-
-    def apply_A(x, out):
-        out[:] = A @ x
-        return float(x @ out)
-
-    def apply_M(r, out):
-        out[:] = r / np.diag(A)
-        return float(r @ out)
-
+    A, b, apply_A, apply_M, rng = spd_system(n, seed)
     exact = np.linalg.solve(A, b)
     S = 10.0 * float(b @ exact)
     x0 = exact + 0.3 * rng.standard_normal(n)
@@ -150,19 +145,7 @@ def test_exact_start_takes_no_iteration():
     """Started from the exact solution (float64, residual at rounding level) CG returns it
     without iterating (cg module notes: EXACT_START); from a random start it iterates
     (Hestenes & Stiefel 1952: CG on the correction)."""
-    rng = np.random.default_rng(5)
-    Q = rng.standard_normal((20, 20))
-    A = Q @ Q.T + 20 * np.eye(20)
-    b = rng.standard_normal(20)
-
-    def apply_A(x, out):
-        out[:] = A @ x
-        return float(x @ out)
-
-    def apply_M(r, out):
-        out[:] = r
-        return float(r @ out)
-
+    A, b, apply_A, apply_M, _ = spd_system(20, 5)
     exact = np.linalg.solve(A, b)
     S = 10.0 * float(b @ exact)
     x, info = pcg(apply_A, apply_M, b, 1e-8, 100, energy=S, x0=exact)
