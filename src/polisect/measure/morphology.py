@@ -7,7 +7,8 @@
   them (`PhaseParticles`), combining `polisect.measure.particles`, `polisect.measure.sizestats` and
   `polisect.measure.stereology`: the one particle path of the package (the report, the
   schemes and the 3D estimate all read it).
-* `phase_particle_labels`, `particle_holes`: the particles of a phase mask and their holes.
+* `phase_particle_labels`, `particle_holes`, `particle_cores`: the particles of a phase mask,
+  their holes, and the cores of hollow particles (open ones at the border included).
 
 A section is cut into a grid of equal fields; the spread of a phase's fraction over the
 fields gives its 95 % confidence interval with Student's t for n − 1 degrees of freedom, as
@@ -377,6 +378,55 @@ def particle_holes(particle_labels: np.ndarray) -> np.ndarray:
         own = particle_labels[sl] == i + 1
         out[sl] |= ndi.binary_fill_holes(own) & ~own
     return out
+
+
+def particle_cores(labels: np.ndarray, particles: dict) -> dict:
+    """The cores of every phase's particles: each particle's own holes, plus the regions
+    of another phase at the image border that one particle surrounds everywhere else (the
+    open cores of hollow particles cut by the border).
+
+    Parameters
+    ----------
+    labels : ndarray of int, 2D
+        Phase labels.
+    particles : dict label → ndarray of int
+        Each particle phase's particles numbered 1..n (`phase_particle_labels`).
+
+    Returns
+    -------
+    dict label → ndarray of bool
+        The cores of that phase's particles.
+
+    Examples
+    --------
+    >>> labels = np.zeros((12, 12), np.int32); labels[2:9, 0:7] = 1; labels[4:7, 0:4] = 2
+    >>> cores = particle_cores(labels, {1: phase_particle_labels(labels == 1)})
+    >>> int(cores[1].sum())                      # the pore cut open by the left border
+    12
+    """
+    labels = np.asarray(labels)
+    cores = {p: particle_holes(plab) for p, plab in particles.items()}
+    boxes = {p: ndi.find_objects(plab) for p, plab in particles.items()}
+    for q in np.unique(labels).tolist():
+        comp, _ = ndi.label(labels == q, structure=np.ones((3, 3), bool))
+        edge = np.unique(np.concatenate([comp[0], comp[-1], comp[:, 0], comp[:, -1]]))
+        objects = ndi.find_objects(comp)
+        for c in edge[edge > 0]:
+            sl = tuple(slice(max(s.start - 1, 0), s.stop + 1) for s in objects[c - 1])
+            own = comp[sl] == c
+            ring = ndi.binary_dilation(own, np.ones((3, 3), bool)) & ~own
+            for host, plab in particles.items():
+                ids = np.unique(plab[sl][ring])
+                if host != q and ids.size == 1 and ids[0] > 0 and _within(
+                        objects[c - 1], boxes[host][ids[0] - 1]):
+                    cores[host][sl] |= own
+                    break
+    return cores
+
+
+def _within(inner: tuple, outer: tuple) -> bool:
+    """Whether the bounding box *inner* lies inside *outer* (slices of one array)."""
+    return all(o.start <= i.start and i.stop <= o.stop for i, o in zip(inner, outer))
 
 
 @dataclass(frozen=True, eq=False)

@@ -36,13 +36,12 @@ from dataclasses import dataclass
 from typing import Mapping, Sequence
 
 import numpy as np
-from scipy import ndimage as ndi
 
 from ..core.errors import InputError
 from .packing import SpherePacking, pack_spheres, rasterize
 from ..core.materials import Material
 from ..core.phasemap import Phase, PhaseMap
-from ..measure.morphology import particle_holes, phase_particle_labels, phase_particles
+from ..measure.morphology import particle_cores, phase_particle_labels, phase_particles
 from ..properties.records import (Conductivity, Effective, Elasticity, Expansion, Solver, Spread,
                                   scalar)
 from .summary import (Estimate3DRecord, FamilyRecord, PackingRecord, Versus2D, VolumeRecord)
@@ -232,9 +231,7 @@ def section_statistics(labels: np.ndarray, pixel_size_um: float | None = None, *
                                       for v in fractions), pixel_size_um)
     others = [v for v in fractions if v != matrix_label]
     particles = {p: phase_particle_labels(labels == p, split_touching=True) for p in others}
-    holes = {p: particle_holes(plab) for p, plab in particles.items()}
-    for q in others:
-        _add_open_cores(labels == q, particles, holes, q)
+    holes = particle_cores(labels, particles)
     warnings: list[str] = []
     families = []
     for p in others:
@@ -299,24 +296,6 @@ def _family(phasemap: PhaseMap, p: int, foreign: np.ndarray, holes: np.ndarray,
                             hollow_ratio=hollow.ratio,
                             core_label=pp.core_label if hollow.ratio is not None else None,
                             aspect_ratio=aspect, solidity=solidity)
-
-
-def _add_open_cores(mask: np.ndarray, particles: dict, holes: dict, phase: int) -> None:
-    """Count as cores the regions of *phase* at the image border that one particle of
-    another phase surrounds everywhere else (the open cores of hollow particles cut by the
-    border)."""
-    comp, _ = ndi.label(mask, structure=np.ones((3, 3), bool))
-    edge = np.unique(np.concatenate([comp[0], comp[-1], comp[:, 0], comp[:, -1]]))
-    objects = ndi.find_objects(comp)
-    for c in edge[edge > 0]:
-        sl = tuple(slice(max(s.start - 1, 0), s.stop + 1) for s in objects[c - 1])
-        own = comp[sl] == c
-        ring = ndi.binary_dilation(own, np.ones((3, 3), bool)) & ~own
-        for host, plab in particles.items():
-            ids = np.unique(plab[sl][ring])
-            if host != phase and ids.size == 1 and ids[0] > 0:
-                holes[host][sl] |= own
-                break
 
 
 def _spans(plab: np.ndarray) -> bool:

@@ -27,8 +27,8 @@ from ..core.errors import InputError
 from ..core.materials import Material
 from ..core.phasemap import Phase, PhaseMap
 from ..core.quantities import SCALAR_COLUMNS, SOLVED_COLUMNS, fraction_column
-from ..measure.morphology import (enclosed_fractions, field_fractions, particle_phases,
-                                  phase_particles)
+from ..measure.morphology import (enclosed_fractions, field_fractions, particle_cores,
+                                  particle_phases, phase_particles)
 from ..measure.summary import (summarize_correlation, summarize_particles,
                                summarize_volume_particles)
 from ..properties.records import Effective, scalar, value_of
@@ -136,7 +136,8 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
 
     say("measuring phase fractions")
     fractions = clock("fractions", _fractions, phasemap, cfg, fits)
-    particles, summaries, correlations = clock("particles", _particles, phasemap, cfg, say)
+    particles, summaries, correlations = clock("particles", _particles, phasemap, cfg, say,
+                                                    notes)
     schemes = clock("schemes", _schemes, phasemap, fractions, summaries, notes)
     solved = clock("solve", _effective, phasemap, cfg, say, warnings, notes)
     effective = solved.effective if solved else None
@@ -725,7 +726,7 @@ def _enclosed_by(phasemap: PhaseMap, host: int):
     return best
 
 
-def _particles(phasemap: PhaseMap, cfg: Config, say: Progress):
+def _particles(phasemap: PhaseMap, cfg: Config, say: Progress, notes: list):
     """Particle statistics of every particle phase (true 3D statistics for a volume), their
     summaries by phase name, and the two-point correlation of every phase (sections)."""
     from ..measure.particles3d import volume_particles
@@ -741,6 +742,8 @@ def _particles(phasemap: PhaseMap, cfg: Config, say: Progress):
         else:
             say(f"measuring particles of {p.name} in 3D")
             measured.append(volume_particles(phasemap, p.label, split_touching=split))
+    if phasemap.ndim == 2:
+        measured = _without_cores(phasemap, cfg, measured, say, notes)
     summaries = {pp.name: (summarize_particles(pp) if phasemap.ndim == 2
                            else summarize_volume_particles(pp)) for pp in measured}
     if phasemap.ndim != 2:
@@ -751,6 +754,33 @@ def _particles(phasemap: PhaseMap, cfg: Config, say: Progress):
                                                   voxel_size_um=phasemap.voxel_size_um)
                     for p in phasemap.phases}
     return tuple(measured), summaries, correlations
+
+
+def _without_cores(phasemap: PhaseMap, cfg: Config, measured: list, say: Progress,
+                   notes: list) -> list:
+    """The particles of every phase measured again without the cores of other phases'
+    particles (the pores inside hollow spheres are part of those particles, as in the
+    schemes and the 3D estimate, not pores of their own); unchanged phases kept."""
+    particles = {pp.label: pp.particle_labels for pp in measured}
+    cores = particle_cores(phasemap.labels, particles)
+    out = []
+    for pp in measured:
+        foreign = np.zeros(phasemap.shape, bool)
+        for host, mask in cores.items():
+            if host != pp.label:
+                foreign |= mask
+        foreign &= phasemap.labels == pp.label
+        if not foreign.any():
+            out.append(pp)
+            continue
+        say(f"measuring particles of {pp.name} outside the cores of hollow particles")
+        notes.append(f"particles: {pp.name} measured outside the cores of other phases' "
+                     f"particles ({foreign.mean():.3g} of the section left out: they belong "
+                     "to the hollow particles, as in the schemes and the 3D estimate)")
+        pc = cfg.phase(pp.label)
+        out.append(phase_particles(phasemap, pp.label, exclude=foreign,
+                                   split_touching=bool(pc and pc.split_touching)))
+    return out
 
 
 def _micrograph(source, cfg: Config, pixel_size_um: float | None) -> Micrograph:
