@@ -114,6 +114,7 @@ class UncertaintyConfig:
     budget: bool = True
     discretization: bool = True
     material: bool = True
+    segmentation: bool = False
 
 
 @dataclass(frozen=True)
@@ -406,6 +407,7 @@ _VALUES = {
     ("uncertainty", "budget"): ("bool",),
     ("uncertainty", "discretization"): ("bool",),
     ("uncertainty", "material"): ("bool",),
+    ("uncertainty", "segmentation"): ("bool",),
     ("windows", "target_error"): ("num", 1e-4, 0.99, "relative error at 95 %, e.g. 0.02"),
 }
 # keys that also take "auto" (chosen from the image by polisect.segment)
