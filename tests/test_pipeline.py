@@ -259,8 +259,7 @@ def _grey_two_phase():
            "segment": {"method": "multi-otsu", "classes": 2},
            "phase": [{"label": 0, "name": "matrix", "material": "mullite"},
                      {"label": 1, "name": "discs", "material": "alumina"}],
-           "solve": {"properties": ["conductivity"]},
-           "uncertainty": {"segmentation": True}}
+           "solve": {"properties": ["conductivity"]}}
     return grey, cfg
 
 
@@ -292,6 +291,6 @@ def test_budget_carries_the_segmentation_bound_of_the_conductivity():
 def test_label_image_has_no_segmentation_component(hollow_section):
     """A label image has no segmentation: its budget rows leave the segmentation component
     null even when the term is switched on (common practice, no source)."""
-    cfg = dict(CONFIG, uncertainty={"segmentation": True})
+    cfg = dict(CONFIG, uncertainty={"segmentation": "all"})
     a = analyze(hollow_section.labels, config_from_dict(cfg))
     assert a.result.uncertainty["conductivity_W_mK"].components["segmentation"] is None

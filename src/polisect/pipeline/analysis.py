@@ -274,7 +274,7 @@ def _uncertainty(phasemap: PhaseMap, cfg: Config, fractions, summaries, effectiv
         discretization = terms.discretization()
     boundary = {}
     uncertain = segmentation.uncertainty if segmentation is not None else None
-    if cfg.uncertainty.segmentation and uncertain is not None:
+    if cfg.uncertainty.segmentation != "none" and uncertain is not None:
         say("segmentation: the properties on the two extreme phase maps")
         boundary = terms.segmentation(uncertain)
     three_d = _effective_values(effective_3d.effective) if effective_3d else {}
@@ -324,7 +324,11 @@ class _EffectiveTerms:
     Discretization: the map coarsened by 4 is solved to `COARSE_TOL`. Segmentation: the
     two extreme maps of `polisect.trust.boundaries`, solved on the map itself to
     `SEGMENTATION_TOL` (on the map coarsened by 2 the ranges came out 0.41–1.39 times
-    those of the map itself on the bench and demo sections: not faithful, so not used)."""
+    those of the map itself on the bench and demo sections: not faithful, so not used);
+    by default only the conductivity (``[uncertainty] segmentation = "conductivity"``:
+    two conductivity solves, about 12 % of the solve of all three properties on the
+    bench section), with ``"all"`` the stiffness and expansion too (about one more solve
+    of the section)."""
 
     def __init__(self, phasemap: PhaseMap, cfg: Config, values: dict, warnings: list):
         from ..trust.discretization import MIN_COARSE_SIDE, coarsen
@@ -416,7 +420,8 @@ class _EffectiveTerms:
                 uncertain.labels, phasemap.labels) or not np.any(uncertain.alternative >= 0):
             return {}
         groups: dict = {}
-        for physics in _BOUNDARY_PHYSICS:
+        which = self.cfg.uncertainty.segmentation
+        for physics in _BOUNDARY_PHYSICS if which == "all" else (which,):
             order = _phase_order(phasemap, physics)
             props = [p for p in self.cfg.solve.properties if p in _PHYSICS_PROPERTIES[physics]]
             if order is None or not props:

@@ -25,7 +25,7 @@ from dataclasses import dataclass, field
 
 from ..core.choices import (DENOISERS, IMAGE_KINDS, MEASURED_PROPERTIES, PLANES,
                             SEGMENT_CORRECTIONS, SEGMENT_METHODS, SOLVE_METHODS,
-                            SOLVE_PROPERTIES, WINDOW_EDGES)
+                            SEGMENTATION_TERMS, SOLVE_PROPERTIES, WINDOW_EDGES)
 from ..core.errors import InputError
 from ..core.materials import PROPERTIES, UNITS, Material, get_material, load_library_file
 
@@ -114,7 +114,7 @@ class UncertaintyConfig:
     budget: bool = True
     discretization: bool = True
     material: bool = True
-    segmentation: bool = False
+    segmentation: str = "conductivity"
 
 
 @dataclass(frozen=True)
@@ -407,7 +407,6 @@ _VALUES = {
     ("uncertainty", "budget"): ("bool",),
     ("uncertainty", "discretization"): ("bool",),
     ("uncertainty", "material"): ("bool",),
-    ("uncertainty", "segmentation"): ("bool",),
     ("windows", "target_error"): ("num", 1e-4, 0.99, "relative error at 95 %, e.g. 0.02"),
 }
 # keys that also take "auto" (chosen from the image by polisect.segment)
@@ -496,6 +495,7 @@ def _check(cfg: Config) -> None:
         raise InputError(f"[solve] verify = {sol.verify!r}: give true or false")
     _choice(sol.plane, PLANES, "[solve] plane")
     _choice(cfg.windows.edges, WINDOW_EDGES, "[windows] edges")
+    _choice(cfg.uncertainty.segmentation, SEGMENTATION_TERMS, "[uncertainty] segmentation")
     temps = sol.temperatures_C
     if temps is not None:
         if not 1 <= len(temps) <= 32 or not all(
