@@ -426,7 +426,11 @@ class _EffectiveTerms:
             props = [p for p in self.cfg.solve.properties if p in _PHYSICS_PROPERTIES[physics]]
             if order is None or not props:
                 continue
-            maps = extreme_maps(uncertain.labels, uncertain.alternative, order)
+            try:
+                maps = extreme_maps(uncertain.labels, uncertain.alternative, order)
+            except InputError as exc:
+                self.warnings.append(f"segmentation term of the {physics} not assessed: {exc}")
+                continue
             entry = groups.setdefault(tuple(m.tobytes() for m in maps), (maps, [], []))
             entry[1].append(physics)
             entry[2].extend(props)
@@ -434,7 +438,8 @@ class _EffectiveTerms:
         for maps, physics, props in groups.values():
             low, high = (self.solve(m, SEGMENTATION_TOL, props) for m in maps)
             ordered = "stiffness" not in physics or _stiffness_ordered(phasemap, uncertain)
-            names = {key: SCALAR_COLUMNS[key] for key in low if key in self.values}
+            names = {key: SCALAR_COLUMNS[key] for key in low
+                     if key in high and key in self.values}
             for rigorous in {True, ordered}:
                 part = {k: n for k, n in names.items()
                         if (n == "conductivity" or ordered) == rigorous}
