@@ -111,3 +111,17 @@ def test_material_terms_of_a_sensitivity_result():
     terms = material_terms(s, {0: {"conductivity": 0.1}, 1: {"conductivity": 0.3}})
     expected = COVERAGE * math.hypot(0.8125 * 0.1, 0.3125 * 0.3)
     assert terms["conductivity"].half_width == pytest.approx(expected, rel=1e-8)
+
+
+def test_segmentation_range_is_carried_with_its_kind():
+    """A segmentation range of an effective property enters as its half-width, and the
+    notes say it is a range of the stated boundary movement, not a 95 % interval
+    (constructed case)."""
+    from polisect.trust.boundaries import boundary_ranges
+
+    r = boundary_ranges({"conductivity": 2.0}, {"conductivity": 1.9},
+                        {"conductivity": 2.3})["conductivity"]
+    b = error_budget("conductivity", 2.0, segmentation=r, material=0.1)
+    assert b.components["segmentation"] == pytest.approx(0.3)
+    assert b.largest == "segmentation"
+    assert any("not a 95 % interval" in n and "bound" in n for n in b.notes)

@@ -45,6 +45,7 @@ def test_defaults():
     ({"image": {"kind": "palette"}, "phase": [{"label": 0, "material": "air"}]}, "color"),
     ({"segment": {"method": "thresholds"}}, "thresholds"),
     ({"phase": [{"label": 0, "conductivity": 1.0}]}, "youngs_modulus"),
+    ({"uncertainty": {"segmentation": True}}, "segmentation.*conductivity, all, none"),
 ])
 def test_bad_configs_say_what_to_fix(data, words):
     with pytest.raises(InputError, match=words):

@@ -137,3 +137,23 @@ def test_with_the_window_study_evaluator():
     for name, e in s.estimates.items():
         assert e.value == pytest.approx(evaluate(labels)[name], rel=1e-12)
         assert len(e.coarse) == 2 and np.isfinite(e.error)
+
+
+def test_known_coarse_level_is_not_solved_again():
+    """A coarse level given as known is used as it is and not re-solved; the estimates
+    equal those of the study that solves it (constructed case: the square array of discs
+    of Perrins, McKenzie & McPhedran 1979 at 64², contrast 10)."""
+    m = {0: Material(conductivity=1.0), 1: Material(conductivity=10.0)}
+    labels = centred_disc(64, 0.4)
+    shapes = []
+
+    def evaluate(L):
+        shapes.append(L.shape)
+        return {"k": conductivity(L, m, tol=1e-8).tensor[0, 0]}
+
+    full = discretization_study(labels, evaluate)
+    q2 = {"k": full.estimates["k"].coarse[0]}
+    shapes.clear()
+    again = discretization_study(labels, evaluate, known={2: q2})
+    assert shapes == [(16, 16), (64, 64)]
+    assert again.estimates["k"].error == pytest.approx(full.estimates["k"].error, rel=1e-12)

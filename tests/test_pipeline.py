@@ -267,3 +267,51 @@ def test_a_temperature_without_data_is_left_out_with_a_warning():
     r = analyze(labels, cfg).result
     assert [t.temperature_C for t in r.effective_by_temperature] == [20.0]
     assert any(w.startswith("not solved at 800 °C") and "bond" in w for w in r.warnings)
+
+
+def _grey_two_phase():
+    """A rendered two-phase section (alumina discs, f = 0.3, in mullite) and its config:
+    multi-Otsu thresholds, so the segmentation reports its boundary uncertainty."""
+    from polisect.model3d.synth import render_sem, rsa_discs
+
+    truth = rsa_discs((96, 96), 0.3, 8.0, seed=4).labels.astype(np.int32)
+    grey = render_sem(truth, {0: 0.35, 1: 0.75}, blur_px=1.0, noise_sd=0.03, seed=4)
+    cfg = {"image": {"kind": "grayscale", "pixel_size_um": 1.0, "crop_bottom_px": 0},
+           "segment": {"method": "multi-otsu", "classes": 2},
+           "phase": [{"label": 0, "name": "matrix", "material": "mullite"},
+                     {"label": 1, "name": "discs", "material": "alumina"}],
+           "solve": {"properties": ["conductivity"]}}
+    return grey, cfg
+
+
+def test_budget_carries_the_segmentation_bound_of_the_conductivity():
+    """With the segmentation's boundary uncertainty, the conductivity's budget row has a
+    segmentation component: the half-width of the two extreme maps, which bound every
+    assignment of the boundary pixels (energy minimum principle: Milton 2002, The Theory
+    of Composites, ch. 13). Checked against the extreme maps solved here to 1e-8."""
+    from polisect.pipeline.analysis import _micrograph, _phasemap
+    from polisect.properties.solve import conductivity
+    from polisect.trust.boundaries import extreme_maps
+
+    grey, cfg = _grey_two_phase()
+    cfg = config_from_dict(cfg)
+    a = analyze(grey, cfg)
+    row = a.result.uncertainty["conductivity_W_mK"]
+    seg = row.components["segmentation"]
+    assert seg is not None and seg > 0
+    assert any("not a 95 % interval" in n and "bound" in n for n in row.notes)
+    u = _phasemap(_micrograph(grey, cfg, None), cfg)[4].uncertainty
+    mats = {p.label: p.material for p in a.phasemap.phases}
+    k = [float(np.trace(conductivity(m.T, mats, tol=1e-8).tensor)) / 2
+         for m in extreme_maps(u.labels, u.alternative,
+                               {v: m.conductivity for v, m in mats.items()}) + (u.labels,)]
+    assert k[0] < k[2] < k[1]
+    assert seg == pytest.approx(max(k[1] - k[2], k[2] - k[0]), rel=0.05)
+
+
+def test_label_image_has_no_segmentation_component(hollow_section):
+    """A label image has no segmentation: its budget rows leave the segmentation component
+    null even when the term is switched on (common practice, no source)."""
+    cfg = dict(CONFIG, uncertainty={"segmentation": "all"})
+    a = analyze(hollow_section.labels, config_from_dict(cfg))
+    assert a.result.uncertainty["conductivity_W_mK"].components["segmentation"] is None

@@ -410,7 +410,7 @@ def _add_bench(sub):
     p.add_argument("--json", metavar="FILE", help="write the figures as JSON")
     p.add_argument("--quick", action="store_true", help="small sizes (a smoke run)")
     p.add_argument("--cases", metavar="LETTERS",
-                   help="run only these cases, e.g. 'ab' or 'e' (default: all, a–k)")
+                   help="run only these cases, e.g. 'ab' or 'e' (default: all, a–l)")
     p.set_defaults(run=_run_bench)
 
 

@@ -13,6 +13,8 @@ SOLVE_PROPERTIES = ("conductivity", "elasticity", "expansion")
 SOLVE_METHODS = ("auto", "fft", "fe", "ms")
 PLANES = ("generalized-plane-strain", "plane-strain", "plane-stress")
 WINDOW_EDGES = ("periodic", "mirror")
+SEGMENTATION_TERMS = ("conductivity", "all", "none")
+"""`[uncertainty] segmentation`: the effective properties given a segmentation term."""
 MEASURED_PROPERTIES = {"conductivity": "W/(m·K)", "youngs_modulus": "GPa", "shear_modulus": "GPa",
                        "expansion": "1/K", "mean_expansion": "1/K"}
 """Properties a lab measures that ``[[measured]]`` may give, with the unit of each."""

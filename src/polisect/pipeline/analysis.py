@@ -284,18 +284,25 @@ def _uncertainty(phasemap: PhaseMap, cfg: Config, fractions, summaries, effectiv
     values = _effective_values(effective)
     if not values:
         return out
-    discretization = {}
-    if cfg.uncertainty.discretization:
-        say("discretization error: the map re-solved coarsened by 2 and 4")
-        discretization = _discretization(phasemap, cfg, values, warnings)
+    terms = _EffectiveTerms(phasemap, cfg, values, warnings)
     material = {}
     if cfg.uncertainty.material:
         say("material data: sensitivity of each property to each phase property")
-        material = _material_terms(phasemap, cfg, warnings)
+        material = terms.material()
+    discretization = {}
+    if cfg.uncertainty.discretization:
+        say("discretization error: the map re-solved coarsened by 2 and 4")
+        discretization = terms.discretization()
+    boundary = {}
+    uncertain = segmentation.uncertainty if segmentation is not None else None
+    if cfg.uncertainty.segmentation != "none" and uncertain is not None:
+        say("segmentation: the properties on the two extreme phase maps")
+        boundary = terms.segmentation(uncertain)
     three_d = _effective_values(effective_3d.effective) if effective_3d else {}
     for key, value in values.items():
         out[key] = error_budget(
             key, value, unit=quantity_label(key)[1], window=window(key, value),
+            segmentation=boundary.get(SCALAR_COLUMNS[key]),
             discretization=discretization.get(key), material=material.get(
                 SCALAR_COLUMNS[key]),
             model_2d_3d=(model_2d_3d_term(value, three_d[key]) if key in three_d else None),
@@ -303,49 +310,205 @@ def _uncertainty(phasemap: PhaseMap, cfg: Config, fractions, summaries, effectiv
     return out
 
 
-def _discretization(phasemap: PhaseMap, cfg: Config, fine: dict, warnings: list) -> dict:
-    """Headline column → `DiscretizationEstimate` of every effective property."""
-    from ..properties.effective import solve_effective
-    from ..trust.discretization import discretization_study
+COARSE_TOL = 1e-4
+"""Energy tolerance of the budget's solves of coarsened maps. Richardson extrapolation uses
+differences between the levels of about 10⁻² relative (docs/methods.md); the energy
+stopping rule bounds the relative error of each effective value by about the tolerance
+(`polisect.properties.solve.cg`), so 10⁻⁴ moves an estimated error by about 1 % of itself
+(measured on the bench section of case l: 8·10⁻⁶ relative against a solve to 10⁻⁶)."""
 
-    def evaluate(labels):
-        pm = PhaseMap(np.ascontiguousarray(labels), phasemap.phases, phasemap.voxel_size_um)
+SENSITIVITY_TOL = 1e-4
+"""Residual tolerance of the sensitivity solves: the energy shares are then exact to about
+10⁻⁴ relative (measured: 10⁻³ changes them by 10⁻⁴), and their effective tensors serve as
+the coarse level of the discretization study (error about 10⁻⁶, far below its
+differences)."""
+
+SEGMENTATION_TOL = 1e-3
+"""Energy tolerance of the extreme maps' solves. The boundary movement changes the
+effective values by about 10⁻² relative (0.04–1 % on the bench section); the energy rule
+bounds each value's error by about the tolerance and errs on the same side for the nominal
+and the extreme maps (the energy of a truncated CG lies above the minimum), so 10⁻³ keeps
+the range to a few per cent of itself — enough for an uncertainty term (measured on the
+fine bench section: the nominal conductivity at 10⁻³ is 1.3·10⁻⁴ relative above the
+solve to 10⁻⁶, 1.6 % of the range)."""
+
+
+class _EffectiveTerms:
+    """The effective-property terms of the budget, sharing their solves.
+
+    Material (run first): the sensitivities (`polisect.properties.sensitivity`) are solved
+    on the map coarsened by 2 (`polisect.trust.discretization.coarsen`, which keeps the
+    fractions): on the bench section of case l and the two demo sections the material
+    terms came out 0.90–1.10 times those of the map itself (within 1 % for k; the largest
+    departures on terms ruled by a minor phase), at a quarter of the cost. Their effective
+    values are the coarse level q₂ of the discretization study, so that map is solved once.
+    Discretization: the map coarsened by 4 is solved to `COARSE_TOL`. Segmentation: the
+    two extreme maps of `polisect.trust.boundaries`, solved on the map itself to
+    `SEGMENTATION_TOL` (on the map coarsened by 2 the ranges came out 0.41–1.39 times
+    those of the map itself on the bench and demo sections: not faithful, so not used);
+    by default only the conductivity (``[uncertainty] segmentation = "conductivity"``:
+    two conductivity solves, about 12 % of the solve of all three properties on the
+    bench section), with ``"all"`` the stiffness and expansion too (about one more solve
+    of the section)."""
+
+    def __init__(self, phasemap: PhaseMap, cfg: Config, values: dict, warnings: list):
+        from ..trust.discretization import MIN_COARSE_SIDE, coarsen
+
+        self.phasemap, self.cfg, self.values, self.warnings = phasemap, cfg, values, warnings
+        self.coarse = None
+        if min(phasemap.labels.shape) / 2 >= MIN_COARSE_SIDE:
+            self.coarse = coarsen(phasemap.labels, 2)
+        self._coarse_values = None
+        self._sensitivities = None
+
+    def solve(self, labels, tol: float, properties=None) -> dict:
+        """Headline column → value of every property asked for (or of *properties*), on
+        *labels*."""
+        from ..properties.effective import solve_effective
+
+        pm = PhaseMap(np.ascontiguousarray(labels), self.phasemap.phases,
+                      self.phasemap.voxel_size_um)
         return _effective_values(solve_effective(
-            pm, cfg.solve.properties, method=cfg.solve.method, tol=cfg.solve.tolerance,
-            plane=cfg.solve.plane, maps=False).effective)
+            pm, properties or self.cfg.solve.properties, method=self.cfg.solve.method, tol=tol,
+            plane=self.cfg.solve.plane, maps=False).effective)
 
-    try:
-        return dict(discretization_study(phasemap.labels, evaluate, fine=fine).estimates)
-    except InputError as exc:
-        warnings.append(f"discretization error not assessed: {exc}")
-        return {}
+    def coarse_values(self) -> dict:
+        """The headline values of the map coarsened by 2: from the sensitivity solves when
+        they ran and hold every value (they discretize as the ``fft`` and ``fe`` methods;
+        not for ``ms``, whose values would not be comparable), else solved to
+        `COARSE_TOL`."""
+        if self._coarse_values is None:
+            same = self.cfg.solve.method != "ms"
+            quantities = {name: q for s in (self._sensitivities if same else None) or ()
+                          for name, q in s.quantities.items()}
+            got = {key: quantities[SCALAR_COLUMNS[key]].value for key in self.values
+                   if SCALAR_COLUMNS[key] in quantities}
+            self._coarse_values = (got if len(got) == len(self.values)
+                                   else self.solve(self.coarse, COARSE_TOL))
+        return self._coarse_values
+
+    def discretization(self) -> dict:
+        """Headline column → `DiscretizationEstimate` of every effective property."""
+        from ..trust.discretization import discretization_study
+
+        known = {2: self.coarse_values()} if self.coarse is not None else None
+        try:
+            return dict(discretization_study(
+                self.phasemap.labels, lambda labels: self.solve(labels, COARSE_TOL),
+                fine=self.values, known=known).estimates)
+        except InputError as exc:
+            self.warnings.append(f"discretization error not assessed: {exc}")
+            return {}
+
+    def material(self) -> dict:
+        """Sensitivity name → `MaterialTerm` from the stated uncertainties of the phases."""
+        from ..properties.effective import solver_labels
+        from ..properties.sensitivity import conductivity_sensitivity, \
+            elasticity_sensitivity
+        from ..trust.budget import material_terms
+
+        phasemap, cfg = self.phasemap, self.cfg
+        uncertainties = {p.label: dict(p.material.uncertainty) for p in phasemap.phases
+                         if p.material.uncertainty}
+        if not uncertainties:
+            return {}
+        labels = solver_labels(phasemap.labels if self.coarse is None else self.coarse)
+        mats = phasemap.materials
+        results = []
+        props = cfg.solve.properties
+        try:
+            if "conductivity" in props:
+                results.append(conductivity_sensitivity(labels, mats, tol=SENSITIVITY_TOL))
+            if "elasticity" in props or "expansion" in props:
+                plane = cfg.solve.plane if phasemap.ndim == 2 else "generalized-plane-strain"
+                results.append(elasticity_sensitivity(labels, mats, plane=plane,
+                                                      tol=SENSITIVITY_TOL,
+                                                      expansion="expansion" in props))
+        except InputError as exc:
+            self.warnings.append(f"material-data uncertainty not assessed: {exc}")
+            return {}
+        if self.coarse is not None:
+            self._sensitivities = results
+        return material_terms(results, uncertainties)
+
+    def segmentation(self, uncertain) -> dict:
+        """Sensitivity name → `BoundaryRange` over the two extreme maps of the boundary
+        pixels of *uncertain* (a `BoundaryUncertainty` of this phase map)."""
+        from ..trust.boundaries import boundary_ranges, extreme_maps
+
+        phasemap = self.phasemap
+        if uncertain.labels.shape != phasemap.labels.shape or not np.array_equal(
+                uncertain.labels, phasemap.labels) or not np.any(uncertain.alternative >= 0):
+            return {}
+        groups: dict = {}
+        which = self.cfg.uncertainty.segmentation
+        for physics in _BOUNDARY_PHYSICS if which == "all" else (which,):
+            order = _phase_order(phasemap, physics)
+            props = [p for p in self.cfg.solve.properties if p in _PHYSICS_PROPERTIES[physics]]
+            if order is None or not props:
+                continue
+            try:
+                maps = extreme_maps(uncertain.labels, uncertain.alternative, order)
+            except InputError as exc:
+                self.warnings.append(f"segmentation term of the {physics} not assessed: {exc}")
+                continue
+            entry = groups.setdefault(tuple(m.tobytes() for m in maps), (maps, [], []))
+            entry[1].append(physics)
+            entry[2].extend(props)
+        out = {}
+        for maps, physics, props in groups.values():
+            low, high = (self.solve(m, SEGMENTATION_TOL, props) for m in maps)
+            ordered = "stiffness" not in physics or _stiffness_ordered(phasemap, uncertain)
+            names = {key: SCALAR_COLUMNS[key] for key in low
+                     if key in high and key in self.values}
+            for rigorous in {True, ordered}:
+                part = {k: n for k, n in names.items()
+                        if (n == "conductivity" or ordered) == rigorous}
+                out.update(boundary_ranges(
+                    {n: self.values[k] for k, n in part.items()},
+                    {n: low[k] for k, n in part.items()},
+                    {n: high[k] for k, n in part.items()}, rigorous=rigorous))
+        return out
 
 
-def _material_terms(phasemap: PhaseMap, cfg: Config, warnings: list) -> dict:
-    """Sensitivity name → `MaterialTerm` from the stated uncertainties of the phases."""
-    from ..properties.effective import solver_labels
-    from ..properties.sensitivity import conductivity_sensitivity, elasticity_sensitivity
-    from ..trust.budget import material_terms
+_BOUNDARY_PHYSICS = {"conductivity": "conductivity", "stiffness": "youngs_modulus"}
+"""Physics → the phase property its extreme maps are ordered by."""
 
-    uncertainties = {p.label: dict(p.material.uncertainty) for p in phasemap.phases
-                     if p.material.uncertainty}
-    if not uncertainties:
-        return {}
-    labels, mats = solver_labels(phasemap.labels), phasemap.materials
-    tol = max(cfg.solve.tolerance, 1e-4)   # the shares are energies: quadratic in the error
-    results = []
-    props = cfg.solve.properties
-    try:
-        if "conductivity" in props:
-            results.append(conductivity_sensitivity(labels, mats, tol=tol))
-        if "elasticity" in props or "expansion" in props:
-            plane = cfg.solve.plane if phasemap.ndim == 2 else "generalized-plane-strain"
-            results.append(elasticity_sensitivity(labels, mats, plane=plane, tol=tol,
-                                                  expansion="expansion" in props))
-    except InputError as exc:
-        warnings.append(f"material-data uncertainty not assessed: {exc}")
-        return {}
-    return material_terms(results, uncertainties)
+_PHYSICS_PROPERTIES = {"conductivity": ("conductivity",),
+                       "stiffness": ("elasticity", "expansion")}
+"""Physics → the properties (`[solve] properties`) its extreme maps are solved for."""
+
+
+def _phase_order(phasemap: PhaseMap, physics: str) -> dict | None:
+    """Label → the phase property the extreme maps of *physics* are ordered by (the mean
+    diagonal of a tensor conductivity; Young's modulus, 0 for a pore), or None when a phase
+    lacks it."""
+    out = {}
+    for p in phasemap.phases:
+        value = getattr(p.material, _BOUNDARY_PHYSICS[physics])
+        if value is None:
+            return None
+        out[p.label] = float(np.trace(value) / len(value)) if np.ndim(value) == 2 \
+            else float(value)
+    return out
+
+
+def _stiffness_ordered(phasemap: PhaseMap, uncertain) -> bool:
+    """Whether every swapped pair of phases has ordered stiffness tensors: one is a pore,
+    or both are isotropic with equal Poisson's ratios (then E orders them)."""
+    mats = {p.label: p.material for p in phasemap.phases}
+    swing = uncertain.alternative >= 0
+    pairs = set(zip(uncertain.labels[swing].tolist(), uncertain.alternative[swing].tolist()))
+    for a, b in pairs:
+        ma, mb = mats.get(a), mats.get(b)
+        if ma is None or mb is None:
+            return False
+        if ma.is_pore or mb.is_pore:
+            continue
+        if ma.stiffness is not None or mb.stiffness is not None or \
+                ma.poisson_ratio != mb.poisson_ratio:
+            return False
+    return True
 
 
 RESOLUTION_WARN_SHARE = 0.10

@@ -828,7 +828,10 @@ def _uncertainty(analysis, r, colors) -> str:
             "root-sum-square. Sampling: the field-to-field interval (fractions) or the bootstrap "
             "interval (D50); window: the window-size study; discretization: the map re-solved "
             "coarsened by 2 and 4 (Richardson extrapolation); material: the stated "
-            "uncertainties of the phase properties propagated to first order; 2D vs 3D: the "
+            "uncertainties of the phase properties propagated to first order; segmentation: "
+            "the range under the stated movement of the class boundaries (the fractions "
+            "counted, the effective properties re-solved on the two extreme maps), a bound or "
+            "estimate of that movement rather than a 95 % figure; 2D vs 3D: the "
             "difference from the 3D estimate. Discretization and 2D-vs-3D are biases carried "
             "as their size.</p></section>")
 

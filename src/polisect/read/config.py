@@ -25,7 +25,7 @@ from dataclasses import dataclass, field
 
 from ..core.choices import (DENOISERS, IMAGE_KINDS, MEASURED_PROPERTIES, PLANES,
                             SEGMENT_CORRECTIONS, SEGMENT_METHODS, SOLVE_METHODS,
-                            SOLVE_PROPERTIES, WINDOW_EDGES)
+                            SEGMENTATION_TERMS, SOLVE_PROPERTIES, WINDOW_EDGES)
 from ..core.errors import InputError
 from ..core.materials import PROPERTIES, UNITS, Material, get_material, load_library_file
 
@@ -114,6 +114,7 @@ class UncertaintyConfig:
     budget: bool = True
     discretization: bool = True
     material: bool = True
+    segmentation: str = "conductivity"
 
 
 @dataclass(frozen=True)
@@ -527,6 +528,7 @@ def _check(cfg: Config) -> None:
         raise InputError(f"[solve] verify = {sol.verify!r}: give true or false")
     _choice(sol.plane, PLANES, "[solve] plane")
     _choice(cfg.windows.edges, WINDOW_EDGES, "[windows] edges")
+    _choice(cfg.uncertainty.segmentation, SEGMENTATION_TERMS, "[uncertainty] segmentation")
     temps = sol.temperatures_C
     if temps is not None:
         if not 1 <= len(temps) <= 32 or not all(

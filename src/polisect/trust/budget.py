@@ -6,7 +6,9 @@ not assessed:
 
 * ``sampling`` — the field-to-field confidence interval (Student t, ASTM E562 style);
 * ``window`` — the window-size (representative volume) term of the window study;
-* ``segmentation`` — the spread of the result over plausible segmentations;
+* ``segmentation`` — the spread of the result under a stated movement of the class
+  boundaries (for an effective property the range over two extreme maps,
+  `trust.boundaries`: a bound or an estimate of that movement, not a statistical interval);
 * ``discretization`` — the estimated error of the pixel solution (`trust.discretization`;
   a bias of estimated sign, carried as its magnitude);
 * ``material`` — first-order propagation of the phase properties' stated standard
@@ -34,6 +36,7 @@ from typing import Mapping
 
 from ..core.errors import InputError
 from ..properties.sensitivity import QuantitySensitivity, Sensitivities
+from .boundaries import BoundaryRange
 from .discretization import DiscretizationEstimate
 
 COMPONENTS = ("sampling", "window", "segmentation", "discretization", "material",
@@ -203,7 +206,7 @@ class Budget:
 
 def error_budget(quantity: str, value: float, *, unit: str = "",
                  sampling: float | None = None, window: float | None = None,
-                 segmentation: float | None = None,
+                 segmentation: float | BoundaryRange | None = None,
                  discretization: float | DiscretizationEstimate | None = None,
                  material: float | MaterialTerm | None = None,
                  model_2d_3d: float | None = None,
@@ -216,8 +219,12 @@ def error_budget(quantity: str, value: float, *, unit: str = "",
         Name of the quantity (e.g. the headline column it belongs to).
     value : float
     unit : str
-    sampling, window, segmentation : float, optional
+    sampling, window : float, optional
         ± half-widths at ~95 % in the quantity's unit.
+    segmentation : float or BoundaryRange, optional
+        ± half-width under the stated movement of the class boundaries; with a
+        `BoundaryRange` (an effective property solved on the extreme maps) the notes say
+        whether it is a bound or an estimate.
     discretization : float or DiscretizationEstimate, optional
         Its magnitude is carried.
     material : float or MaterialTerm, optional
@@ -246,7 +253,9 @@ def error_budget(quantity: str, value: float, *, unit: str = "",
     if not math.isfinite(value):
         raise InputError(f"the value of {quantity} is {value}; a budget needs a finite number")
     term = material if isinstance(material, MaterialTerm) else None
-    given = {"sampling": sampling, "window": window, "segmentation": segmentation,
+    seg_range = segmentation if isinstance(segmentation, BoundaryRange) else None
+    given = {"sampling": sampling, "window": window,
+             "segmentation": seg_range.half_width if seg_range is not None else segmentation,
              "discretization": discretization.half_width
              if isinstance(discretization, DiscretizationEstimate) else discretization,
              "material": term.half_width if term is not None else material,
@@ -275,6 +284,9 @@ def error_budget(quantity: str, value: float, *, unit: str = "",
     if components["discretization"] is not None or components["model_2d_3d"] is not None:
         notes.append("discretization and 2D-versus-3D are systematic: their estimated "
                      "magnitudes are carried as half-widths")
+    if seg_range is not None:
+        notes.append(f"segmentation: the range under the stated boundary movement, not a "
+                     f"95 % interval ({seg_range.note})")
     largest = max(assessed, key=assessed.get)
     if assessed[largest] == 0.0:
         return Budget(quantity, value, unit, components, combined, None,

@@ -114,7 +114,7 @@ class DiscretizationStudy:
     shapes : tuple of tuple of int
         Fine and coarse map shapes.
     seconds : float
-        Wall time of the coarsening and the coarse solves.
+        Wall time of the coarsening and the coarse solves (those not *known*).
     """
 
     estimates: Mapping[str, DiscretizationEstimate]
@@ -276,7 +276,9 @@ def richardson(name: str, fine: float, coarse: tuple[float, ...],
 
 def discretization_study(labels, evaluate: Evaluate, *,
                          fine: Mapping[str, float] | None = None,
-                         factors: tuple[int, ...] = (2, 4)) -> DiscretizationStudy:
+                         factors: tuple[int, ...] = (2, 4),
+                         known: Mapping[int, Mapping[str, float]] | None = None
+                         ) -> DiscretizationStudy:
     """Estimate the discretization error of every quantity *evaluate* returns.
 
     Parameters
@@ -291,6 +293,9 @@ def discretization_study(labels, evaluate: Evaluate, *,
     factors : (2,) or (2, 4)
         Coarsening factors; 4 is dropped when its map would have a side below
         `MIN_COARSE_SIDE`.
+    known : mapping factor → mapping name → float, optional
+        The quantities of ``coarsen(labels, factor)`` when already solved (e.g. by the
+        sensitivity solves of the error budget); those maps are not solved again.
 
     Returns
     -------
@@ -308,8 +313,9 @@ def discretization_study(labels, evaluate: Evaluate, *,
         raise InputError(f"the map {labels.shape} is too small for a coarsened solve (a "
                          f"side of at least {2 * MIN_COARSE_SIDE} pixels is needed)")
     start = time.perf_counter()
+    known = known or {}
     maps = [coarsen(labels, f) for f in usable]
-    coarse = [evaluate(m) for m in maps]
+    coarse = [known[f] if f in known else evaluate(m) for f, m in zip(usable, maps)]
     seconds = time.perf_counter() - start
     fine = dict(fine) if fine is not None else dict(evaluate(labels))
     estimates = {name: richardson(name, value, tuple(c[name] for c in coarse), usable)

@@ -5,7 +5,8 @@ append their own. Cases (a)–(f) measure the solvers (`bench.solvers`, where th
 figures are explained), (g)–(i) the 3D estimate, particle statistics and batch
 throughput (`bench.analysis`), (j) a full-size section with all three properties and
 its accuracy against a tight reference (`bench.section`), (k) the first-run compile time
-of the solver kernels in a fresh process with an empty cache (`bench.compile`).
+of the solver kernels in a fresh process with an empty cache (`bench.compile`), (l) the
+cost of the error budget beside the solve of a rendered section (`bench.budget`).
 """
 
 from __future__ import annotations
@@ -18,6 +19,7 @@ from ...core.atomic import atomic_write_text
 from ...core.errors import InputError
 from ...properties.solve.fft import workers
 from . import analysis
+from .budget import case_budget
 from .compile import case_compile
 from .section import case_section
 from .solvers import (MATERIALS, PORE_FREE, case_2d_conductivity, case_2d_elasticity,
@@ -62,11 +64,11 @@ CASES: list[Callable[[bool], list[dict]]] = [case_2d_conductivity, case_2d_elast
                                              case_3d_conductivity, case_3d_elasticity,
                                              case_2d_scaling, case_3d_estimate,
                                              case_morphology, case_batch, case_section,
-                                             case_compile]
+                                             case_compile, case_budget]
 
 
 CASE_INDEX = {"a": 0, "b": 1, "c": 1, "d": 2, "e": 3, "f": 4, "g": 5, "h": 6, "i": 7, "j": 8,
-              "k": 9}
+              "k": 9, "l": 10}
 """The entry of `CASES` that makes the rows of each case letter (b and c share one)."""
 CASE_LETTERS = "".join(CASE_INDEX)
 
