@@ -315,3 +315,22 @@ def test_label_image_has_no_segmentation_component(hollow_section):
     cfg = dict(CONFIG, uncertainty={"segmentation": "all"})
     a = analyze(hollow_section.labels, config_from_dict(cfg))
     assert a.result.uncertainty["conductivity_W_mK"].components["segmentation"] is None
+
+
+def test_segmentation_term_started_from_the_analysis_solve_equals_a_cold_one(monkeypatch):
+    """The extreme phase maps of the budget start from the fluctuations of the analysis's
+    solve; warm or cold, CG answers to the same tolerance (the energy identity J(x) − J(x*)
+    = ‖x − x*‖²_A, Strakoš & Tichý 2002), so the segmentation terms agree within the
+    budget's segmentation tolerance (1e-3 on the energies; 3 % on the half-widths)."""
+    import polisect.pipeline.analysis as analysis
+    from polisect.apps.bench.budget import config, rendered_section
+
+    image = rendered_section((192, 256))
+    cfg = config(True, segmentation="all")
+    warm = analyze(image, cfg).result.uncertainty
+    monkeypatch.setattr(analysis, "_segmentation_term", lambda cfg: False)
+    cold = analyze(image, cfg).result.uncertainty
+    for key in ("conductivity_W_mK", "youngs_modulus_GPa"):
+        w, c = warm[key].components["segmentation"], cold[key].components["segmentation"]
+        assert w is not None and c is not None
+        assert w == pytest.approx(c, rel=0.03)

@@ -166,7 +166,8 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
     uncertainty = {}
     if cfg.uncertainty.budget:
         uncertainty = clock("uncertainty", _uncertainty, phasemap, cfg, fractions, summaries,
-                            effective, effective_3d, windows, segmentation, say, warnings)
+                            effective, effective_3d, windows, segmentation, say, warnings,
+                            solved)
 
     src = Source(path=micro.path, sha256=micro.sha256, shape=tuple(phasemap.shape),
                  pixel_size_um=micro.pixel_size_um, pixel_size_from=micro.pixel_size_from,
@@ -244,14 +245,16 @@ def _effective_values(effective: Effective | None) -> dict[str, float]:
 
 
 def _uncertainty(phasemap: PhaseMap, cfg: Config, fractions, summaries, effective,
-                 effective_3d, windows, segmentation, say: Progress, warnings: list) -> dict:
+                 effective_3d, windows, segmentation, say: Progress, warnings: list,
+                 nominal=None) -> dict:
     """The error budget of every headline number: sampling (field-to-field interval of the
     fractions, bootstrap interval of the particle D50), window size (the window study, when
     it ran), discretization (the map re-solved coarsened by 2 and 4, Richardson), material
     data (first order, from each phase's share of the stored energy and the stated
     uncertainties of the phase properties) and 2D versus 3D (when the 3D estimate ran),
     combined as a root-sum-square (`polisect.trust.budget`). Segmentation is assessed where
-    the phase map reports its uncertainty."""
+    the phase map reports its uncertainty; its solves start from the fluctuations of the
+    *nominal* solve (a `Solved` kept with them) when given."""
     from ..core.quantities import quantity_label
     from ..trust.budget import error_budget, model_2d_3d_term
 
@@ -284,7 +287,7 @@ def _uncertainty(phasemap: PhaseMap, cfg: Config, fractions, summaries, effectiv
     values = _effective_values(effective)
     if not values:
         return out
-    terms = _EffectiveTerms(phasemap, cfg, values, warnings)
+    terms = _EffectiveTerms(phasemap, cfg, values, warnings, nominal)
     material = {}
     if cfg.uncertainty.material:
         say("material data: sensitivity of each property to each phase property")
@@ -344,33 +347,37 @@ class _EffectiveTerms:
     values are the coarse level q₂ of the discretization study, so that map is solved once.
     Discretization: the map coarsened by 4 is solved to `COARSE_TOL`. Segmentation: the
     two extreme maps of `polisect.trust.boundaries`, solved on the map itself to
-    `SEGMENTATION_TOL` (on the map coarsened by 2 the ranges came out 0.41–1.39 times
+    `SEGMENTATION_TOL`, started from the fluctuations of the analysis's solve when it kept
+    them (−21 % CPU on bench case l with "all"; on the map coarsened by 2 the ranges came
+    out 0.41–1.39 times
     those of the map itself on the bench and demo sections: not faithful, so not used);
     by default only the conductivity (``[uncertainty] segmentation = "conductivity"``:
     two conductivity solves, about 12 % of the solve of all three properties on the
     bench section), with ``"all"`` the stiffness and expansion too (about one more solve
     of the section)."""
 
-    def __init__(self, phasemap: PhaseMap, cfg: Config, values: dict, warnings: list):
+    def __init__(self, phasemap: PhaseMap, cfg: Config, values: dict, warnings: list,
+                 nominal=None):
         from ..trust.discretization import MIN_COARSE_SIDE, coarsen
 
         self.phasemap, self.cfg, self.values, self.warnings = phasemap, cfg, values, warnings
+        self.nominal = nominal if nominal is not None and nominal.starts else None
         self.coarse = None
         if min(phasemap.labels.shape) / 2 >= MIN_COARSE_SIDE:
             self.coarse = coarsen(phasemap.labels, 2)
         self._coarse_values = None
         self._sensitivities = None
 
-    def solve(self, labels, tol: float, properties=None) -> dict:
+    def solve(self, labels, tol: float, properties=None, start=None) -> dict:
         """Headline column → value of every property asked for (or of *properties*), on
-        *labels*."""
+        *labels*, from the fluctuations of the `Solved` *start* when given (same grid)."""
         from ..properties.effective import solve_effective
 
         pm = PhaseMap(np.ascontiguousarray(labels), self.phasemap.phases,
                       self.phasemap.voxel_size_um)
         return _effective_values(solve_effective(
             pm, properties or self.cfg.solve.properties, method=self.cfg.solve.method, tol=tol,
-            plane=self.cfg.solve.plane, maps=False).effective)
+            plane=self.cfg.solve.plane, maps=False, start=start).effective)
 
     def coarse_values(self) -> dict:
         """The headline values of the map coarsened by 2: from the sensitivity solves when
@@ -457,7 +464,7 @@ class _EffectiveTerms:
             entry[2].extend(props)
         out = {}
         for maps, physics, props in groups.values():
-            low, high = (self.solve(m, SEGMENTATION_TOL, props) for m in maps)
+            low, high = (self.solve(m, SEGMENTATION_TOL, props, self.nominal) for m in maps)
             ordered = "stiffness" not in physics or _stiffness_ordered(phasemap, uncertain)
             names = {key: SCALAR_COLUMNS[key] for key in low
                      if key in high and key in self.values}
@@ -716,10 +723,19 @@ def _effective(phasemap: PhaseMap, cfg: Config, say: Progress, warnings: list, n
         return None
     solved = solve_effective(phasemap, props, method=cfg.solve.method, tol=cfg.solve.tolerance,
                              plane=cfg.solve.plane, maps=cfg.solve.fields, progress=say,
-                             keep_fluctuations=bool(cfg.solve.temperatures_C))
+                             keep_fluctuations=(bool(cfg.solve.temperatures_C)
+                                                or _segmentation_term(cfg)))
     warnings.extend(solved.warnings)
     warnings.extend(f"effective properties refused: {why}" for why in solved.refused)
     return solved
+
+
+def _segmentation_term(cfg: Config) -> bool:
+    """Whether the budget solves the extreme phase maps of the segmentation (they start
+    from the fluctuations of the analysis's solve: boundary pixels changed, so a few
+    iterations instead of a solve from zero)."""
+    return (cfg.uncertainty.budget and cfg.uncertainty.segmentation != "none"
+            and cfg.image.kind != "labels")
 
 
 def _shock(effective: Effective | None, cfg: Config, notes: list) -> ShockIndices | None:
