@@ -349,8 +349,8 @@ class _EffectiveTerms:
     two extreme maps of `polisect.trust.boundaries`, solved on the map itself to
     `SEGMENTATION_TOL`, started from the fluctuations of the analysis's solve when it kept
     them (−21 % CPU on bench case l with "all"; on the map coarsened by 2 the ranges came
-    out 0.41–1.39 times
-    those of the map itself on the bench and demo sections: not faithful, so not used);
+    out 0.41–1.39 times those of the map itself on the bench and demo sections: not
+    faithful, so not used);
     by default only the conductivity (``[uncertainty] segmentation = "conductivity"``:
     two conductivity solves, about 12 % of the solve of all three properties on the
     bench section), with ``"all"`` the stiffness and expansion too (about one more solve
