@@ -62,12 +62,17 @@ class Kernel:
     `PARALLEL_MIN` elements or more; the slices' return values are summed.
 
     *split* lists the positions of the arguments to slice (default: every array); an
-    empty tuple keeps the kernel in the calling thread. One compiled variant per argument
-    layout and no numba ``parallel`` variant: compiling a parallel twin of every kernel
-    took most of the 45–60 s of the first run (measured)."""
+    empty tuple keeps the kernel in the calling thread. No numba ``parallel`` variant:
+    compiling a parallel twin of every kernel took most of the 45–60 s of the first run
+    (measured). *signature* (numba's notation) makes the kernel compile that one variant on
+    first use and no other: a slice of a multi-dimensional array along its last axis is not
+    contiguous, so without it a kernel on such arrays compiles twice, for whole arrays
+    (small images) and for slices (large ones); 0.3–0.4 s each (measured)."""
 
-    def __init__(self, fn=None, *, split: tuple[int, ...] | None = None):
+    def __init__(self, fn=None, *, split: tuple[int, ...] | None = None,
+                 signature: str | None = None):
         self.split = split
+        self.signature = signature
         if fn is not None:
             self._compile(fn)
 
@@ -80,6 +85,9 @@ class Kernel:
     def __call__(self, *args):
         if not hasattr(self, "kernel"):                     # used as @Kernel(split=...)
             return self._compile(args[0])
+        if self.signature is not None and not self.kernel.signatures:
+            self.kernel.compile(self.signature)
+            self.kernel.disable_compile()
         count = threads()
         if args[0].size < PARALLEL_MIN or count == 1 or self.split == ():
             return self.kernel(*args)
@@ -201,7 +209,11 @@ def _block_2d(u, labels, table, cid, start, cols, out, first, last, seam):
                 o[k] = c[k] + line[0, k] - line[1, k]
                 nx[k] = line[0, k] + line[1, k]
         cur, nxt = nxt, cur
-    seam[:] = cur
+    # copied in loops: numba's array-to-array assignment compiles the formatting of its
+    # shape-mismatch message, 3.7 s of the first run (measured)
+    for a in range(nc):
+        for k in range(n1):
+            seam[a, k] = cur[a, k]
     return energy
 
 
@@ -256,9 +268,19 @@ def _block_3d(u, labels, table, cid, start, cols, out, first, last, seam):
                     n0_[k] += s0 + d0
                     c1[k] += s1 - d1
                     n1_[k] += s1 + d1
-        out[:, i] = cur
+        for a in range(nc):                 # loops: see `_block_2d`
+            for j in range(n1):
+                o = out[a, i, j]
+                c = cur[a, j]
+                for k in range(n2):
+                    o[k] = c[k]
         cur, nxt = nxt, cur
-    seam[:] = cur
+    for a in range(nc):
+        for j in range(n1):
+            s = seam[a, j]
+            c = cur[a, j]
+            for k in range(n2):
+                s[k] = c[k]
     return energy
 
 
@@ -300,7 +322,7 @@ def apply_3d(u, labels, table, cid, start, cols, out, nchunks):
     return _apply(_block_3d, u, labels, table, cid, start, cols, out, nchunks)
 
 
-@Kernel
+@Kernel(signature="void(complex128[:, :], float32[:, :, :])")
 def fourier_multiply(rhat, kinv):
     """In place ``rhat[a] ← Σ_b kinv[a, b] rhat[b]`` per frequency (nc ≤ 3).
 
