@@ -156,10 +156,13 @@ def pcg(apply_A: Apply, apply_M: Apply, b: np.ndarray, tol: float, maxiter: int,
 def solve_system(apply_A: Apply, apply_M: Apply, b: np.ndarray, solver, load: Load,
                  earlier: list | None, criterion: str):
     """`pcg` on one load case with the energy of its uniform state, then the energy-form
-    corrections ``x_iᵀ r / N`` against the *earlier* fluctuations (appending this one)."""
+    corrections ``x_iᵀ r / N`` against the *earlier* fluctuations (appending this one).
+
+    *b* is overwritten with the final residual (it serves as CG's residual vector: one
+    full-length vector less at the peak)."""
     n = solver.cell.labels.size
     voigt = load.mean_energy(solver.cell)
-    r = np.empty_like(b)
+    r = b
     x, info = pcg(apply_A, apply_M, b, solver.tol, solver.maxiter,
                   None if voigt is None else voigt * n, criterion, residual=r)
     cross = np.zeros(0)

@@ -322,30 +322,31 @@ def apply_3d(u, labels, table, cid, start, cols, out, nchunks):
     return _apply(_block_3d, u, labels, table, cid, start, cols, out, nchunks)
 
 
-@Kernel(signature="void(complex128[:, :], float32[:, :, :])")
+@Kernel(signature="void(complex128[:, :], float32[:, :])")
 def fourier_multiply(rhat, kinv):
     """In place ``rhat[a] ← Σ_b kinv[a, b] rhat[b]`` per frequency (nc ≤ 3).
 
-    *rhat* is (nc, m) complex, *kinv* (nc, nc, m) real.
+    *rhat* is (nc, m) complex; *kinv* (nc(nc+1)/2, m) real holds the symmetric blocks
+    packed row by row (`fft.symmetric_pairs`).
     """
     nc, m = rhat.shape
     if nc == 1:
         for f in range(m):
-            rhat[0, f] *= kinv[0, 0, f]
+            rhat[0, f] *= kinv[0, f]
     elif nc == 2:
         for f in range(m):
             r0 = rhat[0, f]
             r1 = rhat[1, f]
-            rhat[0, f] = kinv[0, 0, f] * r0 + kinv[0, 1, f] * r1
-            rhat[1, f] = kinv[1, 0, f] * r0 + kinv[1, 1, f] * r1
+            rhat[0, f] = kinv[0, f] * r0 + kinv[1, f] * r1
+            rhat[1, f] = kinv[1, f] * r0 + kinv[2, f] * r1
     else:
         for f in range(m):
             r0 = rhat[0, f]
             r1 = rhat[1, f]
             r2 = rhat[2, f]
-            rhat[0, f] = kinv[0, 0, f] * r0 + kinv[0, 1, f] * r1 + kinv[0, 2, f] * r2
-            rhat[1, f] = kinv[1, 0, f] * r0 + kinv[1, 1, f] * r1 + kinv[1, 2, f] * r2
-            rhat[2, f] = kinv[2, 0, f] * r0 + kinv[2, 1, f] * r1 + kinv[2, 2, f] * r2
+            rhat[0, f] = kinv[0, f] * r0 + kinv[1, f] * r1 + kinv[2, f] * r2
+            rhat[1, f] = kinv[1, f] * r0 + kinv[3, f] * r1 + kinv[4, f] * r2
+            rhat[2, f] = kinv[2, f] * r0 + kinv[4, f] * r1 + kinv[5, f] * r2
 
 
 @Kernel
@@ -366,19 +367,6 @@ def step(x, r, p, ap, alpha):
         ri = r[i] - alpha * ap[i]
         r[i] = ri
         s += ri * ri
-    return s
-
-
-@Kernel
-def store_dot(source, out, r, mask):
-    """``out ← source·mask`` (the uint8 mask drops floating nodes) and returns ``Σ r·out``;
-    flat arrays of one length (a flat loop vectorises; a per-node mask over a component
-    loop ran 4× slower, measured)."""
-    s = 0.0
-    for i in range(out.shape[0]):
-        v = source[i] * mask[i]
-        out[i] = v
-        s += r[i] * v
     return s
 
 
