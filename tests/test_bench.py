@@ -115,8 +115,8 @@ def test_progress_lines_name_each_case_as_it_runs(monkeypatch):
     lines = []
     bench.run_bench(quick=True, cases="a", say=lines.append)
     assert calls == [True] and len(lines) == 2
-    assert lines[0] == "[1/1] (a) A stand-in case …"
-    assert lines[1].startswith("[1/1] (a) A stand-in case: done in ") and "CPU" in lines[1]
+    assert lines[0] == "[1/1] running (a) A stand-in case"
+    assert lines[1].startswith("[1/1] done in ") and "s CPU" in lines[1]
 
 
 def test_scaling_case_compiles_before_the_first_timed_size(monkeypatch):

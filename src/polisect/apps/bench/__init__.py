@@ -118,11 +118,11 @@ def run_bench(quick: bool = False, json_path: str | None = None,
     for number, case in enumerate(chosen, start=1):
         title = case_title(case)
         if say:
-            say(f"[{number}/{len(chosen)}] {title} …")
+            say(f"[{number}/{len(chosen)}] running {title}")
         wall, cpu = time.perf_counter(), time.process_time()
         rows.extend(case(quick))
         if say:
-            say(f"[{number}/{len(chosen)}] {title}: done in {time.perf_counter() - wall:.1f} s "
+            say(f"[{number}/{len(chosen)}] done in {time.perf_counter() - wall:.1f} s "
                 f"({time.process_time() - cpu:.1f} s CPU)")
     if json_path is not None:
         doc = {"schema": "polisect.bench/1", "quick": quick, "cpus": os.cpu_count(),
