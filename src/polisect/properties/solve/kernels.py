@@ -11,9 +11,13 @@ plane once (an earlier two-colour scheme updated each output line 2–4 times in
 Compile time. Every kernel is compiled once, as serial code that releases the GIL; large
 arrays are cut into blocks that run in a pool of Python threads. Compiling numba
 ``parallel=True`` kernels plus a serial twin of each for small images took 45–60 s on
-first use (the parfor passes over the whole loop nest); the serial kernels take ~15 s
-of CPU for 2D and 3D together (case (k) of `polisect bench`). Helpers are plain compiled functions, not forced inline
-(forcing inline cost 4 s more compile for the 3D kernel and no run time, measured).
+first use (the parfor passes over the whole loop nest); the serial kernels took ~9 s of
+CPU for 2D and 3D together, 3.7 s of it for the formatting of the shape-mismatch message
+that numba compiles with every array-to-array assignment (now written as loops) and 0.3 s
+for a second layout of `fourier_multiply`; now 3.5 s (case (k) of `polisect bench`,
+numba's compile events summed per kernel). Helpers are plain compiled functions, not
+forced inline (forcing inline cost 4 s more compile for the 3D kernel and no run time,
+measured).
 
 Plain numpy needs 2–4× the time of the FFTs of one iteration for the operator alone
 (measured on 1024² and 128³ grids); these kernels need 0.2–0.6× of it.
