@@ -98,3 +98,49 @@ def test_compile_case_runs_in_a_fresh_process():
 
     (row,) = case_compile(quick=True)
     assert row["compile_s"] > 0 and "target ≤ 10 s" in row["figure"]
+
+
+def test_progress_lines_name_each_case_as_it_runs(monkeypatch):
+    """run_bench(say=...) reports each case when it starts and when it ends, with its
+    letter and words from the case's docstring, before the table (issue 18: a quick run
+    showed nothing for 98 s; common practice, no source)."""
+    calls = []
+
+    def fake_case(quick):
+        """(a) A stand-in case. More words that are not shown."""
+        calls.append(quick)
+        return []
+
+    monkeypatch.setattr(bench, "CASES", [fake_case] + bench.CASES[1:])
+    lines = []
+    bench.run_bench(quick=True, cases="a", say=lines.append)
+    assert calls == [True] and len(lines) == 2
+    assert lines[0] == "[1/1] running (a) A stand-in case"
+    assert lines[1].startswith("[1/1] done in ") and "s CPU" in lines[1]
+
+
+def test_scaling_case_compiles_before_the_first_timed_size(monkeypatch):
+    """Case (f) solves a smaller image before it times the first size, so compile time does
+    not bend the fitted exponent (issue 18 saw N^−0.30; common practice, no source)."""
+    from polisect.apps.bench import solvers
+
+    events = []
+
+    class Fake:
+        iterations, seconds, converged = 1, 1.0, True
+
+    def fake_conductivity(labels, materials, **kw):
+        events.append(("solve", labels.shape[0]))
+        return Fake()
+
+    def fake_measure(case, problem, shape, method, run):
+        events.append(("timed", shape[0]))
+        run()
+        return {"seconds": float(shape[0])}
+
+    monkeypatch.setattr(solvers, "conductivity", fake_conductivity)
+    monkeypatch.setattr(solvers, "measure", fake_measure)
+    rows = solvers.case_2d_scaling(quick=True)
+    assert events[0][0] == "solve" and events[1][0] == "timed"
+    assert events[0][1] < events[1][1]
+    assert rows[-1]["exponent"] == pytest.approx(0.5)

@@ -396,7 +396,8 @@ columns of the table:
              iteration cap: the ms rows run a fixed budget of iterations on purpose (the
              basic scheme converges slowly at high contrast), so 'no' there is expected
   N^x        on the last scaling row (case f): seconds grow as (pixel count)^x over the
-             sizes; first-call compile time inflates the smallest size and lowers x
+             sizes (the kernels are compiled before the first size is timed)
+A progress line goes to stderr as each case starts and ends.
 --quick runs small sizes (a smoke run; expect a minute or two on two cores)."""
 """The bench table's columns in words (``polisect bench --help``)."""
 
@@ -417,7 +418,8 @@ def _add_bench(sub):
 def _run_bench(args) -> int:
     from .bench import format_table, run_bench
 
-    rows = run_bench(quick=args.quick, json_path=args.json, cases=args.cases)
+    rows = run_bench(quick=args.quick, json_path=args.json, cases=args.cases,
+                     say=lambda line: print(line, file=sys.stderr, flush=True))
     print(format_table(rows))
     return EXIT_OK
 

@@ -13,6 +13,7 @@ from ..core.atomic import atomic_write_text
 from ..core.errors import InputError
 from ..core.materials import Material, get_material
 from ..present.record import estimate_to_dict
+from ..present.schemes_table import schemes_table
 from ..properties.schemes import evaluate
 
 _KEYS = {"k": "conductivity", "conductivity": "conductivity",
@@ -163,7 +164,7 @@ def run_estimate(phase_specs: list[str], matrix: str | None, two_d: bool,
     text = json.dumps(estimate_to_dict(result), indent=2)
     if json_out == "-":
         return text
-    table = result.format_table()
+    table = schemes_table(result)
     if json_out:
         atomic_write_text(json_out, text + "\n")
         table += f"\n\nJSON written to {json_out}"

@@ -13,6 +13,8 @@ from __future__ import annotations
 
 import json
 import os
+import textwrap
+import time
 from typing import Callable
 
 from ...core.atomic import atomic_write_text
@@ -85,8 +87,16 @@ def select_cases(letters: str | None) -> list[Callable[[bool], list[dict]]]:
     return [CASES[i] for i in sorted({CASE_INDEX[c] for c in letters})]
 
 
+def case_title(case: Callable[[bool], list[dict]], width: int = 100) -> str:
+    """``(a) 2D conductivity …``: the first sentence of the case function's docstring,
+    shortened to *width* characters."""
+    paragraph = " ".join((case.__doc__ or case.__name__).strip().split("\n\n")[0].split())
+    return textwrap.shorten(paragraph.split(". ")[0].rstrip("."), width, placeholder=" …")
+
+
 def run_bench(quick: bool = False, json_path: str | None = None,
-              cases: str | None = None) -> list[dict]:
+              cases: str | None = None,
+              say: Callable[[str], None] | None = None) -> list[dict]:
     """Run the cases of `CASES`; write the rows as JSON to *json_path* when given.
 
     Parameters
@@ -96,6 +106,9 @@ def run_bench(quick: bool = False, json_path: str | None = None,
     json_path : str, optional
     cases : str, optional
         Letters of the cases to run (`select_cases`); all when omitted.
+    say : callable, optional
+        Receives a progress line as each case starts and ends (with its wall and CPU
+        seconds), so that a long run shows where it is.
 
     Returns
     -------
@@ -103,8 +116,16 @@ def run_bench(quick: bool = False, json_path: str | None = None,
         One row per case and method (see the module notes).
     """
     rows = []
-    for case in select_cases(cases):
+    chosen = select_cases(cases)
+    for number, case in enumerate(chosen, start=1):
+        title = case_title(case)
+        if say:
+            say(f"[{number}/{len(chosen)}] running {title}")
+        wall, cpu = time.perf_counter(), time.process_time()
         rows.extend(case(quick))
+        if say:
+            say(f"[{number}/{len(chosen)}] done in {time.perf_counter() - wall:.1f} s "
+                f"({time.process_time() - cpu:.1f} s CPU)")
     if json_path is not None:
         doc = {"schema": "polisect.bench/1", "quick": quick, "cpus": os.cpu_count(),
                "fft_workers": workers(), "rows": rows}

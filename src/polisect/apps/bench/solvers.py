@@ -178,8 +178,10 @@ def smoothed_noise_image(n: int, seed: int = 2) -> np.ndarray:
 def case_2d_scaling(quick: bool) -> list[dict]:
     """(f) growth of the fft cost of a 2D conductivity with the image size (same
     structure statistics); the last row carries the exponent p of seconds ∝ N^p fitted
-    over the sizes."""
+    over the sizes. A small solve first compiles the kernels, so that compile time does
+    not inflate the smallest size (it made a quick run print N^−0.30, issue 18)."""
     sizes = (64, 128, 256) if quick else (256, 512, 1024, 2048)
+    conductivity(smoothed_noise_image(32), MATERIALS, method="fft")   # compile before timing
     rows = []
     for n in sizes:
         labels = smoothed_noise_image(n)

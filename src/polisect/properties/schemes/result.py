@@ -24,10 +24,6 @@ from .estimates import (composite_assemblage, differential, generalized_self_con
                         mori_tanaka, self_consistent)
 from .expansion import expansion_estimate, kerner, transverse_estimate, turner
 
-HEADINGS = {"conductivity": "k W/(m·K)", "bulk_modulus": "K GPa", "shear_modulus": "G GPa",
-            "youngs_modulus": "E GPa", "poisson_ratio": "nu", "expansion": "alpha 1e-6/K"}
-
-
 @dataclass(frozen=True)
 class Estimate:
     """Effective isotropic properties from one scheme; None where not available.
@@ -176,34 +172,6 @@ class SchemesResult:
         """Place a computed *value* of *prop* against the bounds (see `place`)."""
         b = self.bound(prop)
         return place(value, b.lower, b.upper, tol)
-
-    def format_table(self) -> str:
-        """Plain-text table of bounds and estimates for the terminal."""
-        props = [f.name for f in fields(Estimate)]
-        rows = [["scheme"] + [HEADINGS[p] for p in props]]
-        for p_name, side in (("lower bound", "lower"), ("upper bound", "upper")):
-            rows.append([p_name] + [_cell(p, getattr(self.bound(p), side)) for p in props])
-        for name, est in self.schemes:
-            rows.append([name] + [_cell(p, getattr(est, p)) for p in props])
-        widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
-        lines = ["  ".join(c.ljust(w) if i == 0 else c.rjust(w) for i, (c, w) in
-                           enumerate(zip(r, widths))).rstrip() for r in rows]
-        lines.insert(1, "-" * len(lines[0]))
-        lines.insert(4, "-" * len(lines[0]))
-        shape = ("3D, spherical particles" if self.dim == 3 else
-                 "2D, circular cylinders in their transverse plane (prismatic structure)")
-        mix = ", ".join(f"{n} {f:.4g}" for n, f in self.phases)
-        head = [f"Bounds and mean-field estimates — {shape}", f"phases: {mix}; matrix: {self.matrix}"]
-        if self.hollow:
-            head.append("hollow: " + ", ".join(f"{n} (inner/outer diameter {r:.3g})"
-                                               for n, r in self.hollow))
-        return "\n".join(head + [""] + lines + [""] + [f"- {n}" for n in self.notes])
-
-
-def _cell(prop: str, value) -> str:
-    if value is None:
-        return "-"
-    return f"{value * 1e6:.4g}" if prop == "expansion" else f"{value:.4g}"
 
 
 def _isotropic(mat: Material, notes: list) -> tuple:

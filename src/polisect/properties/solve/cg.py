@@ -148,11 +148,14 @@ def pcg(apply_A: Apply, apply_M: Apply, b: np.ndarray, tol: float, maxiter: int,
         start = 1.0
     else:
         x = np.array(x0, dtype=b.dtype)
-        apply_A(x, r)
-        np.subtract(b, r, out=r)
+        ax = np.empty_like(b)
+        apply_A(x, ax)
+        bx = kernels.dot(b, x)
+        np.subtract(b, ax, out=r)              # *residual* may be *b* itself
+        del ax
         start = np.sqrt(kernels.dot(r, r)) / norm_b if norm_b > 0.0 else 0.0
         if energy is not None:
-            energy = energy - kernels.dot(b, x) - kernels.dot(x, r)          # J(x₀)
+            energy = energy - bx - kernels.dot(x, r)                         # J(x₀)
     if norm_b == 0.0 or start <= (EXACT_START if x0 is not None else 0.0):
         return x, CGInfo(0, np.array([start]), True, 0.0 if energy is not None else None)
     use_energy = criterion == "energy" and energy is not None and energy > 0.0
@@ -196,13 +199,16 @@ def solve_system(apply_A: Apply, apply_M: Apply, b: np.ndarray, solver, load: Lo
     given), then the energy-form corrections ``x_iᵀ r / N`` against the *earlier*
     fluctuations (appending this one) and its own ``xᵀr / N`` (see the module notes).
 
+    *b* is overwritten with the final residual (it serves as CG's residual vector: one
+    full-length vector less at the peak).
+
     Returns
     -------
     x, info, cross, own
     """
     n = solver.cell.labels.size
     voigt = load.mean_energy(solver.cell)
-    r = np.empty_like(b)
+    r = b
     x, info = pcg(apply_A, apply_M, b, solver.tol, solver.maxiter,
                   None if voigt is None else voigt * n, criterion, residual=r, x0=x0)
     cross = np.zeros(0)

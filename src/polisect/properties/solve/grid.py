@@ -179,6 +179,16 @@ def apply_Q_transpose(g: np.ndarray, P: int, dim: int) -> np.ndarray:
     return out
 
 
+def _gradient_components(u: np.ndarray, E: np.ndarray):
+    """``(a, i, g_ai)`` of the element-mean gradient ``E + ∇u``, one component at a time."""
+    nc, grid = u.shape[0], u.shape[1:]
+    dim = len(grid)
+    scale = 0.5 ** (dim - 1)
+    for a in range(nc):
+        for i in range(dim):
+            yield a, i, scale * apply_Q(u[a], axis_bit(dim, i), dim) + E[a][i]
+
+
 def centre_gradient(u: np.ndarray, E: np.ndarray) -> np.ndarray:
     """Element-mean gradient ``E + ∇u`` of every pixel.
 
@@ -193,14 +203,21 @@ def centre_gradient(u: np.ndarray, E: np.ndarray) -> np.ndarray:
     -------
     g : (nc, d, *grid) ndarray
     """
-    nc, grid = u.shape[0], u.shape[1:]
-    dim = len(grid)
-    scale = 0.5 ** (dim - 1)
-    g = np.empty((nc, dim) + grid)
-    for a in range(nc):
-        for i in range(dim):
-            g[a, i] = scale * apply_Q(u[a], axis_bit(dim, i), dim) + E[a][i]
+    g = np.empty((u.shape[0], u.ndim - 1) + u.shape[1:])
+    for a, i, component in _gradient_components(u, E):
+        g[a, i] = component
     return g
+
+
+def centre_gradient_means(labels: np.ndarray, u: np.ndarray, E: np.ndarray,
+                          n_phases: int) -> np.ndarray:
+    """`phase_means` of `centre_gradient` computed one component at a time, without the
+    whole gradient field (nc·d values a pixel: 72 bytes a voxel in 3D elasticity)."""
+    flat = labels.ravel()
+    G = np.empty((n_phases,) + np.shape(E))
+    for a, i, component in _gradient_components(u, E):
+        G[:, a, i] = _phase_sums(flat, component, n_phases)
+    return G
 
 
 def load_vector(labels: np.ndarray, sigma0: np.ndarray) -> np.ndarray:
@@ -247,10 +264,14 @@ def phase_means(labels: np.ndarray, g: np.ndarray, n_phases: int) -> np.ndarray:
         ``Σ_p G_p`` is the mean gradient.
     """
     flat = labels.ravel()
-    n = flat.size
     nc, dim = g.shape[:2]
     G = np.empty((n_phases, nc, dim))
     for a in range(nc):
         for i in range(dim):
-            G[:, a, i] = np.bincount(flat, weights=g[a, i].ravel(), minlength=n_phases) / n
+            G[:, a, i] = _phase_sums(flat, g[a, i], n_phases)
     return G
+
+
+def _phase_sums(flat: np.ndarray, field: np.ndarray, n_phases: int) -> np.ndarray:
+    """``Σ_{e ∈ p} field_e / N`` per phase p of the flat labels *flat*."""
+    return np.bincount(flat, weights=field.ravel(), minlength=n_phases) / flat.size

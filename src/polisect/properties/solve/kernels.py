@@ -11,9 +11,13 @@ plane once (an earlier two-colour scheme updated each output line 2–4 times in
 Compile time. Every kernel is compiled once, as serial code that releases the GIL; large
 arrays are cut into blocks that run in a pool of Python threads. Compiling numba
 ``parallel=True`` kernels plus a serial twin of each for small images took 45–60 s on
-first use (the parfor passes over the whole loop nest); the serial kernels take ~15 s
-of CPU for 2D and 3D together (case (k) of `polisect bench`). Helpers are plain compiled functions, not forced inline
-(forcing inline cost 4 s more compile for the 3D kernel and no run time, measured).
+first use (the parfor passes over the whole loop nest); the serial kernels took ~9 s of
+CPU for 2D and 3D together, 3.7 s of it for the formatting of the shape-mismatch message
+that numba compiles with every array-to-array assignment (now written as loops) and 0.3 s
+for a second layout of `fourier_multiply`; now 3.5 s (case (k) of `polisect bench`,
+numba's compile events summed per kernel). Helpers are plain compiled functions, not
+forced inline (forcing inline cost 4 s more compile for the 3D kernel and no run time,
+measured).
 
 Plain numpy needs 2–4× the time of the FFTs of one iteration for the operator alone
 (measured on 1024² and 128³ grids); these kernels need 0.2–0.6× of it.
@@ -62,12 +66,17 @@ class Kernel:
     `PARALLEL_MIN` elements or more; the slices' return values are summed.
 
     *split* lists the positions of the arguments to slice (default: every array); an
-    empty tuple keeps the kernel in the calling thread. One compiled variant per argument
-    layout and no numba ``parallel`` variant: compiling a parallel twin of every kernel
-    took most of the 45–60 s of the first run (measured)."""
+    empty tuple keeps the kernel in the calling thread. No numba ``parallel`` variant:
+    compiling a parallel twin of every kernel took most of the 45–60 s of the first run
+    (measured). *signature* (numba's notation) makes the kernel compile that one variant on
+    first use and no other: a slice of a multi-dimensional array along its last axis is not
+    contiguous, so without it a kernel on such arrays compiles twice, for whole arrays
+    (small images) and for slices (large ones); 0.3–0.4 s each (measured)."""
 
-    def __init__(self, fn=None, *, split: tuple[int, ...] | None = None):
+    def __init__(self, fn=None, *, split: tuple[int, ...] | None = None,
+                 signature: str | None = None):
         self.split = split
+        self.signature = signature
         if fn is not None:
             self._compile(fn)
 
@@ -80,6 +89,9 @@ class Kernel:
     def __call__(self, *args):
         if not hasattr(self, "kernel"):                     # used as @Kernel(split=...)
             return self._compile(args[0])
+        if self.signature is not None and not self.kernel.signatures:
+            self.kernel.compile(self.signature)
+            self.kernel.disable_compile()
         count = threads()
         if args[0].size < PARALLEL_MIN or count == 1 or self.split == ():
             return self.kernel(*args)
@@ -201,7 +213,11 @@ def _block_2d(u, labels, table, cid, start, cols, out, first, last, seam):
                 o[k] = c[k] + line[0, k] - line[1, k]
                 nx[k] = line[0, k] + line[1, k]
         cur, nxt = nxt, cur
-    seam[:] = cur
+    # copied in loops: numba's array-to-array assignment compiles the formatting of its
+    # shape-mismatch message, 3.7 s of the first run (measured)
+    for a in range(nc):
+        for k in range(n1):
+            seam[a, k] = cur[a, k]
     return energy
 
 
@@ -256,9 +272,19 @@ def _block_3d(u, labels, table, cid, start, cols, out, first, last, seam):
                     n0_[k] += s0 + d0
                     c1[k] += s1 - d1
                     n1_[k] += s1 + d1
-        out[:, i] = cur
+        for a in range(nc):                 # loops: see `_block_2d`
+            for j in range(n1):
+                o = out[a, i, j]
+                c = cur[a, j]
+                for k in range(n2):
+                    o[k] = c[k]
         cur, nxt = nxt, cur
-    seam[:] = cur
+    for a in range(nc):
+        for j in range(n1):
+            s = seam[a, j]
+            c = cur[a, j]
+            for k in range(n2):
+                s[k] = c[k]
     return energy
 
 
@@ -300,30 +326,31 @@ def apply_3d(u, labels, table, cid, start, cols, out, nchunks):
     return _apply(_block_3d, u, labels, table, cid, start, cols, out, nchunks)
 
 
-@Kernel
+@Kernel(signature="void(complex128[:, :], float32[:, :])")
 def fourier_multiply(rhat, kinv):
     """In place ``rhat[a] ← Σ_b kinv[a, b] rhat[b]`` per frequency (nc ≤ 3).
 
-    *rhat* is (nc, m) complex, *kinv* (nc, nc, m) real.
+    *rhat* is (nc, m) complex; *kinv* (nc(nc+1)/2, m) real holds the symmetric blocks
+    packed row by row (`fft.symmetric_pairs`).
     """
     nc, m = rhat.shape
     if nc == 1:
         for f in range(m):
-            rhat[0, f] *= kinv[0, 0, f]
+            rhat[0, f] *= kinv[0, f]
     elif nc == 2:
         for f in range(m):
             r0 = rhat[0, f]
             r1 = rhat[1, f]
-            rhat[0, f] = kinv[0, 0, f] * r0 + kinv[0, 1, f] * r1
-            rhat[1, f] = kinv[1, 0, f] * r0 + kinv[1, 1, f] * r1
+            rhat[0, f] = kinv[0, f] * r0 + kinv[1, f] * r1
+            rhat[1, f] = kinv[1, f] * r0 + kinv[2, f] * r1
     else:
         for f in range(m):
             r0 = rhat[0, f]
             r1 = rhat[1, f]
             r2 = rhat[2, f]
-            rhat[0, f] = kinv[0, 0, f] * r0 + kinv[0, 1, f] * r1 + kinv[0, 2, f] * r2
-            rhat[1, f] = kinv[1, 0, f] * r0 + kinv[1, 1, f] * r1 + kinv[1, 2, f] * r2
-            rhat[2, f] = kinv[2, 0, f] * r0 + kinv[2, 1, f] * r1 + kinv[2, 2, f] * r2
+            rhat[0, f] = kinv[0, f] * r0 + kinv[1, f] * r1 + kinv[2, f] * r2
+            rhat[1, f] = kinv[1, f] * r0 + kinv[3, f] * r1 + kinv[4, f] * r2
+            rhat[2, f] = kinv[2, f] * r0 + kinv[4, f] * r1 + kinv[5, f] * r2
 
 
 @Kernel
@@ -344,19 +371,6 @@ def step(x, r, p, ap, alpha):
         ri = r[i] - alpha * ap[i]
         r[i] = ri
         s += ri * ri
-    return s
-
-
-@Kernel
-def store_dot(source, out, r, mask):
-    """``out ← source·mask`` (the uint8 mask drops floating nodes) and returns ``Σ r·out``;
-    flat arrays of one length (a flat loop vectorises; a per-node mask over a component
-    loop ran 4× slower, measured)."""
-    s = 0.0
-    for i in range(out.shape[0]):
-        v = source[i] * mask[i]
-        out[i] = v
-        s += r[i] * v
     return s
 
 
