@@ -279,7 +279,8 @@ class Handler(BaseHTTPRequestHandler):
             if fresh:
                 self.app.uploads.discard(upload.id)
             raise
-        return {"id": upload.id, "name": upload.name, "bytes": upload.size, **facts}
+        return {"id": upload.id, "name": upload.name, "stem": upload.stem, "bytes": upload.size,
+                **facts}
 
     def _inspect(self, upload_id):
         body = self._json_body()
