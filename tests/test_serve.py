@@ -313,7 +313,7 @@ def test_malformed_requests_do_not_hurt_the_server(served):
     """Bad JSON, NaN, a list, an oversized body, unknown paths and methods: clear errors."""
     client, _ = served
     cases = [("POST", "/api/runs", b"{not json", 400), ("POST", "/api/runs", b'{"a": NaN}', 400),
-             ("POST", "/api/runs", b"[1, 2]", 400), ("POST", "/api/runs", b" " * (2 << 20), 413),
+             ("POST", "/api/runs", b"[1, 2]", 400), ("POST", "/api/config", b" " * (2 << 20), 413),
              ("GET", "/api/nothing", b"", 404), ("PUT", "/api/runs", b"", 405),
              ("POST", "/api/info", b"{}", 405)]
     for method, path, body, expect in cases:
@@ -1008,3 +1008,24 @@ def test_preview_smallest_feature_defaults_to_the_runs(served, tmp_path):
         got[key] = raw
     assert default_min_feature_px(1) == 13
     assert got["default"] == got["auto"] == got["13"] != got["0"]
+
+
+def test_quick_upload_answers_with_the_preview_first(served, image, tmp_path):
+    """Issue 18: the page uploads with ?quick=1 and gets the preview at once (no band
+    detection, histogram or suggestion yet); /inspect then gives the full facts. A damaged
+    file is refused by the quick answer already."""
+    client, _ = served
+    with open(image, "rb") as f:
+        data = f.read()
+    status, quick = client.json("POST", "/api/uploads?quick=1", data,
+                                headers={"X-Filename": "kfs.tif"})
+    assert status == 200 and quick["quick"] is True
+    assert quick["preview_shape"] == [192, 192] and "histogram" not in quick
+    assert quick["stem"] == "kfs"
+    status, _, raw = client.request("GET", f"/api/uploads/{quick['id']}/preview")
+    assert status == 200 and len(raw) == 4 * 192 * 192
+    status, facts = client.json("POST", f"/api/uploads/{quick['id']}/inspect", {"crop": "auto"})
+    assert status == 200 and facts["suggested_classes"] == 3
+    status, answer = client.json("POST", "/api/uploads?quick=1", data[:4000],
+                                 headers={"X-Filename": "cut.tif"})
+    assert status == 400 and "cut.tif" in answer["error"]

@@ -466,7 +466,7 @@ def test_strokes_live_preview_saved_model_and_batch(page, site):
     expect(page.locator("#palette button")).to_have_text(["pore", "SiC", "matrix"])
     expect(page.locator("#save-model")).to_be_disabled()
     page.locator("#brush").fill("3")
-    expect(page.locator("#brush-size")).to_have_text("3 px of the image")
+    expect(page.locator("#brush-size")).to_have_text("3 px wide")
     before = os.path.join(str(tmp), "strokes_before_1280.png")
     page.screenshot(path=before, full_page=True)
     _keep(before)

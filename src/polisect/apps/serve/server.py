@@ -12,6 +12,7 @@ Endpoints (all JSON unless said)::
     GET  /static/app.js | style.css      the page's script and style
     GET  /api/info                       version, limits, material library, options
     POST /api/uploads                    body = the file; header X-Filename → image facts
+                                         (?quick=1: only its size and preview, at once)
     POST /api/uploads/<id>/inspect       {"crop": "auto" | rows} → image facts again
     GET  /api/uploads/<id>/preview       the subsampled grey image, float32 little-endian
     POST /api/uploads/<id>/thresholds    {"crop", "classes", "denoise", "denoise_px"}
@@ -270,11 +271,14 @@ class Handler(BaseHTTPRequestHandler):
                                  + store.limit_message(length))
         upload = store.save(self.rfile, length, name)
         self._unread = False
-        self._json(self._inspect_upload(upload, "auto", fresh=True))
+        quick = urllib.parse.parse_qs(urllib.parse.urlsplit(self.path).query).get("quick")
+        self._json(self._inspect_upload(upload, "auto", fresh=True, quick=bool(quick)))
 
-    def _inspect_upload(self, upload, crop, *, fresh: bool = False) -> dict:
+    def _inspect_upload(self, upload, crop, *, fresh: bool = False, quick: bool = False) -> dict:
         try:
-            facts = self._task(upload, work.inspect_upload, crop, what=f"reading {upload.name}")
+            facts = (self._task(upload, work.quick_look, what=f"reading {upload.name}") if quick
+                     else self._task(upload, work.inspect_upload, crop,
+                                     what=f"reading {upload.name}"))
         except (InputError, TaskFailed):
             if fresh:
                 self.app.uploads.discard(upload.id)

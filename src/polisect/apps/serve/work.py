@@ -110,13 +110,7 @@ def inspect_upload(path: str, crop) -> dict:
     else:
         note = (f"every pixel has the value {lo:g}: a uniform image has no phases to tell "
                 "apart; choose another image")
-    step = max(1, math.ceil(max(grey.shape) / PREVIEW_SIDE))
-    preview = np.ascontiguousarray(grey[::step, ::step], dtype="<f4")
-    folder = os.path.dirname(path)
-    atomic_write(os.path.join(folder, PREVIEW), lambda tmp: preview.tofile(tmp))
-    atomic_write_text(os.path.join(folder, PREVIEW_META),
-                      json.dumps({"shape": list(preview.shape), "step": step,
-                                  "image_shape": list(grey.shape), "crop": crop}))
+    preview, step = _write_preview(path, grey, crop)
     return {"shape": list(micro.shape), "dtype": micro.dtype, "bit_depth": micro.bit_depth,
             "is_rgb": micro.is_rgb, "n_pages": micro.n_pages,
             "pixel_size_um": micro.pixel_size_um, "pixel_size_from": micro.pixel_size_from,
@@ -127,6 +121,38 @@ def inspect_upload(path: str, crop) -> dict:
             "label_values": labels, "crop": crop,
             "preview_shape": list(preview.shape), "preview_step": step,
             "preview_thresholds": _preview_thresholds(preview, suggested)}
+
+
+def _write_preview(path: str, grey: np.ndarray, crop) -> tuple[np.ndarray, int]:
+    """Write ``preview.f32`` and ``preview.json`` beside the upload; the preview and its step."""
+    step = max(1, math.ceil(max(grey.shape) / PREVIEW_SIDE))
+    preview = np.ascontiguousarray(grey[::step, ::step], dtype="<f4")
+    folder = os.path.dirname(path)
+    atomic_write(os.path.join(folder, PREVIEW), lambda tmp: preview.tofile(tmp))
+    atomic_write_text(os.path.join(folder, PREVIEW_META),
+                      json.dumps({"shape": list(preview.shape), "step": step,
+                                  "image_shape": list(grey.shape), "crop": crop}))
+    return preview, step
+
+
+def quick_look(path: str) -> dict:
+    """The first answer to an upload: the image read (so a damaged file is refused at
+    once) and its preview written, every row kept — without the band detection, the
+    histogram and the class suggestion of `inspect_upload`, which the page asks for next.
+    A large image is thus on screen about as soon as it has arrived.
+
+    Returns
+    -------
+    dict
+        ``shape``, ``range`` [min, max], ``preview_shape``, ``preview_step`` and
+        ``quick`` = ``True``.
+    """
+    micro, grey = _grey(path, 0)
+    if micro.is_volume:
+        return inspect_upload(path, "auto")
+    preview, step = _write_preview(path, grey, 0)
+    return {"shape": list(micro.shape), "range": [float(preview.min()), float(preview.max())],
+            "preview_shape": list(preview.shape), "preview_step": step, "quick": True}
 
 
 def _histogram(grey: np.ndarray, bins: int, edges: tuple[float, float]) -> np.ndarray:

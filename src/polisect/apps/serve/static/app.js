@@ -21,7 +21,7 @@
   const S = {
     info: null, up: null, grey: null, pw: 0, ph: 0, kind: "grayscale", classes: 3,
     auto: true, th: [], labels: null, labelsKey: "", rows: new Map(), dragging: -1,
-    runId: null, pollTimer: null, seq: 0,
+    runId: null, pollTimer: null, seq: 0, uploadSeq: 0,
     // strokes: the painted phase of every image pixel (0 = none, v = phase label v − 1), the
     // strokes drawn (for undo), the brush, and the latest trained preview
     mode: "grey", ann: null, strokes: [], current: null, paintValue: 1, erasing: false,
@@ -150,7 +150,7 @@
   function upload(file, note) {
     const drop = $("drop"), bar = $("upload-bar");
     const xhr = new XMLHttpRequest();
-    xhr.open("POST", "/api/uploads");
+    xhr.open("POST", "/api/uploads?quick=1");
     xhr.setRequestHeader("X-Polisect", "1");
     xhr.setRequestHeader("X-Filename", encodeURIComponent(file.name));
     xhr.setRequestHeader("Content-Type", "application/octet-stream");
@@ -176,9 +176,25 @@
         show($("image-msg"), ((data && data.error) || `${file.name}: the server answered ${xhr.status}`) + still);
         return;
       }
-      accept(data, note).catch((e) => show($("image-msg"), e.message));
+      firstLook(data, note).catch((e) => show($("image-msg"), e.message));
     };
     xhr.send(file);
+  }
+
+  /** The quick answer to an upload: draw the preview at once, then ask for the image's facts
+   * (information band, histogram, suggested classes), which take longer on a large image. */
+  async function firstLook(quick, note) {
+    const seq = ++S.uploadSeq;
+    const buf = await api(`/api/uploads/${quick.id}/preview`, { binary: true });
+    if (seq !== S.uploadSeq) return;
+    const [ph, pw] = quick.preview_shape;
+    $("image-facts").hidden = false;
+    $("f-name").textContent = quick.name;
+    $("f-size").textContent = `${quick.shape[1]} × ${quick.shape[0]} px · ${bytes(quick.bytes)}`;
+    $("f-type").textContent = "reading the image…";
+    drawThumb(new Float32Array(buf), pw, ph, quick.range);
+    const facts = await api(`/api/uploads/${quick.id}/inspect`, { json: { crop: "auto" } });
+    if (seq === S.uploadSeq) await accept(facts, note);
   }
 
   async function accept(facts, note) {
@@ -223,7 +239,7 @@
     const said = /^(pixel size unknown|auto crop:|cut an information band)/;  // said above already
     notes.replaceChildren(...[note, ...f.notes.filter((n) => !said.test(n))].filter(Boolean)
       .map((n) => el("li", { text: n })));
-    drawThumb();
+    drawThumb(S.grey, S.pw, S.ph, greyRange());
   }
 
   async function reinspect() {
@@ -248,14 +264,14 @@
   /** The histogram's axis (for integer images the bins are centred on the integers). */
   function histRange() { return [S.up.histogram.lo, S.up.histogram.hi]; }
 
-  function drawThumb() {
+  function drawThumb(grey, pw, ph, range) {
     const c = $("thumb");
-    c.width = S.pw; c.height = S.ph;
+    c.width = pw; c.height = ph;
     const ctx = c.getContext("2d");
-    const img = ctx.createImageData(S.pw, S.ph);
-    const [lo, hi] = greyRange();
-    for (let i = 0; i < S.grey.length; i++) {
-      const g = 255 * (S.grey[i] - lo) / (hi - lo);
+    const img = ctx.createImageData(pw, ph);
+    const lo = range[0], hi = range[1] > range[0] ? range[1] : range[0] + 1;
+    for (let i = 0; i < grey.length; i++) {
+      const g = 255 * (grey[i] - lo) / (hi - lo);
       img.data[4 * i] = img.data[4 * i + 1] = img.data[4 * i + 2] = g;
       img.data[4 * i + 3] = 255;
     }
@@ -662,7 +678,8 @@
   function brushRadius() { return Math.max(0.5, Number($("brush").value) * S.up.preview_step / 2); }
   function brushLabel() {
     if (!S.up) { $("brush-size").textContent = ""; return; }
-    $("brush-size").textContent = `${Math.round(2 * brushRadius())} px of the image`;
+    const px = Math.round(2 * brushRadius());
+    $("brush-size").textContent = S.up.preview_step > 1 ? `${px} image pixels wide` : `${px} px wide`;
   }
 
   /** Where a pointer event falls, in pixels of the image (column, row). */
@@ -700,20 +717,26 @@
     if (c.width !== S.pw || c.height !== S.ph) { c.width = S.pw; c.height = S.ph; }
   }
 
-  /** The strokes as the user sees them: the painted pixels of the annotation, on the preview. */
+  /** The strokes as the user sees them: the painted pixels of the annotation on the preview,
+   * in the phase's colour with a white rim (so that a stroke shows over its own phase). */
   function drawStrokes() {
     if (!S.up || S.mode !== "strokes") return;
     sizeStrokeCanvas();
     const ctx = $("strokes").getContext("2d");
     const img = ctx.createImageData(S.pw, S.ph);
-    const [, nx] = S.up.shape, step = S.up.preview_step;
+    const [, nx] = S.up.shape, step = S.up.preview_step, w = S.pw, h = S.ph;
     const cols = Array.from({ length: 9 }, (_, i) => rgb(colour(i)));
-    for (let y = 0; y < S.ph; y++) {
-      for (let x = 0; x < S.pw; x++) {
-        const v = S.ann[y * step * nx + x * step];
-        if (!v) continue;
-        const i = 4 * (y * S.pw + x), col = cols[v - 1];
-        img.data[i] = col[0]; img.data[i + 1] = col[1]; img.data[i + 2] = col[2]; img.data[i + 3] = 255;
+    const v = new Uint8Array(w * h);
+    for (let y = 0; y < h; y++) for (let x = 0; x < w; x++) v[y * w + x] = S.ann[y * step * nx + x * step];
+    for (let y = 0; y < h; y++) {
+      for (let x = 0; x < w; x++) {
+        const k = y * w + x, i = 4 * k;
+        if (v[k]) {
+          const col = cols[v[k] - 1];
+          img.data[i] = col[0]; img.data[i + 1] = col[1]; img.data[i + 2] = col[2]; img.data[i + 3] = 255;
+        } else if ((x > 0 && v[k - 1]) || (x < w - 1 && v[k + 1]) || (y > 0 && v[k - w]) || (y < h - 1 && v[k + w])) {
+          img.data[i] = img.data[i + 1] = img.data[i + 2] = 255; img.data[i + 3] = 255;
+        }
       }
     }
     ctx.putImageData(img, 0, 0);
@@ -743,7 +766,7 @@
   function paintStatus(extra) {
     const counts = paintedCounts();
     const share = 100 * (S.ann.length - counts[0]) / S.ann.length;
-    $("paint-status").textContent = [`${share.toFixed(2)} % of the pixels painted`, extra].filter(Boolean).join(" · ");
+    $("paint-status").textContent = [`Painted: ${share.toFixed(2)} % of the pixels`, extra].filter(Boolean).join(" · ");
   }
 
   function strokesChanged() {
@@ -758,6 +781,7 @@
       return;
     }
     hide($("paint-msg"));
+    hide($("run-msg"));
     trainSoon();
   }
 
@@ -787,7 +811,7 @@
       const r = await api(`/api/uploads/${S.up.id}/strokes`, { json: { strokes: encodeStrokes() } });
       if (seq !== S.strokeSeq) return;
       S.strokeLabels = Uint8Array.from(atob(r.labels), (ch) => ch.charCodeAt(0));
-      paintStatus(`mean confidence ${(100 * r.confidence_mean).toFixed(1)} %`);
+      paintStatus(`mean confidence of the classifier: ${(100 * r.confidence_mean).toFixed(1)} %`);
       $("paint-status").dataset.confidence = r.confidence_mean;
       $("paint-status").dataset.share = r.annotated_share;
       if (r.warnings.length) show($("paint-msg"), r.warnings.join(" "), "info");
