@@ -25,7 +25,7 @@
     // strokes: the painted phase of every image pixel (0 = none, v = phase label v − 1), the
     // strokes drawn (for undo), the brush, and the latest trained preview
     mode: "grey", ann: null, strokes: [], current: null, paintValue: 1, erasing: false,
-    strokeLabels: null, strokeSeq: 0,
+    strokeLabels: null, strokeSeq: 0, training: false, trainAgain: false,
   };
 
   // ---------------------------------------------------------------- helpers
@@ -580,6 +580,7 @@
     $("grey-controls").hidden = !grey || strokes;
     $("paint-controls").hidden = !strokes;
     $("strokes").hidden = !strokes;
+    $("show-strokes-box").hidden = !strokes;
     $("auto-th").hidden = strokes;
     $("suggested").hidden = strokes;
     $("classes-label").textContent = strokes ? "Phases" : "Classes";
@@ -648,6 +649,9 @@
     });
     $("save-model").addEventListener("click", saveModel);
     $("save-batch").addEventListener("click", saveBatch);
+    $("show-strokes").addEventListener("change", () => {
+      c.style.opacity = $("show-strokes").checked ? "1" : "0";  // still paintable when hidden
+    });
     c.addEventListener("pointerdown", (e) => {
       if (!S.up || e.button !== 0) return;
       e.preventDefault();
@@ -803,26 +807,37 @@
     return { shape: [ny, nx], runs };
   }
 
-  const trainSoon = debounce(async () => {
+  /** Train on the current strokes, at most one request at a time: strokes painted while the
+   * server trains are sent together once it answers (the server's work stays bounded). */
+  async function train() {
     if (!S.up || S.mode !== "strokes" || strokesProblem()) return;
-    const seq = S.strokeSeq;
+    if (S.training) { S.trainAgain = true; return; }
+    S.training = true;
+    S.trainAgain = false;
+    const seq = S.strokeSeq, upload = S.up.id;
     paintStatus("training the classifier…");
     try {
-      const r = await api(`/api/uploads/${S.up.id}/strokes`, { json: { strokes: encodeStrokes() } });
-      if (seq !== S.strokeSeq) return;
-      S.strokeLabels = Uint8Array.from(atob(r.labels), (ch) => ch.charCodeAt(0));
-      paintStatus(`mean confidence of the classifier: ${(100 * r.confidence_mean).toFixed(1)} %`);
-      $("paint-status").dataset.confidence = r.confidence_mean;
-      $("paint-status").dataset.share = r.annotated_share;
-      if (r.warnings.length) show($("paint-msg"), r.warnings.join(" "), "info");
+      const r = await api(`/api/uploads/${upload}/strokes`, { json: { strokes: encodeStrokes() } });
+      if (seq === S.strokeSeq && upload === S.up.id) {
+        S.strokeLabels = Uint8Array.from(atob(r.labels), (ch) => ch.charCodeAt(0));
+        paintStatus(`mean confidence of the classifier: ${(100 * r.confidence_mean).toFixed(1)} %`);
+        $("paint-status").dataset.confidence = r.confidence_mean;
+        $("paint-status").dataset.share = r.annotated_share;
+        if (r.warnings.length) show($("paint-msg"), r.warnings.join(" "), "info");
+      }
     } catch (e) {
-      if (seq !== S.strokeSeq) return;
-      S.strokeLabels = null;
-      paintStatus();
-      show($("paint-msg"), e.message, "error");
+      if (seq === S.strokeSeq) {
+        S.strokeLabels = null;
+        paintStatus();
+        show($("paint-msg"), e.message, "error");
+      }
+    } finally {
+      S.training = false;
     }
     drawOverlay();
-  }, 300);
+    if (S.trainAgain || seq !== S.strokeSeq) train();
+  }
+  const trainSoon = debounce(train, 300);
 
   /** Save *blob* as a file called *name* (through a temporary link). */
   function saveBlob(blob, name) {
