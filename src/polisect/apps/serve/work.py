@@ -27,6 +27,8 @@ PREVIEW = "preview.f32"
 PREVIEW_META = "preview.json"
 #: The strokes of a page run, written into its folder as ``<stem>`` + this.
 STROKES_SUFFIX = "_strokes.png"
+#: Corrected preview grids of the strokes preview: this prefix + the phase count + ``.npy``.
+CORRECTED_PREFIX = "strokes_corrected_"
 #: Most stroke runs (row, first column, length, value) one request may carry.
 MAX_STROKE_RUNS = 2_000_000
 #: Longest side of the preview the page draws (pixels); larger images are subsampled.
@@ -110,7 +112,7 @@ def inspect_upload(path: str, crop) -> dict:
     else:
         note = (f"every pixel has the value {lo:g}: a uniform image has no phases to tell "
                 "apart; choose another image")
-    preview, step = _write_preview(path, grey, crop)
+    preview, step = _write_preview(path, grey, micro.cropped_bottom_px)
     return {"shape": list(micro.shape), "dtype": micro.dtype, "bit_depth": micro.bit_depth,
             "is_rgb": micro.is_rgb, "n_pages": micro.n_pages,
             "pixel_size_um": micro.pixel_size_um, "pixel_size_from": micro.pixel_size_from,
@@ -128,6 +130,9 @@ def _write_preview(path: str, grey: np.ndarray, crop) -> tuple[np.ndarray, int]:
     step = max(1, math.ceil(max(grey.shape) / PREVIEW_SIDE))
     preview = np.ascontiguousarray(grey[::step, ::step], dtype="<f4")
     folder = os.path.dirname(path)
+    for name in os.listdir(folder):
+        if name.startswith(CORRECTED_PREFIX):
+            os.remove(os.path.join(folder, name))
     atomic_write(os.path.join(folder, PREVIEW), lambda tmp: preview.tofile(tmp))
     atomic_write_text(os.path.join(folder, PREVIEW_META),
                       json.dumps({"shape": list(preview.shape), "step": step,
@@ -298,7 +303,7 @@ def strokes_array(strokes, shape) -> np.ndarray:
 
 def preview_meta(path: str) -> dict:
     """What `inspect_upload` recorded beside the preview: ``shape`` and ``step`` of the
-    preview, ``image_shape`` (after the band cut) and ``crop``."""
+    preview, ``image_shape`` (after the band cut) and ``crop`` (the rows cut)."""
     try:
         with open(os.path.join(os.path.dirname(path), PREVIEW_META), encoding="utf-8") as f:
             return json.load(f)
@@ -334,10 +339,15 @@ def strokes_preview(path: str, strokes) -> dict:
     The image and the strokes are reduced to the preview's grid first (block means of the
     grey levels, kept in the image's type; a block is painted with the largest phase
     value painted in it), so the work is bounded by the preview's size whatever the
-    image's: for an image no larger than the preview this is exactly the run's
-    segmentation (`polisect.segment.make_phasemap_labels`, method ``"trained"``); for a
-    larger one the forest is trained and applied at the preview's scale — a preview.
-    The smallest feature kept is the run's default scaled by the step squared.
+    image's. The grid is corrected as a run corrects an image (`correct_image` for the
+    number of phases painted) once per upload and phase count, and kept beside the upload,
+    so only the first stroke pays for it; the forest is then trained and applied to the
+    corrected grid by `polisect.segment.make_phasemap_labels` (method ``"trained"``, no
+    further correction). For an image no larger than the preview this is the run's
+    segmentation up to the scale of the features (grey levels of the corrected image
+    rather than fractions of white, which a forest's splits do not depend on); for a
+    larger one the forest works at the preview's scale — a preview. The smallest feature
+    kept is the run's default scaled by the step squared.
 
     Parameters
     ----------
@@ -365,21 +375,49 @@ def strokes_preview(path: str, strokes) -> dict:
     from ...segment.thresholds import default_min_feature_px
     from ...segment.trained import PROBABILITY_SMOOTHING_PX
 
-    grey, meta = _upload_grey(path)
-    ann = strokes_array(strokes, grey.shape)
+    meta = preview_meta(path)
+    ann = strokes_array(strokes, meta["image_shape"])
     step = int(meta["step"])
-    coarse = _coarse(grey, step, np.mean)
-    if np.issubdtype(grey.dtype, np.integer):
-        coarse = np.rint(coarse).astype(grey.dtype)
     painted = _coarse(ann, step, np.max)
+    phases = np.unique(painted[painted > 0]).size
+    coarse = _corrected_grid(path, phases) if phases >= 2 else _coarse_grey(path)
     smallest = int(round(default_min_feature_px(PROBABILITY_SMOOTHING_PX) / step ** 2))
-    config = SegmentConfig(method="trained", annotations="page", min_feature_px=smallest)
+    config = SegmentConfig(method="trained", annotations="page", min_feature_px=smallest,
+                           shading="none", stripes="none", speckle="none", scratches="none")
     seg = make_phasemap_labels(coarse, None, config, annotations=painted)
     return {"labels": base64.b64encode(seg.labels.astype(np.uint8).tobytes()).decode("ascii"),
             "shape": list(seg.labels.shape),
             "confidence_mean": seg.confidence_summary.mean,
             "annotated_share": float(np.count_nonzero(ann)) / ann.size,
             "phases": list(seg.segmenter.labels), "warnings": list(seg.warnings)}
+
+
+def _coarse_grey(path: str) -> np.ndarray:
+    """The upload's grey levels averaged over the preview's blocks, in the image's type."""
+    grey, meta = _upload_grey(path)
+    coarse = _coarse(grey, int(meta["step"]), np.mean)
+    if np.issubdtype(grey.dtype, np.integer):
+        coarse = np.rint(coarse).astype(grey.dtype)
+    return coarse
+
+
+def _corrected_grid(path: str, phases: int) -> np.ndarray:
+    """`_coarse_grey` corrected for *phases* classes (`correct_image`, every step "auto"),
+    kept in the upload's folder until the next inspection rewrites the preview."""
+    from ...segment.correct import correct_image
+
+    cache = os.path.join(os.path.dirname(path), f"{CORRECTED_PREFIX}{phases}.npy")
+    try:
+        return np.load(cache, allow_pickle=False)
+    except (OSError, ValueError):
+        pass
+    image = correct_image(_coarse_grey(path), phases).image
+
+    def write(tmp):
+        with open(tmp, "wb") as f:
+            np.save(f, image, allow_pickle=False)
+    atomic_write(cache, write)
+    return image
 
 
 def strokes_model(path: str, strokes) -> str:
