@@ -534,3 +534,28 @@ def test_strokes_live_preview_saved_model_and_batch(page, site):
     kinds = {a.get_attribute("data-kind") for a in page.locator("#downloads a").all()}
     assert {"segmenter", "strokes"} <= kinds
     shutil.rmtree(out, ignore_errors=True)
+
+
+@pytest.mark.slow
+def test_large_image_preview_time_is_printed(page, site):
+    """Issue 18: a 4096 × 3072 8-bit TIFF (12.6 MB) dropped on the page; the time until its
+    preview is drawn and until the phase-map overlay shows are printed (speed is measured,
+    never asserted: the figures are in the report of the change)."""
+    import time
+
+    from polisect.model3d.synth import render_sem, rsa_discs
+    from polisect.read.image import write_tiff
+
+    _, _, tmp = site
+    path = os.path.join(str(tmp), "kfs_large.tif")
+    write_tiff(path, render_sem(rsa_discs((3072, 4096), 0.3, 20.0, seed=1).labels,
+                                {0: 0.3, 1: 0.7}, seed=1), pixel_size_um=0.1)
+    page.set_input_files("#file", path)
+    t0 = time.monotonic()
+    expect(page.locator("#f-name")).to_have_text("kfs_large.tif", timeout=120000)
+    expect(page.locator("#thumb")).not_to_have_attribute("width", "1", timeout=120000)
+    shown = time.monotonic() - t0
+    expect(page.locator("#overlay")).not_to_have_attribute("width", "1", timeout=120000)
+    print(f"large image: preview drawn after {shown:.2f} s, phase map overlay after "
+          f"{time.monotonic() - t0:.2f} s")
+    assert page.locator("#thumb").get_attribute("width") == "586"
