@@ -156,7 +156,9 @@ def test_drop_choose_run_and_numbers_match_analyze(page, site):
     config = os.path.join(str(tmp), "downloaded.toml")
     download.value.save_as(config)
     with open(config, encoding="utf-8") as f:
-        assert 'method = "thresholds"' in f.read()
+        text = f.read()
+    assert 'method = "thresholds"' in text
+    assert 'min_feature_px = "auto"' in text   # the run's default, as in the preview
     out_json = os.path.join(str(tmp), "cli.json")
     assert polisect_main(["analyze", image, "--config", config, "--out",
                           os.path.join(str(tmp), "cli"), "--json", out_json, "--quiet"]) == 0

@@ -512,7 +512,7 @@
       $("overlay-note").textContent = S.strokeLabels
         ? (S.up.preview_step > 1
           ? `Phase map trained on your strokes, at 1/${S.up.preview_step} of the resolution; the run trains and classifies the full image.`
-          : "Phase map trained on your strokes; the run computes the same map.")
+          : "Phase map from a classifier trained on your strokes; the run trains and classifies the same way.")
         : "Paint strokes on at least two phases to see the phase map.";
       return S.strokeLabels;
     }
