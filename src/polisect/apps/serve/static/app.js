@@ -10,6 +10,7 @@
 (() => {
   const $ = (id) => document.getElementById(id);
   const FINAL = ["done", "failed", "cancelled", "interrupted"];
+  const MAP_MAX_HEIGHT = 640;
   const PROP_LABELS = {
     conductivity: "thermal conductivity",
     elasticity: "stiffness (E, ν, K, G)",
@@ -98,6 +99,7 @@
     $("cancel").addEventListener("click", cancelRun);
     window.addEventListener("resize", debounce(() => {
       if (S.up && S.kind === "grayscale") { placeHandles(); drawHistogram(); }
+      if (S.up) fitMap();
     }, 150));
     refreshRuns();
   }
@@ -198,6 +200,7 @@
   }
 
   async function accept(facts, note) {
+    const cleared = S.up && S.up.id === facts.id && S.strokes.length > 0;
     S.up = facts;
     S.labels = null;
     S.auto = true;
@@ -207,6 +210,10 @@
     [S.ph, S.pw] = facts.preview_shape;
     resetStrokes();
     brushLabel();
+    if (cleared) {
+      note = [note, "The image was read again (information band), so the strokes were cleared: paint them again."]
+        .filter(Boolean).join(" ");
+    }
     showFacts(facts, note);
     const labelsOk = Array.isArray(facts.label_values);
     if (facts.crop === 0) $("crop").value = "0";  // the server keeps every row of a label image
@@ -527,10 +534,23 @@
     return out;
   }
 
+  /** Show the map (and the strokes over it) as large as its column allows, at most
+   * `MAP_MAX_HEIGHT` px high, without distorting it. */
+  function fitMap() {
+    const room = $("paint").parentElement.clientWidth;
+    if (!room || !S.pw) return;
+    const scale = Math.min(room / S.pw, MAP_MAX_HEIGHT / S.ph);
+    for (const id of ["overlay", "strokes"]) {
+      $(id).style.width = `${Math.floor(S.pw * scale)}px`;
+      $(id).style.height = `${Math.floor(S.ph * scale)}px`;
+    }
+  }
+
   function drawOverlay() {
     if (!S.up) return;
     const c = $("overlay");
     c.width = S.pw; c.height = S.ph;
+    fitMap();
     const ctx = c.getContext("2d");
     const img = ctx.createImageData(S.pw, S.ph);
     const cls = previewClasses();
