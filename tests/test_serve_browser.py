@@ -421,7 +421,7 @@ def _paint(page, paths, shape):
         page.click(f'#palette button[data-value="{label + 1}"]')
         box = page.locator("#strokes").bounding_box()   # where it is after any scrolling
 
-        def at(p):
+        def at(p, box=box):
             return (box["x"] + (p[0] + 0.5) / nx * box["width"],
                     box["y"] + (p[1] + 0.5) / ny * box["height"])
 

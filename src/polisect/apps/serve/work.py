@@ -302,8 +302,24 @@ def strokes_array(strokes, shape) -> np.ndarray:
 
 
 def preview_meta(path: str) -> dict:
-    """What `inspect_upload` recorded beside the preview: ``shape`` and ``step`` of the
-    preview, ``image_shape`` (after the band cut) and ``crop`` (the rows cut)."""
+    """What `inspect_upload` recorded beside the preview.
+
+    Parameters
+    ----------
+    path : str
+        The upload.
+
+    Returns
+    -------
+    dict
+        ``shape`` and ``step`` of the preview, ``image_shape`` (after the band cut) and
+        ``crop`` (the rows cut).
+
+    Raises
+    ------
+    InputError
+        When the upload has not been read yet.
+    """
     try:
         with open(os.path.join(os.path.dirname(path), PREVIEW_META), encoding="utf-8") as f:
             return json.load(f)
@@ -381,7 +397,7 @@ def strokes_preview(path: str, strokes) -> dict:
     painted = _coarse(ann, step, np.max)
     phases = np.unique(painted[painted > 0]).size
     coarse = _corrected_grid(path, phases) if phases >= 2 else _coarse_grey(path)
-    smallest = int(round(default_min_feature_px(PROBABILITY_SMOOTHING_PX) / step ** 2))
+    smallest = round(default_min_feature_px(PROBABILITY_SMOOTHING_PX) / step ** 2)
     config = SegmentConfig(method="trained", annotations="page", min_feature_px=smallest,
                            shading="none", stripes="none", speckle="none", scratches="none")
     seg = make_phasemap_labels(coarse, None, config, annotations=painted)
@@ -425,10 +441,21 @@ def strokes_model(path: str, strokes) -> str:
     the upload's folder as ``<stem>_segmenter.npz`` — the file ``polisect train IMAGE
     --annotations STROKES --out MODEL.npz`` writes for the same strokes.
 
+    Parameters
+    ----------
+    path : str
+        The upload.
+    strokes : dict
+        As for `strokes_array`, on the image as inspected.
+
     Returns
     -------
     str
         Path of the model file.
+
+    References
+    ----------
+    .. [1] Breiman, L. (2001). Random forests. Mach. Learn. 45, 5-32.
     """
     from ...segment.trained import train_segmenter
 
@@ -442,7 +469,20 @@ def strokes_model(path: str, strokes) -> str:
 
 
 def strokes_png(strokes, shape) -> bytes:
-    """The strokes as an 8-bit PNG annotation file (what ``[segment] annotations`` reads)."""
+    """The strokes as an 8-bit PNG annotation file (what ``[segment] annotations`` reads).
+
+    Parameters
+    ----------
+    strokes : dict
+        As for `strokes_array`.
+    shape : tuple of int
+        The image's shape (after any cut information band).
+
+    Returns
+    -------
+    bytes
+        The PNG file: 0 = not painted, v = phase label v − 1.
+    """
     import imageio.v3 as iio
 
     return iio.imwrite("<bytes>", strokes_array(strokes, shape).astype(np.uint8),
