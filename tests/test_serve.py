@@ -1053,3 +1053,23 @@ def test_strokes_preview_of_a_larger_image_works_on_the_preview_grid(served, tmp
     assert answer["shape"] == facts["preview_shape"] == [400, 500]
     labels = np.frombuffer(base64.b64decode(answer["labels"]), np.uint8).reshape(400, 500)
     assert (labels == truth[::2, ::2]).mean() >= 0.85
+
+
+def test_strokes_preparation_is_bounded_and_serves_the_preview(served, image):
+    """The page asks the server to correct the preview for the listed phases before the
+    first strokes; a phase count the page never offers is refused, and the preview that
+    follows (all phases painted) is the same with or without the preparation — common
+    practice (no source)."""
+    client, _ = served
+    _, facts = client.upload(image)
+    path = f"/api/uploads/{facts['id']}/strokes"
+    status, answer = client.json("POST", path, {"prepare": True, "phases": 40})
+    assert status == 400 and "choose 2 to 8 classes" in answer["error"]
+    _, strokes = _strokes(_section_labels())
+    _, cold = client.json("POST", path, {"strokes": strokes})
+    _, facts = client.upload(image)
+    path = f"/api/uploads/{facts['id']}/strokes"
+    status, answer = client.json("POST", path, {"prepare": True, "phases": 3})
+    assert status == 200 and answer == {"prepared": 3}
+    status, warm = client.json("POST", path, {"strokes": strokes, "phases": 3})
+    assert status == 200 and warm["labels"] == cold["labels"]

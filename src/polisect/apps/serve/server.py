@@ -19,9 +19,11 @@ Endpoints (all JSON unless said)::
                                          → the multi-Otsu thresholds of the full image
     POST /api/uploads/<id>/labels        {"thresholds", "denoise", "denoise_px",
                                          "min_feature_px"} → the preview's labels, uint8
-    POST /api/uploads/<id>/strokes       {"strokes"} → the random forest trained on the
-                                         strokes: the preview's phase labels (base64),
-                                         mean confidence, share of pixels painted
+    POST /api/uploads/<id>/strokes       {"strokes", "phases"} → the random forest trained
+                                         on the strokes: the preview's phase labels
+                                         (base64), mean confidence, share of pixels painted;
+                                         {"prepare": true, "phases"} corrects the preview
+                                         grid ahead of the first strokes
     POST /api/uploads/<id>/model         {"strokes"} → the segmenter trained on the full
                                          image, as a .npz file (as `polisect train`)
     POST /api/config                     {"config", "image", "command"} → the TOML text
@@ -321,8 +323,12 @@ class Handler(BaseHTTPRequestHandler):
     def _strokes(self, upload_id):
         body = self._json_body(MAX_STROKES_BYTES)
         upload = self.app.uploads.get(upload_id)
+        if body.get("prepare") is True:
+            phases = self._task(upload, work.strokes_prepare, body.get("phases"),
+                                what="preparing the image for strokes")
+            return self._json({"prepared": phases})
         self._json(self._task(upload, work.strokes_preview, body.get("strokes"),
-                              what="training on the strokes"))
+                              body.get("phases"), what="training on the strokes"))
 
     def _model(self, upload_id):
         body = self._json_body(MAX_STROKES_BYTES)

@@ -349,7 +349,28 @@ def _coarse(image: np.ndarray, step: int, reduce) -> np.ndarray:
     return reduce(blocks, axis=(1, 3))
 
 
-def strokes_preview(path: str, strokes) -> dict:
+def strokes_prepare(path: str, phases) -> int:
+    """Correct the preview grid for *phases* classes ahead of the first strokes (kept beside
+    the upload, see `strokes_preview`), so that the first live map does not wait for it.
+
+    Parameters
+    ----------
+    path : str
+        The upload.
+    phases : int
+        The phases the page lists (2 … `MAX_CLASSES`).
+
+    Returns
+    -------
+    int
+        *phases*.
+    """
+    _check_page_settings(phases, 1)
+    _corrected_grid(path, phases)
+    return phases
+
+
+def strokes_preview(path: str, strokes, phases=None) -> dict:
     """Train the random forest on the strokes and classify the page's preview.
 
     The image and the strokes are reduced to the preview's grid first (block means of the
@@ -371,6 +392,11 @@ def strokes_preview(path: str, strokes) -> dict:
         The upload.
     strokes : dict
         As for `strokes_array`, on the image as inspected.
+    phases : int, optional
+        The phases the page lists: the grid is corrected for this many classes when at
+        least as many are painted so far (the run corrects for the phases painted, which
+        are all of them once every phase has strokes), so that the correction prepared by
+        `strokes_prepare` serves from the first strokes on.
 
     Returns
     -------
@@ -395,8 +421,11 @@ def strokes_preview(path: str, strokes) -> dict:
     ann = strokes_array(strokes, meta["image_shape"])
     step = int(meta["step"])
     painted = _coarse(ann, step, np.max)
-    phases = np.unique(painted[painted > 0]).size
-    coarse = _corrected_grid(path, phases) if phases >= 2 else _coarse_grey(path)
+    painted_phases = np.unique(painted[painted > 0]).size
+    if isinstance(phases, bool) or not isinstance(phases, int) \
+            or not painted_phases <= phases <= MAX_CLASSES:
+        phases = painted_phases
+    coarse = _corrected_grid(path, phases) if painted_phases >= 2 else _coarse_grey(path)
     smallest = round(default_min_feature_px(PROBABILITY_SMOOTHING_PX) / step ** 2)
     config = SegmentConfig(method="trained", annotations="page", min_feature_px=smallest,
                            shading="none", stripes="none", speckle="none", scratches="none")

@@ -299,7 +299,7 @@
       $("suggested").textContent = n >= 2 ? `suggested: ${n}`
         : n === 1 ? "no clear phases in the histogram" : "no suggestion";
       if (S.up.suggest_note) show($("map-msg"), S.up.suggest_note);
-      if (S.mode === "strokes") { buildRows(); buildPalette(); drawOverlay(); return; }
+      if (S.mode === "strokes") { prepareStrokes(); buildRows(); buildPalette(); drawOverlay(); return; }
       await autoThresholds();
     } else {
       S.labels = null;
@@ -580,6 +580,7 @@
     showMode();
     hide($("map-msg"));
     if (S.mode === "strokes") {
+      prepareStrokes();
       buildRows();
       buildPalette();
       sizeStrokeCanvas();
@@ -640,8 +641,17 @@
     $("eraser").setAttribute("aria-pressed", S.erasing ? "true" : "false");
   }
 
+  /** Let the server correct the preview for the listed phases while the user paints. */
+  function prepareStrokes() {
+    if (S.up && S.kind === "grayscale") {
+      api(`/api/uploads/${S.up.id}/strokes`, { json: { prepare: true, phases: S.classes } })
+        .catch(() => { /* the first training reports any problem */ });
+    }
+  }
+
   /** The phase count changed: strokes of phases that no longer exist are dropped. */
   function phasesChanged() {
+    prepareStrokes();
     buildRows();
     const before = S.strokes.length;
     S.strokes = S.strokes.filter((st) => st.value <= S.classes);
@@ -837,7 +847,7 @@
     const seq = S.strokeSeq, upload = S.up.id;
     paintStatus("training the classifier…");
     try {
-      const r = await api(`/api/uploads/${upload}/strokes`, { json: { strokes: encodeStrokes() } });
+      const r = await api(`/api/uploads/${upload}/strokes`, { json: { strokes: encodeStrokes(), phases: S.classes } });
       if (seq === S.strokeSeq && upload === S.up.id) {
         S.strokeLabels = Uint8Array.from(atob(r.labels), (ch) => ch.charCodeAt(0));
         paintStatus(`mean confidence of the classifier: ${(100 * r.confidence_mean).toFixed(1)} %`);
