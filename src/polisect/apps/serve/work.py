@@ -472,10 +472,8 @@ def strokes_model(path: str, strokes) -> str:
 
     Parameters
     ----------
-    path : str
-        The upload.
-    strokes : dict
-        As for `strokes_array`, on the image as inspected.
+    path, strokes
+        As for `strokes_preview`.
 
     Returns
     -------
