@@ -33,14 +33,20 @@ from polisect.model3d.synth import checkerboard, render_sem, rsa_discs
 NO_PROPS = {"properties": []}
 
 
-def _section(path, seed=3, shape=(192, 192), pixel_size_um=0.5):
-    """A rendered three-phase section (pores dark, particles mid, matrix bright) as a TIFF."""
+def _section_labels(seed=3, shape=(192, 192)):
+    """The true phase map of `_section`: pores 0, particles 1, matrix 2."""
     rng = np.random.default_rng(seed)
     particles = rsa_discs(shape, 0.25, 9.0, seed=rng).labels
     pores = rsa_discs(shape, 0.05, 4.0, seed=rng).labels
     labels = np.where(particles == 1, 1, 2)
     labels[(pores == 1) & (particles == 0)] = 0
-    img = render_sem(labels, {0: 0.08, 1: 0.45, 2: 0.8}, noise_sd=0.02, seed=seed)
+    return labels
+
+
+def _section(path, seed=3, shape=(192, 192), pixel_size_um=0.5, noise_sd=0.02):
+    """A rendered three-phase section (pores dark, particles mid, matrix bright) as a TIFF."""
+    img = render_sem(_section_labels(seed, shape), {0: 0.08, 1: 0.45, 2: 0.8},
+                     noise_sd=noise_sd, seed=seed)
     write_tiff(path, img, pixel_size_um=pixel_size_um)
     return path
 
@@ -307,7 +313,7 @@ def test_malformed_requests_do_not_hurt_the_server(served):
     """Bad JSON, NaN, a list, an oversized body, unknown paths and methods: clear errors."""
     client, _ = served
     cases = [("POST", "/api/runs", b"{not json", 400), ("POST", "/api/runs", b'{"a": NaN}', 400),
-             ("POST", "/api/runs", b"[1, 2]", 400), ("POST", "/api/runs", b" " * (2 << 20), 413),
+             ("POST", "/api/runs", b"[1, 2]", 400), ("POST", "/api/config", b" " * (2 << 20), 413),
              ("GET", "/api/nothing", b"", 404), ("PUT", "/api/runs", b"", 405),
              ("POST", "/api/info", b"{}", 405)]
     for method, path, body, expect in cases:
@@ -805,3 +811,266 @@ def test_malformed_request_line_gets_plain_text(served):
         sock.sendall(b"GET /<script> HTTP/1.1\r\n" + b"X-Many: <b>\r\n" * 101 + b"\r\n")
         answer = _read_all(sock)
     assert answer.startswith("HTTP/1.1 431") and "text/plain" in answer and "<" not in answer
+
+
+# -- trained from strokes (issue 14) and the preview's defaults ----------------------------
+
+def _strokes(labels, share=0.02, seed=0):
+    """Single painted pixels on *share* of every phase's interior (value = label + 1), as the
+    page sends them: runs of (row, column, length, value)."""
+    from scipy import ndimage
+
+    rng = np.random.default_rng(seed)
+    painted = np.zeros(labels.shape, np.int32)
+    for v in np.unique(labels):
+        inner = np.flatnonzero(ndimage.binary_erosion(labels == v, iterations=2))
+        pick = rng.choice(inner, max(20, int(share * (labels == v).sum())), replace=False)
+        painted.ravel()[pick] = v + 1
+    rows, cols = np.nonzero(painted)
+    runs = np.stack([rows, cols, np.ones_like(rows), painted[rows, cols]], 1)
+    return painted, {"shape": list(labels.shape), "runs": runs.ravel().tolist()}
+
+
+def test_strokes_preview_is_the_trained_segmentation(served, image):
+    """Strokes on 2 % of each phase: for an image no larger than the preview, the preview
+    labels agree with `make_phasemap_labels` (method "trained", the run's call) on the same
+    strokes at ≥ 99.9 % of the pixels (the preview's forest sees the corrected grey levels
+    rather than fractions of white: the same splits up to rounding), pixel accuracy against
+    the rendered truth ≥ 0.95 (common practice, no source), and the share painted and the
+    mean confidence are reported."""
+    import base64
+
+    from polisect.read.config import SegmentConfig
+    from polisect.read.image import read_image
+    from polisect.segment import make_phasemap_labels
+
+    client, _ = served
+    _, facts = client.upload(image)
+    truth = _section_labels()
+    painted, strokes = _strokes(truth)
+    status, answer = client.json("POST", f"/api/uploads/{facts['id']}/strokes",
+                                 {"strokes": strokes})
+    assert status == 200, answer
+    labels = np.frombuffer(base64.b64decode(answer["labels"]), np.uint8).reshape(answer["shape"])
+    direct = make_phasemap_labels(read_image(image).data, None,
+                                  SegmentConfig(method="trained", annotations="x"),
+                                  annotations=painted)
+    assert (labels == direct.labels).mean() >= 0.999
+    assert (labels == truth).mean() >= 0.95
+    assert answer["annotated_share"] == pytest.approx(np.count_nonzero(painted) / truth.size)
+    assert answer["confidence_mean"] == pytest.approx(direct.confidence_summary.mean, abs=0.01)
+    assert answer["phases"] == [0, 1, 2]
+
+
+@pytest.mark.parametrize("strokes, status, words", [
+    (None, 400, "the strokes must be"),
+    ({"shape": [100, 192], "runs": []}, 400, "must be the same size"),
+    ({"shape": [192, 192], "runs": []}, 400, "mark 0 phase(s)"),
+    ({"shape": [192, 192], "runs": [5, 5, 10, 1, 9, 9, 10, 1]}, 400, "mark 1 phase(s)"),
+    ({"shape": [192, 192], "runs": [5, 185, 10, 1, 9, 9, 10, 2]}, 400, "outside"),
+    ({"shape": [192, 192], "runs": [5, 5, 10, 0, 9, 9, 10, 2]}, 400, "names no phase"),
+    ({"shape": [192, 192], "runs": [5, 5, 10, 12, 9, 9, 10, 2]}, 400, "names no phase"),
+    ({"shape": [192, 192], "runs": [5, 5, 10]}, 400, "runs of four numbers"),
+    ({"shape": [192, 192], "runs": [5, 5, 1.5, 1]}, 400, "whole numbers only"),
+    ({"shape": [192, 192], "runs": [5, 5, 10 ** 30, 1]}, 400, "too large"),
+])
+def test_bad_strokes_get_a_message(served, image, strokes, status, words):
+    """Strokes the page must refuse with words: none, one phase, another size, outside the
+    image, no such phase, broken runs — for the preview, the model and a run."""
+    client, _ = served
+    _, facts = client.upload(image)
+    for path in (f"/api/uploads/{facts['id']}/strokes", f"/api/uploads/{facts['id']}/model"):
+        got, answer = client.json("POST", path, {"strokes": strokes})
+        assert got == status and words in answer["error"], (path, answer)
+
+
+def test_strokes_requests_are_bounded(served, image):
+    """Nesting deeper than the server allows is refused as for every endpoint; a body
+    larger than the strokes limit is refused before it is read (413)."""
+    from polisect.apps.serve.server import MAX_STROKES_BYTES
+
+    client, _ = served
+    _, facts = client.upload(image)
+    deep = b'{"strokes": ' + b"[" * 40 + b"]" * 40 + b"}"
+    status, _, data = client.request("POST", f"/api/uploads/{facts['id']}/strokes", deep,
+                                     headers={"Content-Type": "application/json"})
+    assert status == 400 and "nested deeper" in json.loads(data)["error"]
+    conn = socket.create_connection(("127.0.0.1", client.port), timeout=30)
+    conn.sendall((f"POST /api/uploads/{facts['id']}/strokes HTTP/1.1\r\n"
+                  f"Host: 127.0.0.1:{client.port}\r\nX-Polisect: 1\r\n"
+                  f"Content-Length: {MAX_STROKES_BYTES + 1}\r\n\r\n").encode())
+    answer = b""
+    while chunk := conn.recv(65536):
+        answer += chunk
+    conn.close()
+    assert answer.startswith(b"HTTP/1.1 413") and b"paint fewer" in answer
+
+
+def test_saved_model_is_what_polisect_train_writes(served, image, tmp_path):
+    """The page's model file equals, array for array, `polisect train` on the same image and
+    strokes (deterministic: same features, labels, settings and seed) — common practice
+    (no source); it loads without pickle and classifies the section (pixel accuracy
+    ≥ 0.93 for the bare forest — common practice, no source)."""
+    import imageio.v3 as iio
+
+    from polisect.apps.cli import main
+    from polisect.segment.trained import Segmenter
+
+    client, _ = served
+    _, facts = client.upload(image)
+    truth = _section_labels()
+    painted, strokes = _strokes(truth)
+    status, headers, raw = client.request("POST", f"/api/uploads/{facts['id']}/model",
+                                          {"strokes": strokes})
+    assert status == 200 and raw.startswith(b"PK")
+    assert 'filename="kfs_amc_b1_s1_segmenter.npz"' in headers["Content-Disposition"]
+    page_model = tmp_path / "page.npz"
+    page_model.write_bytes(raw)
+    strokes_png = tmp_path / "strokes.png"
+    iio.imwrite(strokes_png, painted.astype(np.uint8))
+    assert main(["train", image, "--annotations", str(strokes_png), "--out",
+                 str(tmp_path / "cli.npz")]) == 0
+    a, b = Segmenter.load(page_model), Segmenter.load(tmp_path / "cli.npz")
+    np.testing.assert_array_equal(a.features, b.features)
+    np.testing.assert_array_equal(a.targets, b.targets)
+    assert (a.labels, a.settings) == (b.labels, b.settings) == ((0, 1, 2), b.settings)
+    labels, _ = a.predict(np.asarray(iio.imread(image)))
+    assert (labels == truth).mean() >= 0.93   # the bare forest, before boundary refinement
+
+
+def test_run_from_strokes_writes_strokes_and_segmenter(served, image):
+    """A run submitted with strokes trains on them: the strokes file is in the run folder
+    and named by the config, `<stem>_segmenter.npz` is written and downloadable, and the
+    fractions are those of `analyze` with the run's config (same code path)."""
+    import imageio.v3 as iio
+
+    client, _ = served
+    _, facts = client.upload(image)
+    painted, strokes = _strokes(_section_labels())
+    config = {**_three_phases(), "segment": {"method": "trained"}}
+    status, body = client.json("POST", "/api/runs", {"upload": facts["id"], "config": config,
+                                                     "strokes": strokes})
+    assert status == 201, body
+    st = client.wait(body["id"], 120)
+    assert st["state"] == "done", st
+    assert st["outputs"]["segmenter"] == "kfs_amc_b1_s1_segmenter.npz"
+    assert st["outputs"]["strokes"] == "kfs_amc_b1_s1_strokes.png"
+    folder = client.app.runs.folder(st["id"])
+    np.testing.assert_array_equal(iio.imread(os.path.join(folder, "kfs_amc_b1_s1_strokes.png")),
+                                  painted)
+    with open(os.path.join(folder, "config.toml"), encoding="utf-8") as f:
+        text = f.read()
+    assert 'method = "trained"' in text and 'annotations = "kfs_amc_b1_s1_strokes.png"' in text
+    for kind in ("segmenter", "strokes"):
+        assert client.request("GET", f"/api/runs/{st['id']}/files/{kind}")[0] == 200
+    direct = json_form(analyze(os.path.join(folder, "kfs_amc_b1_s1.tif"),
+                               load_config(os.path.join(folder, "config.toml"))).result)
+    _, served_json = client.json("GET", f"/api/runs/{st['id']}/files/json")
+    assert [p["fraction"] for p in served_json["phases"]] == \
+        [p["fraction"] for p in direct["phases"]]
+
+    status, answer = client.json("POST", "/api/runs", {"upload": facts["id"],
+                                                       "config": _three_phases(),
+                                                       "strokes": strokes})
+    assert status == 400 and "trained" in answer["error"]
+
+
+def test_config_endpoint_writes_a_batch_config_for_a_model(served):
+    """The page's batch config names the model file beside it and the batch command."""
+    client, _ = served
+    config = {**_three_phases(), "segment": {"method": "trained",
+                                             "model": "kfs_segmenter.npz"}}
+    status, _, raw = client.request("POST", "/api/config", {
+        "config": config, "image": "kfs.tif",
+        "command": "polisect batch FOLDER --config kfs_batch.toml"})
+    assert status == 200
+    text = raw.decode()
+    assert 'model = "kfs_segmenter.npz"' in text
+    assert "# Repeat the run with:  polisect batch FOLDER --config kfs_batch.toml" in text
+    status, answer = client.json("POST", "/api/config", {"config": {"segment": {
+        "method": "trained"}}, "image": "kfs.tif"})
+    assert status == 400 and "needs either annotations" in answer["error"]
+
+
+def test_preview_smallest_feature_defaults_to_the_runs(served, tmp_path):
+    """Without a value the preview merges features smaller than the run's default,
+    `default_min_feature_px` of the smoothing radius (13 px at radius 1, docs/configuration.md
+    [segment] min_feature_px), not 0: on a noisy section the two previews differ and the
+    default one equals an explicit 13 px."""
+    from polisect.segment.thresholds import default_min_feature_px
+
+    client, _ = served
+    noisy = _section(str(tmp_path / "noisy.tif"), noise_sd=0.12)
+    _, facts = client.upload(noisy)
+    body = {"thresholds": [60.0, 160.0], "denoise": "median", "denoise_px": 1}
+    got = {}
+    for key, value in (("default", None), ("auto", "auto"), ("13", 13), ("0", 0)):
+        request = dict(body) if value is None else {**body, "min_feature_px": value}
+        status, _, raw = client.request("POST", f"/api/uploads/{facts['id']}/labels", request)
+        assert status == 200
+        got[key] = raw
+    assert default_min_feature_px(1) == 13
+    assert got["default"] == got["auto"] == got["13"] != got["0"]
+
+
+def test_quick_upload_answers_with_the_preview_first(served, image, tmp_path):
+    """Issue 18: the page uploads with ?quick=1 and gets the preview at once (no band
+    detection, histogram or suggestion yet); /inspect then gives the full facts. A damaged
+    file is refused by the quick answer already."""
+    client, _ = served
+    with open(image, "rb") as f:
+        data = f.read()
+    status, quick = client.json("POST", "/api/uploads?quick=1", data,
+                                headers={"X-Filename": "kfs.tif"})
+    assert status == 200 and quick["quick"] is True
+    assert quick["preview_shape"] == [192, 192] and "histogram" not in quick
+    assert quick["stem"] == "kfs"
+    status, _, raw = client.request("GET", f"/api/uploads/{quick['id']}/preview")
+    assert status == 200 and len(raw) == 4 * 192 * 192
+    status, facts = client.json("POST", f"/api/uploads/{quick['id']}/inspect", {"crop": "auto"})
+    assert status == 200 and facts["suggested_classes"] == 3
+    status, answer = client.json("POST", "/api/uploads?quick=1", data[:4000],
+                                 headers={"X-Filename": "cut.tif"})
+    assert status == 400 and "cut.tif" in answer["error"]
+
+
+def test_strokes_preview_of_a_larger_image_works_on_the_preview_grid(served, tmp_path):
+    """An image larger than the preview (1000 × 800 px, step 2): the strokes are painted at
+    full resolution, the labels come back on the preview's grid, and agree with the truth
+    sampled on that grid at ≥ 0.85 of its pixels — a half-resolution preview; the run on
+    the full image with the same interior strokes reaches 0.96, and both give the pores'
+    partial-volume rims to the mid-grey phase (common practice, no source)."""
+    import base64
+
+    client, _ = served
+    path = _section(str(tmp_path / "wide.tif"), seed=5, shape=(800, 1000))
+    _, facts = client.upload(path)
+    assert facts["preview_step"] == 2
+    truth = _section_labels(5, (800, 1000))
+    _, strokes = _strokes(truth, share=0.01)
+    status, answer = client.json("POST", f"/api/uploads/{facts['id']}/strokes",
+                                 {"strokes": strokes})
+    assert status == 200, answer
+    assert answer["shape"] == facts["preview_shape"] == [400, 500]
+    labels = np.frombuffer(base64.b64decode(answer["labels"]), np.uint8).reshape(400, 500)
+    assert (labels == truth[::2, ::2]).mean() >= 0.85
+
+
+def test_strokes_preparation_is_bounded_and_serves_the_preview(served, image):
+    """The page asks the server to correct the preview for the listed phases before the
+    first strokes; a phase count the page never offers is refused, and the preview that
+    follows (all phases painted) is the same with or without the preparation — common
+    practice (no source)."""
+    client, _ = served
+    _, facts = client.upload(image)
+    path = f"/api/uploads/{facts['id']}/strokes"
+    status, answer = client.json("POST", path, {"prepare": True, "phases": 40})
+    assert status == 400 and "choose 2 to 8 classes" in answer["error"]
+    _, strokes = _strokes(_section_labels())
+    _, cold = client.json("POST", path, {"strokes": strokes})
+    _, facts = client.upload(image)
+    path = f"/api/uploads/{facts['id']}/strokes"
+    status, answer = client.json("POST", path, {"prepare": True, "phases": 3})
+    assert status == 200 and answer == {"prepared": 3}
+    status, warm = client.json("POST", path, {"strokes": strokes, "phases": 3})
+    assert status == 200 and warm["labels"] == cold["labels"]

@@ -155,13 +155,22 @@ class RunManager:
                               finished=time.time())
                 write_status(folder, status)
 
-    def submit(self, image_path: str, stem: str, toml_text: str) -> str:
-        """Create a run folder for *image_path* and queue the run; returns the run id."""
+    def submit(self, image_path: str, stem: str, toml_text: str, *,
+               files: dict[str, bytes] | None = None) -> str:
+        """Create a run folder for *image_path* and queue the run; returns the run id.
+
+        *files* (name → content) are written into the folder beside the config (the
+        strokes a trained run reads); names are plain file names."""
         run_id = f"{time.strftime('%Y%m%d-%H%M%S')}-{stem}-{secrets.token_hex(2)}"
         folder = os.path.join(self.out_dir, run_id)
         os.makedirs(folder)
         image = os.path.join(folder, os.path.basename(image_path))
         shutil.copyfile(image_path, image)
+        for name, content in (files or {}).items():
+            if os.path.basename(name) != name or name in (work.CONFIG, work.STATUS):
+                raise InputError(f"{name[:80]!r} cannot be written into a run folder")
+            with open(os.path.join(folder, name), "wb") as f:
+                f.write(content)
         atomic_write_text(os.path.join(folder, work.CONFIG), toml_text)
         write_status(folder, {"id": run_id, "state": "queued", "stage": "waiting for a free worker",
                               "image": os.path.basename(image), "stem": stem,

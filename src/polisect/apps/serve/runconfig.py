@@ -68,10 +68,11 @@ def _is_number(value) -> bool:
     return isinstance(value, (int, float)) and not isinstance(value, bool)
 
 
-def run_config_toml(settings, image: str) -> str:
+def run_config_toml(settings, image: str, *, command: str | None = None) -> str:
     """The TOML text of the page's *settings* for the file *image*, checked as a config file.
 
-    ``None`` values mean "the default" and are left out.
+    ``None`` values mean "the default" and are left out. *command* is the command line
+    the header suggests (default: ``polisect analyze IMAGE --config config.toml``).
 
     Raises
     ------
@@ -83,7 +84,8 @@ def run_config_toml(settings, image: str) -> str:
         raise InputError("the run settings are missing; fill in the phases and press Run")
     text = (f"# polisect run configuration for {_comment(image)}, written by `polisect serve` "
             f"on {time.strftime('%Y-%m-%d %H:%M')}.\n"
-            f"# Repeat the run with:  polisect analyze {_comment(image)} --config config.toml\n\n"
+            f"# Repeat the run with:  "
+            f"{_comment(command or f'polisect analyze {image} --config config.toml')}\n\n"
             + toml_text(_drop_none(settings)))
     try:
         config_from_dict(tomllib.loads(text), source="page", raw=text)

@@ -12,18 +12,28 @@ Endpoints (all JSON unless said)::
     GET  /static/app.js | style.css      the page's script and style
     GET  /api/info                       version, limits, material library, options
     POST /api/uploads                    body = the file; header X-Filename → image facts
+                                         (?quick=1: only its size and preview, at once)
     POST /api/uploads/<id>/inspect       {"crop": "auto" | rows} → image facts again
     GET  /api/uploads/<id>/preview       the subsampled grey image, float32 little-endian
     POST /api/uploads/<id>/thresholds    {"crop", "classes", "denoise", "denoise_px"}
                                          → the multi-Otsu thresholds of the full image
     POST /api/uploads/<id>/labels        {"thresholds", "denoise", "denoise_px",
                                          "min_feature_px"} → the preview's labels, uint8
-    POST /api/runs                       {"upload", "config"} → {"id"}
+    POST /api/uploads/<id>/strokes       {"strokes", "phases"} → the random forest trained
+                                         on the strokes: the preview's phase labels
+                                         (base64), mean confidence, share of pixels painted;
+                                         {"prepare": true, "phases"} corrects the preview
+                                         grid ahead of the first strokes
+    POST /api/uploads/<id>/model         {"strokes"} → the segmenter trained on the full
+                                         image, as a .npz file (as `polisect train`)
+    POST /api/config                     {"config", "image", "command"} → the TOML text
+    POST /api/runs                       {"upload", "config", "strokes"} → {"id"}
     GET  /api/runs                       past and current runs, newest first
     GET  /api/runs/<id>                  a run's status and progress
     POST /api/runs/<id>/cancel           stop it
     GET  /api/runs/<id>/files/<kind>     report | json | csv | phasemap | overlay |
-                                         particles | config  (?inline=1 to view)
+                                         particles | segmenter | strokes | config
+                                         (?inline=1 to view)
 
 Security: bound to loopback unless asked otherwise; whatever the bind address, the Host
 header must name this server's port and an IP address or one of this machine's names (no
@@ -61,6 +71,8 @@ from .runconfig import page_options, run_config_toml
 from .uploads import UploadStore
 
 MAX_JSON_BYTES = 1 << 20
+#: Largest request carrying strokes (run-length encoded painted pixels).
+MAX_STROKES_BYTES = 16 << 20
 MAX_JSON_DEPTH = 32
 MAX_UPLOAD_MB = 100_000
 STATIC = {"/": ("index.html", "text/html; charset=utf-8"),
@@ -68,7 +80,8 @@ STATIC = {"/": ("index.html", "text/html; charset=utf-8"),
           "/static/style.css": ("style.css", "text/css; charset=utf-8")}
 DOWNLOADS = {"report": "text/html; charset=utf-8", "json": "application/json",
              "csv": "text/csv; charset=utf-8", "phasemap": "image/tiff", "overlay": "image/png",
-             "particles": "text/csv; charset=utf-8", "config": "application/toml"}
+             "particles": "text/csv; charset=utf-8", "config": "application/toml",
+             "segmenter": "application/octet-stream", "strokes": "image/png"}
 PAGE_CSP = ("default-src 'self'; img-src 'self' data: blob:; frame-src 'self'; "
             "object-src 'none'; base-uri 'none'; form-action 'none'; frame-ancestors 'none'")
 REPORT_CSP = ("default-src 'none'; img-src data:; style-src 'unsafe-inline'; "
@@ -80,6 +93,9 @@ _ROUTES = [
     ("GET", re.compile(r"/api/uploads/([^/]+)/preview"), "preview"),
     ("POST", re.compile(r"/api/uploads/([^/]+)/thresholds"), "thresholds"),
     ("POST", re.compile(r"/api/uploads/([^/]+)/labels"), "labels"),
+    ("POST", re.compile(r"/api/uploads/([^/]+)/strokes"), "strokes"),
+    ("POST", re.compile(r"/api/uploads/([^/]+)/model"), "model"),
+    ("POST", re.compile(r"/api/config"), "config"),
     ("POST", re.compile(r"/api/runs"), "submit"),
     ("GET", re.compile(r"/api/runs"), "runs"),
     ("GET", re.compile(r"/api/runs/([^/]+)"), "run"),
@@ -118,6 +134,15 @@ class App:
         self.static = {route: (resources.files("polisect.apps.serve").joinpath("static", name)
                                .read_bytes(), ctype) for route, (name, ctype) in STATIC.items()}
         self.options = page_options()
+        threading.Thread(target=self._warm, name="polisect-warm", daemon=True).start()
+
+    def _warm(self) -> None:
+        """Start the fork server now, so the first upload's preview does not wait for it
+        to import the numerical stack (several seconds on a cold start)."""
+        try:
+            self.tasks.call(work.warm, what="starting the workers")
+        except (InputError, TaskFailed, OSError, ValueError):
+            pass  # the first real task starts it again and reports any failure
 
     def info(self) -> dict:
         return {"version": __version__, "max_upload_bytes": self.uploads.max_bytes,
@@ -213,11 +238,13 @@ class Handler(BaseHTTPRequestHandler):
             raise HttpError(400, "negative Content-Length")
         return length
 
-    def _json_body(self) -> dict:
+    def _json_body(self, limit: int = MAX_JSON_BYTES) -> dict:
         length = self._body_length()
-        if length > MAX_JSON_BYTES:
+        if length > limit:
             self.close_connection = True
-            raise HttpError(413, "request too large")
+            raise HttpError(413, "request too large" + (
+                "" if limit == MAX_JSON_BYTES else
+                f" (more than {limit >> 20} MB of strokes); paint fewer or shorter strokes"))
         raw = self.rfile.read(length)
         self._unread = False
         try:
@@ -246,16 +273,20 @@ class Handler(BaseHTTPRequestHandler):
                                  + store.limit_message(length))
         upload = store.save(self.rfile, length, name)
         self._unread = False
-        self._json(self._inspect_upload(upload, "auto", fresh=True))
+        quick = urllib.parse.parse_qs(urllib.parse.urlsplit(self.path).query).get("quick")
+        self._json(self._inspect_upload(upload, "auto", fresh=True, quick=bool(quick)))
 
-    def _inspect_upload(self, upload, crop, *, fresh: bool = False) -> dict:
+    def _inspect_upload(self, upload, crop, *, fresh: bool = False, quick: bool = False) -> dict:
         try:
-            facts = self._task(upload, work.inspect_upload, crop, what=f"reading {upload.name}")
+            facts = (self._task(upload, work.quick_look, what=f"reading {upload.name}") if quick
+                     else self._task(upload, work.inspect_upload, crop,
+                                     what=f"reading {upload.name}"))
         except (InputError, TaskFailed):
             if fresh:
                 self.app.uploads.discard(upload.id)
             raise
-        return {"id": upload.id, "name": upload.name, "bytes": upload.size, **facts}
+        return {"id": upload.id, "name": upload.name, "stem": upload.stem, "bytes": upload.size,
+                **facts}
 
     def _inspect(self, upload_id):
         body = self._json_body()
@@ -286,8 +317,36 @@ class Handler(BaseHTTPRequestHandler):
         upload = self.app.uploads.get(upload_id)
         labels = self._task(upload, work.preview_labels, body.get("thresholds"),
                             body.get("denoise", "median"), body.get("denoise_px", 1.0),
-                            body.get("min_feature_px", 0), what="segmenting the preview")
+                            body.get("min_feature_px", "auto"), what="segmenting the preview")
         self._send(200, labels, "application/octet-stream")
+
+    def _strokes(self, upload_id):
+        body = self._json_body(MAX_STROKES_BYTES)
+        upload = self.app.uploads.get(upload_id)
+        if body.get("prepare") is True:
+            phases = self._task(upload, work.strokes_prepare, body.get("phases"),
+                                what="preparing the image for strokes")
+            return self._json({"prepared": phases})
+        self._json(self._task(upload, work.strokes_preview, body.get("strokes"),
+                              body.get("phases"), what="training on the strokes"))
+
+    def _model(self, upload_id):
+        body = self._json_body(MAX_STROKES_BYTES)
+        upload = self.app.uploads.get(upload_id)
+        path = self._task(upload, work.strokes_model, body.get("strokes"),
+                          what="training the model on the full image")
+        name = os.path.basename(path)
+        with open(path, "rb") as f:
+            self._send(200, f, DOWNLOADS["segmenter"],
+                       disposition=f'attachment; filename="{name}"')
+
+    def _config(self):
+        body = self._json_body()
+        image, command = body.get("image", "IMAGE"), body.get("command")
+        if not isinstance(image, str) or not (command is None or isinstance(command, str)):
+            raise InputError("image and command must be text")
+        text = run_config_toml(body.get("config"), image[:200], command=command and command[:300])
+        self._send(200, text.encode("utf-8"), "application/toml; charset=utf-8")
 
     def _task(self, upload, fn, *args, what: str):
         """``fn(upload.path, *args)`` in a child; messages name the file, not its path."""
@@ -297,11 +356,26 @@ class Handler(BaseHTTPRequestHandler):
             raise type(exc)(str(exc).replace(upload.path, upload.name)) from None
 
     def _submit(self):
-        body = self._json_body()
+        body = self._json_body(MAX_STROKES_BYTES)
         upload = self.app.uploads.get(body.get("upload"))
-        text = run_config_toml(body.get("config"), os.path.basename(upload.path))
-        run_id = self.app.runs.submit(upload.path, upload.stem, text)
+        config, files = body.get("config"), {}
+        if body.get("strokes") is not None:
+            config, files = self._with_strokes(upload, config, body["strokes"])
+        text = run_config_toml(config, os.path.basename(upload.path))
+        run_id = self.app.runs.submit(upload.path, upload.stem, text, files=files)
         self._json({"id": run_id}, status=201)
+
+    def _with_strokes(self, upload, config, strokes) -> tuple[dict, dict]:
+        """A run config whose ``[segment]`` trains on *strokes*, and the strokes file."""
+        segment = (config or {}).get("segment") if isinstance(config, dict) else None
+        if not isinstance(segment, dict) or segment.get("method") != "trained":
+            raise InputError("strokes are sent but [segment] method is not \"trained\"; "
+                             "choose “trained from strokes” in step 2")
+        meta = work.preview_meta(upload.path)
+        name = upload.stem + work.STROKES_SUFFIX
+        png = work.strokes_png(strokes, meta["image_shape"])
+        segment = {k: v for k, v in segment.items() if k != "model"}
+        return {**config, "segment": {**segment, "annotations": name}}, {name: png}
 
     def _runs(self):
         self._json({"runs": self.app.runs.list()})

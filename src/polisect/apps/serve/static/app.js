@@ -1,14 +1,16 @@
 /* polisect serve — the page's behaviour. Plain JavaScript, no libraries, works offline.
  *
  * Steps: 1 upload an image → 2 choose classes and thresholds on its histogram (overlay
- * redrawn on a subsampled preview) → 3 a material per phase → 4 what to compute → 5 run,
- * watch progress, read the report. Every text from the server is inserted as text, never
- * as HTML.
+ * redrawn on a subsampled preview), or paint strokes per phase and let the server train a
+ * random forest on them (preview redrawn after each stroke; model and batch config saved)
+ * → 3 a material per phase → 4 what to compute → 5 run, watch progress, read the report.
+ * Every text from the server is inserted as text, never as HTML.
  */
 "use strict";
 (() => {
   const $ = (id) => document.getElementById(id);
   const FINAL = ["done", "failed", "cancelled", "interrupted"];
+  const MAP_MAX_HEIGHT = 640;
   const PROP_LABELS = {
     conductivity: "thermal conductivity",
     elasticity: "stiffness (E, ν, K, G)",
@@ -20,7 +22,11 @@
   const S = {
     info: null, up: null, grey: null, pw: 0, ph: 0, kind: "grayscale", classes: 3,
     auto: true, th: [], labels: null, labelsKey: "", rows: new Map(), dragging: -1,
-    runId: null, pollTimer: null, seq: 0,
+    runId: null, pollTimer: null, seq: 0, uploadSeq: 0,
+    // strokes: the painted phase of every image pixel (0 = none, v = phase label v − 1), the
+    // strokes drawn (for undo), the brush, and the latest trained preview
+    mode: "grey", ann: null, strokes: [], current: null, paintValue: 1, erasing: false,
+    strokeLabels: null, strokeSeq: 0, training: false, trainAgain: false,
   };
 
   // ---------------------------------------------------------------- helpers
@@ -93,6 +99,7 @@
     $("cancel").addEventListener("click", cancelRun);
     window.addEventListener("resize", debounce(() => {
       if (S.up && S.kind === "grayscale") { placeHandles(); drawHistogram(); }
+      if (S.up) fitMap();
     }, 150));
     refreshRuns();
   }
@@ -145,7 +152,7 @@
   function upload(file, note) {
     const drop = $("drop"), bar = $("upload-bar");
     const xhr = new XMLHttpRequest();
-    xhr.open("POST", "/api/uploads");
+    xhr.open("POST", "/api/uploads?quick=1");
     xhr.setRequestHeader("X-Polisect", "1");
     xhr.setRequestHeader("X-Filename", encodeURIComponent(file.name));
     xhr.setRequestHeader("Content-Type", "application/octet-stream");
@@ -171,24 +178,49 @@
         show($("image-msg"), ((data && data.error) || `${file.name}: the server answered ${xhr.status}`) + still);
         return;
       }
-      accept(data, note).catch((e) => show($("image-msg"), e.message));
+      firstLook(data, note).catch((e) => show($("image-msg"), e.message));
     };
     xhr.send(file);
   }
 
+  /** The quick answer to an upload: draw the preview at once, then ask for the image's facts
+   * (information band, histogram, suggested classes), which take longer on a large image. */
+  async function firstLook(quick, note) {
+    const seq = ++S.uploadSeq;
+    const buf = await api(`/api/uploads/${quick.id}/preview`, { binary: true });
+    if (seq !== S.uploadSeq) return;
+    const [ph, pw] = quick.preview_shape;
+    $("image-facts").hidden = false;
+    $("f-name").textContent = quick.name;
+    $("f-size").textContent = `${quick.shape[1]} × ${quick.shape[0]} px · ${bytes(quick.bytes)}`;
+    $("f-type").textContent = "reading the image…";
+    drawThumb(new Float32Array(buf), pw, ph, quick.range);
+    const facts = await api(`/api/uploads/${quick.id}/inspect`, { json: { crop: "auto" } });
+    if (seq === S.uploadSeq) await accept(facts, note);
+  }
+
   async function accept(facts, note) {
+    const cleared = S.up && S.up.id === facts.id && S.strokes.length > 0;
     S.up = facts;
     S.labels = null;
     S.auto = true;
+    S.th = [];
     const buf = await api(`/api/uploads/${facts.id}/preview`, { binary: true });
     S.grey = new Float32Array(buf);
     [S.ph, S.pw] = facts.preview_shape;
+    resetStrokes();
+    brushLabel();
+    if (cleared) {
+      note = [note, "The image was read again (information band), so the strokes were cleared: paint them again."]
+        .filter(Boolean).join(" ");
+    }
     showFacts(facts, note);
     const labelsOk = Array.isArray(facts.label_values);
     if (facts.crop === 0) $("crop").value = "0";  // the server keeps every row of a label image
     $("kind-labels").disabled = !labelsOk;
     const kind = labelsOk ? "labels" : "grayscale";
     document.querySelector(`input[name=kind][value=${kind}]`).checked = true;
+    $("batch-command").textContent = `polisect batch FOLDER --config ${facts.stem}_batch.toml`;
     S.classes = facts.suggested_classes && facts.suggested_classes >= 2 ? facts.suggested_classes : 3;
     for (const id of ["step-map", "step-phases", "step-compute"]) $(id).hidden = false;
     await setKind();
@@ -214,7 +246,7 @@
     const said = /^(pixel size unknown|auto crop:|cut an information band)/;  // said above already
     notes.replaceChildren(...[note, ...f.notes.filter((n) => !said.test(n))].filter(Boolean)
       .map((n) => el("li", { text: n })));
-    drawThumb();
+    drawThumb(S.grey, S.pw, S.ph, greyRange());
   }
 
   async function reinspect() {
@@ -239,14 +271,14 @@
   /** The histogram's axis (for integer images the bins are centred on the integers). */
   function histRange() { return [S.up.histogram.lo, S.up.histogram.hi]; }
 
-  function drawThumb() {
+  function drawThumb(grey, pw, ph, range) {
     const c = $("thumb");
-    c.width = S.pw; c.height = S.ph;
+    c.width = pw; c.height = ph;
     const ctx = c.getContext("2d");
-    const img = ctx.createImageData(S.pw, S.ph);
-    const [lo, hi] = greyRange();
-    for (let i = 0; i < S.grey.length; i++) {
-      const g = 255 * (S.grey[i] - lo) / (hi - lo);
+    const img = ctx.createImageData(pw, ph);
+    const lo = range[0], hi = range[1] > range[0] ? range[1] : range[0] + 1;
+    for (let i = 0; i < grey.length; i++) {
+      const g = 255 * (grey[i] - lo) / (hi - lo);
       img.data[4 * i] = img.data[4 * i + 1] = img.data[4 * i + 2] = g;
       img.data[4 * i + 3] = 255;
     }
@@ -256,10 +288,10 @@
   async function setKind() {
     S.kind = document.querySelector("input[name=kind]:checked").value;
     const grey = S.kind === "grayscale";
-    for (const id of ["class-controls", "hist-wrap", "th-inputs", "th-mode"]) $(id).hidden = !grey;
+    $("mode-set").hidden = !grey;
+    if (!grey) document.querySelector("input[name=mode][value=grey]").checked = true;
+    showMode();
     $("label-summary").hidden = grey;
-    document.querySelector(".hist-legend").hidden = !grey;
-    document.querySelector("details.more").hidden = !grey;
     hide($("map-msg"));
     if (grey) {
       $("classes").value = S.classes;
@@ -267,6 +299,7 @@
       $("suggested").textContent = n >= 2 ? `suggested: ${n}`
         : n === 1 ? "no clear phases in the histogram" : "no suggestion";
       if (S.up.suggest_note) show($("map-msg"), S.up.suggest_note);
+      if (S.mode === "strokes") { prepareStrokes(); buildRows(); buildPalette(); drawOverlay(); return; }
       await autoThresholds();
     } else {
       S.labels = null;
@@ -280,7 +313,12 @@
 
   // ---------------------------------------------------------------- step 2: phase map
   function wireMapStep() {
-    $("classes").addEventListener("change", () => { S.classes = +$("classes").value; autoThresholds(); });
+    $("classes").addEventListener("change", () => {
+      S.classes = +$("classes").value;
+      if (S.mode === "strokes") phasesChanged(); else autoThresholds();
+    });
+    for (const r of document.querySelectorAll("input[name=mode]")) r.addEventListener("change", setMode);
+    wirePainting();
     $("auto-th").addEventListener("click", autoThresholds);
     $("denoise").addEventListener("change", segSettingsChanged);
     $("denoise-px").addEventListener("change", segSettingsChanged);
@@ -292,7 +330,8 @@
     return {
       denoise: $("denoise").value,
       denoise_px: Number($("denoise-px").value) || 1,
-      min_feature_px: Math.max(0, parseInt($("min-feature").value, 10) || 0),
+      min_feature_px: $("min-feature").value.trim() === "" ? "auto"
+        : Math.max(0, parseInt($("min-feature").value, 10) || 0),
     };
   }
 
@@ -302,6 +341,12 @@
     if (!S.up || S.kind !== "grayscale") return;
     const seq = ++S.seq;
     hide($("map-msg"));
+    const first = S.up.preview_thresholds;
+    if (S.th.length !== S.classes - 1 && first && first.length === S.classes - 1) {
+      S.th = first.slice();  // a first look from the preview while the full image is worked on
+      buildRows();
+      thresholdsChanged(false);
+    }
     $("th-mode").textContent = "Finding the thresholds on the full image…";
     const s = segSettings();
     try {
@@ -470,6 +515,14 @@
       const index = new Map(S.up.label_values.map((v, i) => [v, i]));
       return Uint8Array.from(S.grey, (v) => index.get(Math.round(v)) ?? 0);
     }
+    if (S.mode === "strokes") {
+      $("overlay-note").textContent = S.strokeLabels
+        ? (S.up.preview_step > 1
+          ? `Phase map trained on your strokes, at 1/${S.up.preview_step} of the resolution; the run trains and classifies the full image.`
+          : "Phase map from a classifier trained on your strokes; the run trains and classifies the same way.")
+        : "Paint strokes on at least two phases to see the phase map.";
+      return S.strokeLabels;
+    }
     const s = segSettings();
     const current = S.labels && S.dragging < 0 && S.labelsKey === JSON.stringify([S.up.id, S.th, s]);
     $("overlay-note").textContent = current
@@ -481,20 +534,34 @@
     return out;
   }
 
+  /** Show the map (and the strokes over it) as large as its column allows, at most
+   * `MAP_MAX_HEIGHT` px high, without distorting it. */
+  function fitMap() {
+    const room = $("paint").parentElement.clientWidth;
+    if (!room || !S.pw) return;
+    const scale = Math.min(room / S.pw, MAP_MAX_HEIGHT / S.ph);
+    for (const id of ["overlay", "strokes"]) {
+      $(id).style.width = `${Math.floor(S.pw * scale)}px`;
+      $(id).style.height = `${Math.floor(S.ph * scale)}px`;
+    }
+  }
+
   function drawOverlay() {
     if (!S.up) return;
     const c = $("overlay");
     c.width = S.pw; c.height = S.ph;
+    fitMap();
     const ctx = c.getContext("2d");
     const img = ctx.createImageData(S.pw, S.ph);
     const cls = previewClasses();
-    const a = $("alpha").value / 100;
+    const a = cls ? $("alpha").value / 100 : 0;
     const cols = Array.from({ length: 9 }, (_, i) => rgb(colour(i)));
     const [lo, hi] = greyRange();
     const counts = new Array(cols.length).fill(0);
-    for (let i = 0; i < cls.length; i++) {
-      const g = 255 * (S.grey[i] - lo) / (hi - lo), col = cols[cls[i]] || cols[0];
-      counts[cls[i]]++;
+    for (let i = 0; i < S.grey.length; i++) {
+      const k = cls ? cls[i] : 0;
+      const g = 255 * (S.grey[i] - lo) / (hi - lo), col = cols[k] || cols[0];
+      counts[k]++;
       img.data[4 * i] = (1 - a) * g + a * col[0];
       img.data[4 * i + 1] = (1 - a) * g + a * col[1];
       img.data[4 * i + 2] = (1 - a) * g + a * col[2];
@@ -503,8 +570,356 @@
     ctx.putImageData(img, 0, 0);
     classList().forEach((label, k) => {
       const cell = document.querySelector(`#phase-rows tr[data-label="${label}"] .share`);
-      if (cell) cell.textContent = `${(100 * counts[k] / cls.length).toFixed(1)} %`;
+      if (cell) cell.textContent = cls ? `${(100 * counts[k] / cls.length).toFixed(1)} %` : "–";
     });
+  }
+
+  // ---------------------------------------------------------------- step 2b: strokes
+  function setMode() {
+    S.mode = document.querySelector("input[name=mode]:checked").value;
+    showMode();
+    hide($("map-msg"));
+    if (S.mode === "strokes") {
+      prepareStrokes();
+      buildRows();
+      buildPalette();
+      sizeStrokeCanvas();
+      drawStrokes();
+      paintStatus();
+    } else if (S.th.length !== S.classes - 1) {
+      autoThresholds();
+    } else {
+      buildRows();
+      thresholdsChanged(false);
+    }
+    drawOverlay();
+  }
+
+  function showMode() {
+    const grey = S.kind === "grayscale", strokes = grey && S.mode === "strokes";
+    $("class-controls").hidden = !grey;
+    $("grey-controls").hidden = !grey || strokes;
+    $("paint-controls").hidden = !strokes;
+    $("strokes").hidden = !strokes;
+    $("show-strokes-box").hidden = !strokes;
+    $("auto-th").hidden = strokes;
+    $("suggested").hidden = strokes;
+    $("classes-label").textContent = strokes ? "Phases" : "Classes";
+    $("map-grid").classList.toggle("painting", strokes);
+  }
+
+  function resetStrokes() {
+    const [ny, nx] = S.up.shape;
+    S.ann = new Uint8Array(ny * nx);
+    S.strokes = [];
+    S.current = null;
+    S.strokeLabels = null;
+    S.strokeSeq++;
+    hide($("paint-msg"));
+    $("save-model").disabled = $("save-batch").disabled = true;
+    if (S.mode === "strokes") { sizeStrokeCanvas(); drawStrokes(); paintStatus(); }
+  }
+
+  /** The name of a phase as the page shows it: the name given, else the material, else its label. */
+  function phaseName(label) {
+    const st = rowState(label);
+    return st.name || (!st.own && st.material) || `phase ${label}`;
+  }
+
+  function buildPalette() {
+    if (!S.up || S.kind !== "grayscale") return;
+    if (S.paintValue > S.classes) S.paintValue = 1;
+    $("palette").replaceChildren(...classList().map((label, k) => {
+      const sw = el("span", { class: "swatch", "aria-hidden": "true" });
+      sw.style.background = colour(k);
+      const b = el("button", { type: "button", "data-value": label + 1,
+        "aria-pressed": !S.erasing && S.paintValue === label + 1 ? "true" : "false",
+        title: `Paint ${phaseName(label)}` }, sw, phaseName(label));
+      b.addEventListener("click", () => { S.paintValue = label + 1; S.erasing = false; buildPalette(); });
+      return b;
+    }));
+    $("eraser").setAttribute("aria-pressed", S.erasing ? "true" : "false");
+  }
+
+  /** Let the server correct the preview for the listed phases while the user paints. */
+  function prepareStrokes() {
+    if (S.up && S.kind === "grayscale") {
+      api(`/api/uploads/${S.up.id}/strokes`, { json: { prepare: true, phases: S.classes } })
+        .catch(() => { /* the first training reports any problem */ });
+    }
+  }
+
+  /** The phase count changed: strokes of phases that no longer exist are dropped. */
+  function phasesChanged() {
+    prepareStrokes();
+    buildRows();
+    const before = S.strokes.length;
+    S.strokes = S.strokes.filter((st) => st.value <= S.classes);
+    if (S.strokes.length !== before) {
+      rasterise();
+      show($("paint-msg"), `${before - S.strokes.length} stroke(s) of phases no longer listed were removed.`, "info");
+    }
+    buildPalette();
+    drawStrokes();
+    strokesChanged();
+  }
+
+  function wirePainting() {
+    const c = $("strokes");
+    $("brush").addEventListener("input", brushLabel);
+    $("eraser").addEventListener("click", () => { S.erasing = !S.erasing; buildPalette(); });
+    $("undo").addEventListener("click", () => {
+      if (!S.strokes.length) return;
+      S.strokes.pop();
+      rasterise(); drawStrokes(); strokesChanged();
+    });
+    $("clear").addEventListener("click", () => {
+      S.strokes = [];
+      rasterise(); drawStrokes(); strokesChanged();
+    });
+    $("save-model").addEventListener("click", saveModel);
+    $("save-batch").addEventListener("click", saveBatch);
+    $("show-strokes").addEventListener("change", () => {
+      c.style.opacity = $("show-strokes").checked ? "1" : "0";  // still paintable when hidden
+    });
+    c.addEventListener("pointerdown", (e) => {
+      if (!S.up || e.button !== 0) return;
+      e.preventDefault();
+      c.setPointerCapture(e.pointerId);
+      S.current = { value: S.erasing ? 0 : S.paintValue, radius: brushRadius(), points: [imagePoint(e)] };
+      stampLine(S.current, S.current.points[0], S.current.points[0]);
+      drawStrokes();
+    });
+    c.addEventListener("pointermove", (e) => {
+      if (!S.current) return;
+      const pts = S.current.points, p = imagePoint(e), q = pts[pts.length - 1];
+      if (Math.hypot(p[0] - q[0], p[1] - q[1]) < 0.5) return;
+      pts.push(p);
+      stampLine(S.current, q, p);
+      drawStrokes();
+    });
+    const end = () => {
+      if (!S.current) return;
+      S.strokes.push(S.current);
+      S.current = null;
+      strokesChanged();
+    };
+    c.addEventListener("pointerup", end);
+    c.addEventListener("pointercancel", end);
+    brushLabel();
+  }
+
+  function brushRadius() { return Math.max(0.5, Number($("brush").value) * S.up.preview_step / 2); }
+  function brushLabel() {
+    if (!S.up) { $("brush-size").textContent = ""; return; }
+    const px = Math.round(2 * brushRadius());
+    $("brush-size").textContent = S.up.preview_step > 1 ? `${px} image pixels wide` : `${px} px wide`;
+  }
+
+  /** Where a pointer event falls, in pixels of the image (column, row). */
+  function imagePoint(e) {
+    const r = $("strokes").getBoundingClientRect();
+    const [ny, nx] = S.up.shape;
+    return [Math.min(nx - 1, Math.max(0, (e.clientX - r.left) / r.width * nx)),
+      Math.min(ny - 1, Math.max(0, (e.clientY - r.top) / r.height * ny))];
+  }
+
+  /** Paint a stroke's segment a → b into the annotation: discs of the brush radius. */
+  function stampLine(stroke, a, b) {
+    const [ny, nx] = S.up.shape, r = stroke.radius, r2 = r * r;
+    const n = Math.max(1, Math.ceil(Math.hypot(b[0] - a[0], b[1] - a[1]) / Math.max(0.5, r / 2)));
+    for (let i = 0; i <= n; i++) {
+      const cx = a[0] + (b[0] - a[0]) * i / n, cy = a[1] + (b[1] - a[1]) * i / n;
+      const y0 = Math.max(0, Math.ceil(cy - r)), y1 = Math.min(ny - 1, Math.floor(cy + r));
+      for (let y = y0; y <= y1; y++) {
+        const dx = Math.sqrt(Math.max(0, r2 - (y - cy) ** 2));
+        const x0 = Math.max(0, Math.ceil(cx - dx)), x1 = Math.min(nx - 1, Math.floor(cx + dx));
+        S.ann.fill(stroke.value, y * nx + x0, y * nx + x1 + 1);
+      }
+    }
+  }
+
+  function rasterise() {
+    S.ann.fill(0);
+    for (const st of S.strokes) {
+      for (let i = 0; i < st.points.length; i++) stampLine(st, st.points[Math.max(0, i - 1)], st.points[i]);
+    }
+  }
+
+  function sizeStrokeCanvas() {
+    const c = $("strokes");
+    if (c.width !== S.pw || c.height !== S.ph) { c.width = S.pw; c.height = S.ph; }
+  }
+
+  /** The strokes as the user sees them: the painted pixels of the annotation on the preview,
+   * in the phase's colour with a white rim (so that a stroke shows over its own phase). */
+  function drawStrokes() {
+    if (!S.up || S.mode !== "strokes") return;
+    sizeStrokeCanvas();
+    const ctx = $("strokes").getContext("2d");
+    const img = ctx.createImageData(S.pw, S.ph);
+    const [, nx] = S.up.shape, step = S.up.preview_step, w = S.pw, h = S.ph;
+    const cols = Array.from({ length: 9 }, (_, i) => rgb(colour(i)));
+    const v = new Uint8Array(w * h);
+    for (let y = 0; y < h; y++) for (let x = 0; x < w; x++) v[y * w + x] = S.ann[y * step * nx + x * step];
+    for (let y = 0; y < h; y++) {
+      for (let x = 0; x < w; x++) {
+        const k = y * w + x, i = 4 * k;
+        if (v[k]) {
+          const col = cols[v[k] - 1];
+          img.data[i] = col[0]; img.data[i + 1] = col[1]; img.data[i + 2] = col[2]; img.data[i + 3] = 255;
+        } else if ((x > 0 && v[k - 1]) || (x < w - 1 && v[k + 1]) || (y > 0 && v[k - w]) || (y < h - 1 && v[k + w])) {
+          img.data[i] = img.data[i + 1] = img.data[i + 2] = 255; img.data[i + 3] = 255;
+        }
+      }
+    }
+    ctx.putImageData(img, 0, 0);
+  }
+
+  /** Painted pixels per phase value. */
+  function paintedCounts() {
+    const counts = new Array(S.info.max_classes + 1).fill(0);
+    for (let i = 0; i < S.ann.length; i++) counts[S.ann[i]]++;
+    return counts;
+  }
+
+  /** Why the strokes cannot train a classifier yet, in plain words, or null. */
+  function strokesProblem() {
+    const counts = paintedCounts();
+    const painted = classList().filter((label) => counts[label + 1] > 0);
+    if (!painted.length) {
+      return "No strokes yet: pick a phase above the image, then drag over places that clearly belong to it.";
+    }
+    if (painted.length < 2) {
+      return `Only ${phaseName(painted[0])} is painted: paint strokes on at least one more phase, so `
+        + "that the classifier can tell the phases apart.";
+    }
+    return null;
+  }
+
+  function paintStatus(extra) {
+    const counts = paintedCounts();
+    const share = 100 * (S.ann.length - counts[0]) / S.ann.length;
+    $("paint-status").textContent = [`Painted: ${share.toFixed(2)} % of the pixels`, extra].filter(Boolean).join(" · ");
+  }
+
+  function strokesChanged() {
+    S.strokeSeq++;
+    const problem = strokesProblem();
+    paintStatus();
+    $("save-model").disabled = $("save-batch").disabled = Boolean(problem);
+    if (problem) {
+      S.strokeLabels = null;
+      show($("paint-msg"), problem, "info");
+      drawOverlay();
+      return;
+    }
+    hide($("paint-msg"));
+    hide($("run-msg"));
+    trainSoon();
+  }
+
+  /** Strokes → RLE runs along the rows: [row, first column, length, value, ...]. */
+  function encodeStrokes() {
+    const [ny, nx] = S.up.shape, runs = [];
+    for (let y = 0; y < ny; y++) {
+      const o = y * nx;
+      let x = 0;
+      while (x < nx) {
+        const v = S.ann[o + x];
+        if (!v) { x++; continue; }
+        let e = x + 1;
+        while (e < nx && S.ann[o + e] === v) e++;
+        runs.push(y, x, e - x, v);
+        x = e;
+      }
+    }
+    return { shape: [ny, nx], runs };
+  }
+
+  /** Train on the current strokes, at most one request at a time: strokes painted while the
+   * server trains are sent together once it answers (the server's work stays bounded). */
+  async function train() {
+    if (!S.up || S.mode !== "strokes" || strokesProblem()) return;
+    if (S.training) { S.trainAgain = true; return; }
+    S.training = true;
+    S.trainAgain = false;
+    const seq = S.strokeSeq, upload = S.up.id;
+    paintStatus("training the classifier…");
+    try {
+      const r = await api(`/api/uploads/${upload}/strokes`, { json: { strokes: encodeStrokes(), phases: S.classes } });
+      if (seq === S.strokeSeq && upload === S.up.id) {
+        S.strokeLabels = Uint8Array.from(atob(r.labels), (ch) => ch.charCodeAt(0));
+        paintStatus(`mean confidence of the classifier: ${(100 * r.confidence_mean).toFixed(1)} %`);
+        $("paint-status").dataset.confidence = r.confidence_mean;
+        $("paint-status").dataset.share = r.annotated_share;
+        if (r.warnings.length) show($("paint-msg"), r.warnings.join(" "), "info");
+      }
+    } catch (e) {
+      if (seq === S.strokeSeq) {
+        S.strokeLabels = null;
+        paintStatus();
+        show($("paint-msg"), e.message, "error");
+      }
+    } finally {
+      S.training = false;
+    }
+    drawOverlay();
+    if (S.trainAgain || seq !== S.strokeSeq) train();
+  }
+  const trainSoon = debounce(train, 300);
+
+  /** Save *blob* as a file called *name* (through a temporary link). */
+  function saveBlob(blob, name) {
+    const url = URL.createObjectURL(blob);
+    const a = el("a", { href: url, download: name, hidden: true });
+    document.body.append(a);
+    a.click();
+    a.remove();
+    setTimeout(() => URL.revokeObjectURL(url), 10000);
+  }
+
+  async function postForFile(path, json) {
+    const resp = await fetch(path, { method: "POST", body: JSON.stringify(json),
+      headers: { "X-Polisect": "1", "Content-Type": "application/json" } });
+    if (!resp.ok) {
+      let message = `${resp.status} ${resp.statusText}`;
+      try { message = (await resp.json()).error || message; } catch (e) { /* not JSON */ }
+      throw new Error(message);
+    }
+    return resp.blob();
+  }
+
+  async function saveModel() {
+    const problem = strokesProblem();
+    if (problem) { show($("paint-msg"), problem, "info"); return; }
+    const btn = $("save-model");
+    btn.disabled = true;
+    paintStatus("training the model on the full image…");
+    try {
+      const blob = await postForFile(`/api/uploads/${S.up.id}/model`, { strokes: encodeStrokes() });
+      saveBlob(blob, `${S.up.stem}_segmenter.npz`);
+      paintStatus(`model saved as ${S.up.stem}_segmenter.npz`);
+    } catch (e) {
+      show($("paint-msg"), e.message, "error");
+      paintStatus();
+    } finally {
+      btn.disabled = false;
+    }
+  }
+
+  async function saveBatch() {
+    const config = runConfig();
+    config.segment = { method: "trained", model: `${S.up.stem}_segmenter.npz` };
+    const problem = phaseProblem(config);
+    if (problem) { show($("paint-msg"), problem, "info"); return; }
+    try {
+      const blob = await postForFile("/api/config", { config, image: S.up.name,
+        command: `polisect batch FOLDER --config ${S.up.stem}_batch.toml` });
+      saveBlob(blob, `${S.up.stem}_batch.toml`);
+    } catch (e) {
+      show($("paint-msg"), e.message, "error");
+    }
   }
 
   // ---------------------------------------------------------------- step 3: phases
@@ -527,7 +942,7 @@
     const st = rowState(label);
     const name = el("input", { type: "text", value: st.name, "aria-label": `Name of class ${label}`,
       placeholder: st.material && !st.own ? st.material : `phase-${label}` });
-    name.addEventListener("input", () => { st.name = name.value.trim(); });
+    name.addEventListener("input", () => { st.name = name.value.trim(); buildPalette(); });
     const particles = el("select", { "aria-label": `Particle statistics for class ${label}` },
       ...[["auto", "auto"], ["yes", "yes"], ["no", "no"]].map(([v, t]) =>
         el("option", { value: v, text: t, selected: st.particles === v })));
@@ -584,6 +999,7 @@
       nameInput.placeholder = st.own || !st.material ? `phase-${label}` : st.material;
       showProps();
       close();
+      buildPalette();
     };
     const render = () => {
       const q = input.value.trim().toLowerCase();
@@ -638,8 +1054,9 @@
     if (px !== "" && px !== $("pixel-size").dataset.fromFile) image.pixel_size_um = Number(px);
     const s = segSettings();
     const segment = S.kind !== "grayscale" ? undefined
-      : S.auto ? { method: "multi-otsu", classes: S.classes, ...s }
-        : { method: "thresholds", thresholds: S.th.slice(), ...s };
+      : S.mode === "strokes" ? { method: "trained" }
+        : S.auto ? { method: "multi-otsu", classes: S.classes, ...s }
+          : { method: "thresholds", thresholds: S.th.slice(), ...s };
     const phase = classList().map((label) => {
       const st = rowState(label);
       const p = { label };
@@ -688,12 +1105,14 @@
     hide($("run-msg"));
     if (!S.up) { show($("run-msg"), "drop an image first (step 1)"); return; }
     const config = runConfig();
-    const problem = phaseProblem(config);
+    const problem = phaseProblem(config) || (S.mode === "strokes" ? strokesProblem() : null);
     if (problem) { show($("run-msg"), problem); return; }
     const btn = $("run");
     btn.disabled = true;
     try {
-      const r = await api("/api/runs", { json: { upload: S.up.id, config } });
+      const body = { upload: S.up.id, config };
+      if (S.mode === "strokes") body.strokes = encodeStrokes();
+      const r = await api("/api/runs", { json: body });
       await openRun(r.id);
       refreshRuns();
     } catch (e) {
@@ -782,7 +1201,8 @@
 
   const DOWNLOAD_LABELS = [["report", "Report", "HTML"], ["json", "Result", "JSON"], ["csv", "Headline numbers", "CSV"],
     ["phasemap", "Phase map", "TIFF"], ["config", "Run config", "TOML"], ["overlay", "Overlay", "PNG"],
-    ["particles", "Particles", "CSV"]];
+    ["particles", "Particles", "CSV"], ["segmenter", "Segmenter model", "NPZ"],
+    ["strokes", "Strokes", "PNG"]];
 
   async function showResult(id, st) {
     const d = await api(`/api/runs/${id}/files/json`);
