@@ -143,7 +143,8 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
                            tol=stiffness_tolerance(tol, criterion) if "expansion" in props
                            else tol, fields=maps and "elasticity" in props,
                            criterion=criterion, start=before.get("elasticity"),
-                           keep_fluctuations=keep_fluctuations)
+                           keep_fluctuations=keep_fluctuations,
+                           field_dtype=np.float32)        # the map is drawn, not computed on
         if keep_fluctuations:
             starts["elasticity"] = replace(stiff, fields=None, phase_strains=None)
         _converged(stiff, "elasticity", warnings)

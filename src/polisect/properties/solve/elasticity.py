@@ -125,7 +125,7 @@ def axial_map(axial: np.ndarray) -> np.ndarray:
 def elasticity(labels, materials: Mapping, *, plane: str = GPS, method: str = "auto",
                tol: float = 1e-6, maxiter: int | None = None, fields=False,
                criterion: str = "energy", start: ElasticityResult | None = None,
-               keep_fluctuations: bool = False) -> ElasticityResult:
+               keep_fluctuations: bool = False, field_dtype=np.float64) -> ElasticityResult:
     """Effective stiffness of a periodic 2D or 3D phase map.
 
     Parameters
@@ -154,6 +154,10 @@ def elasticity(labels, materials: Mapping, *, plane: str = GPS, method: str = "a
         start, `polisect.properties.solve.cg`).
     keep_fluctuations : bool
         Keep the solved fluctuations (float32) to start another solve.
+    field_dtype : numpy dtype
+        Storage of the kept strain and stress fields: float64 (default), or float32 for
+        maps that are only drawn (half the memory of the fields: 56 instead of 112 bytes a
+        pixel and load case in generalized plane strain).
 
     Returns
     -------
@@ -176,15 +180,15 @@ def elasticity(labels, materials: Mapping, *, plane: str = GPS, method: str = "a
     """
     image = phase_image(labels, materials)
     return elastic_result(image, check_plane(plane, image.dim), method, tol, maxiter, fields,
-                          criterion, start, keep_fluctuations)
+                          criterion, start, keep_fluctuations, field_dtype)
 
 
 def elastic_result(image: PhaseImage, plane: str | None, method: str, tol: float,
                    maxiter: int | None, fields, criterion: str = "energy",
                    start: ElasticityResult | None = None,
-                   keep: bool = False) -> ElasticityResult:
-    """`elasticity` on a checked `PhaseImage` (*start*, *keep*: its ``start`` and
-    ``keep_fluctuations``)."""
+                   keep: bool = False, field_dtype=np.float64) -> ElasticityResult:
+    """`elasticity` on a checked `PhaseImage` (*start*, *keep*, *field_dtype*: its
+    ``start``, ``keep_fluctuations`` and ``field_dtype``)."""
     if start is not None and start.plane != plane:
         start = None
     phases = elastic_phases(image, plane, thermal=False)
@@ -208,7 +212,8 @@ def elastic_result(image: PhaseImage, plane: str | None, method: str, tol: float
     strains = np.array([s.phase_means for s in run.solutions])
     if plane != GPS:
         C = run.energy_form(C)
-        out_fields = _fields(cell, phases, grads, loads, names, flags, C, zz_tau=None)
+        out_fields = _fields(cell, phases, grads, loads, names, flags, C, zz_tau=None,
+                             dtype=field_dtype)
         return ElasticityResult(C, plane, SolverFacts.of(run), fields=out_fields,
                                 phase_strains=strains, fluctuations=kept)
     zz = [s.average(axial_map(phases.axial), phases.axial_stiffness if name == "zz" else None,
@@ -224,13 +229,13 @@ def elastic_result(image: PhaseImage, plane: str | None, method: str, tol: float
     condensed = C4[:3, :3] - np.outer(C4[:3, 3], C4[3, :3]) / C4[3, 3] if C4[3, 3] > 0 \
         else C4[:3, :3]
     out_fields = _fields(cell, phases, grads, loads, names, flags, C4,
-                         zz_tau=phases.axial_stiffness)
+                         zz_tau=phases.axial_stiffness, dtype=field_dtype)
     return ElasticityResult(condensed, plane, SolverFacts.of(run, anti_run), prismatic, out_fields,
                             strains, kept, anti_run.fluctuations if keep else None)
 
 
 def _fields(cell: Cell, phases: ElasticPhases, grads: list, loads, names, flags,
-            load_stiffness, zz_tau) -> ElasticFields | None:
+            load_stiffness, zz_tau, dtype=np.float64) -> ElasticFields | None:
     """Strain and stress fields of the kept load cases; each gradient in *grads* is
     dropped from the list once used, and the outputs are filled in place, so the peak
     memory stays near the size of the outputs."""
@@ -239,9 +244,10 @@ def _fields(cell: Cell, phases: ElasticPhases, grads: list, loads, names, flags,
     kept = [i for i, f in enumerate(flags) if f]
     solid = cell.solid
     nv = len(VOIGT_NAMES[cell.dim])
-    strain = np.empty((len(kept), nv) + cell.shape)
-    stress = np.zeros((len(kept), nv) + cell.shape)
-    stress_zz = None if phases.axial is None else np.zeros((len(kept),) + cell.shape)
+    strain = np.empty((len(kept), nv) + cell.shape, dtype=dtype)
+    stress = np.zeros((len(kept), nv) + cell.shape, dtype=dtype)
+    stress_zz = None if phases.axial is None else np.zeros((len(kept),) + cell.shape,
+                                                            dtype=dtype)
     for slot, i in enumerate(kept):
         g = grads[i]
         grads[i] = None
