@@ -86,3 +86,16 @@ def test_confidence_and_band():
     img[100:] = 5
     img[105:110, 10:40] = 250
     assert "information band" in quality.band_warning(img)
+
+
+def test_fine_features():
+    """Pores of radius 2–3 px (a third to half of their pixels on their edge) are flagged:
+    blur shrinks such features by about σ²/R² of their area at any threshold (Russ & Neal
+    2016, partial volume); particles of radius 7 px and their matrix are not (a disc of
+    radius R has about 2/R of its pixels on its edge; common practice, no source)."""
+    small = compose((200, 200), [Inclusions(1, 0.3, 7.0, min_gap=2.0),
+                                 Inclusions(2, 0.04, 2.5, min_gap=2.0)], seed=4,
+                    matrix_label=0).labels
+    found = quality.fine_features_warning(small)
+    assert len(found) == 1 and found[0].startswith("class 2:")
+    assert quality.fine_features_warning(two_phase()) == []
