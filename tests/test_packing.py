@@ -205,3 +205,15 @@ def test_sequential_addition_in_a_periodic_rectangle():
         reach.append(2.0)
         c, _ = grid.find(2.0, max_trials=0)
     assert grid.count >= 3
+
+
+def test_auto_packing_falls_back_when_sequential_addition_jams():
+    """Thirteen unit spheres at a fraction of 0.317 in a box 2.7 diameters wide: random
+    sequential addition jams (12 placed; found by the property test above), the automatic
+    choice then rearranges collectively and returns a hard-sphere packing (construction)."""
+    radii, box = np.ones(13), 5.410819978631982
+    with pytest.raises(InputError, match="jammed"):
+        pack_spheres(radii, box, seed=0, method="rsa")
+    p = pack_spheres(radii, box, seed=0)
+    assert p.method == "collective-rearrangement" and p.min_gap() >= 0
+    assert brute_min_gap(p.centres, p.radii, box) >= 0

@@ -500,7 +500,8 @@ def pack_spheres(radii, box: float, *, seed, gap: float = 0.0,
         Smallest surface-to-surface distance.
     method : {"auto", "rsa", "collective-rearrangement"}
         ``"auto"``: random sequential addition (`rsa_pack`) up to a total fraction of
-        `RSA_LIMIT`, collective rearrangement (`collective_pack`) above.
+        `RSA_LIMIT`, collective rearrangement (`collective_pack`) above, and also below
+        it when the addition jams (a box only a few diameters wide can jam at 0.3).
 
     Returns
     -------
@@ -513,7 +514,12 @@ def pack_spheres(radii, box: float, *, seed, gap: float = 0.0,
     """
     _, fraction = _check(radii, box, gap)
     if method == "auto":
-        method = "rsa" if fraction <= RSA_LIMIT else "collective-rearrangement"
+        if fraction <= RSA_LIMIT:
+            try:
+                return rsa_pack(radii, box, seed=seed, gap=gap)
+            except InputError:          # jammed early: a box only a few diameters wide
+                pass
+        method = "collective-rearrangement"
     if method == "rsa":
         return rsa_pack(radii, box, seed=seed, gap=gap)
     if method == "collective-rearrangement":
