@@ -112,6 +112,19 @@ def test_cli_compare(tmp_path, capsys):
     assert main(["compare", str(tmp_path / "missing")]) == 2
 
 
+
+def test_cli_compare_says_when_no_test_between_batches_is_possible(tmp_path, capsys):
+    """One section in a batch: no test between batches can run (a variance needs two
+    sections), and the console says so instead of an empty findings list (common practice,
+    no source)."""
+    for folder, n in (("A", 2), ("B", 1)):
+        (tmp_path / folder).mkdir()
+        for i in range(n):
+            _write_result(tmp_path / folder / f"s{i}.json", f"s{i}.tif", 0.3, 10.0 + i)
+    assert main(["compare", str(tmp_path / "A"), str(tmp_path / "B"), "--out",
+                 str(tmp_path / "cmp.html")]) == 0
+    assert "none: a test between batches needs at least two sections" in capsys.readouterr().err
+
 def _lots():
     rng = np.random.default_rng(7)
     out = []

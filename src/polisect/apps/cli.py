@@ -545,7 +545,11 @@ def _run_compare(args) -> int:
     if not args.quiet:
         lines.append("findings (fractions in percentage points, other quantities in % of the "
                      "first batch; ± = 95 % interval), significant first:")
-        for q in comparison.grouped():
+        groups = comparison.grouped()
+        if not groups:
+            lines.append("  none: a test between batches needs at least two sections in each "
+                         "of two batches")
+        for q in groups:
             mark = ("differs between batches" if q.significant
                     else "no significant difference between batches")
             if q.outliers:
