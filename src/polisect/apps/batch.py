@@ -473,7 +473,7 @@ def _local_results(tasks: list[Task], settings: Settings, jobs: int, work=analyz
     todo = list(tasks)
     careful = 0
     while todo:
-        pool = _pool(1 if careful else jobs, threads)
+        pool = worker_pool(1 if careful else jobs, threads)
         try:
             if careful:
                 while todo and careful:
@@ -507,10 +507,11 @@ def _local_results(tasks: list[Task], settings: Settings, jobs: int, work=analyz
             pool.shutdown(wait=False, cancel_futures=True)
 
 
-def _pool(jobs: int, threads: int):
-    """A process pool. Where the platform has it, workers fork from a server process that
-    imported the pipeline once (``forkserver``): later pools and restarted workers start
-    warm. Elsewhere they are spawned afresh."""
+def worker_pool(jobs: int, threads: int):
+    """A process pool of *jobs* workers with *threads* threads each. Where the platform has
+    it, workers fork from a server process that imported the pipeline once
+    (``forkserver``): later pools and restarted workers start warm. Elsewhere they are
+    spawned afresh. Each worker dies with this process."""
     if "forkserver" in multiprocessing.get_all_start_methods():
         ctx = multiprocessing.get_context("forkserver")
         ctx.set_forkserver_preload(["polisect.apps.run"])

@@ -291,22 +291,13 @@ def _add_demo(sub):
 
 
 def _run_demo(args) -> int:
-    from ..present.record import headline
     from ..present.units import show
-    from ..read.config import load_config
-    from .run import run_section
-    from .samples import demo_sections
+    from .demo import run_demo
 
     progress = _Progress(args.quiet)
-    written = []
     print(f"Writing the demo into {os.path.abspath(args.out)} (choose with --out)",
           file=sys.stderr, flush=True)
-    for section in demo_sections():
-        progress(f"demo: {section.title}")
-        cfg = load_config(section.config)
-        analysis, paths = run_section(section.image, cfg, os.path.join(args.out, section.group),
-                                      progress=progress)
-        written.append((section.title, headline(analysis.result), paths.report))
+    written = [(d.title, d.row, d.report) for d in run_demo(args.out, progress=progress)]
     print("Demo: sections of the fictional Kestrel Foundry Supply's two product lines")
     print("(2D sections solved as prismatic structures, generalized plane strain)\n")
     for title, row, report in written:
