@@ -15,7 +15,8 @@ from concurrent.futures import as_completed
 from dataclasses import dataclass
 from typing import Callable
 
-from .samples import SampleSection, demo_sections
+from . import samples
+from .samples import SampleSection
 
 
 @dataclass(frozen=True)
@@ -65,7 +66,7 @@ def run_demo(out: str, progress: Callable[[str], None] | None = None,
         In the order of `polisect.apps.samples.demo_sections`.
     """
     say = progress or (lambda msg: None)
-    sections = demo_sections()
+    sections = samples.demo_sections()
     cores = os.cpu_count() or 1
     jobs = max(1, min(len(sections), cores) if jobs is None else jobs)
     if jobs == 1:
