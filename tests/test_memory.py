@@ -85,3 +85,28 @@ def test_check_analysis_names_the_step_that_does_not_fit(monkeypatch):
         guard.check_analysis((1024, 1024), ["elasticity"])
     with pytest.raises(InputError, match="3D estimate"):
         guard.check_analysis((256, 256), ["conductivity"], voxels=400)
+
+
+def test_warm_starts_are_counted_before_solving():
+    """The kept fluctuations (float32, every load case and component) add to the solve's
+    estimate: 2048×1536 generalized plane strain keeps 10 values a pixel, about 126 MB,
+    the figure of the warm-start docs (25 MB per load case of 2 components; construction)."""
+    shape = (1536, 2048)
+    assert guard.starts_bytes(shape, ["elasticity"]) == 4.0 * 10 * 1536 * 2048
+    assert guard.starts_bytes(shape, ["conductivity"]) == 4.0 * 2 * 1536 * 2048
+    assert guard.starts_bytes((64,) * 3, ["expansion"]) == 4.0 * 18 * 64 ** 3
+
+
+def test_kept_starts_can_tip_a_solve_over(monkeypatch):
+    """A solve that just fits is refused when its fluctuations must also be kept
+    (temperatures, the budget's segmentation term): common practice, no source."""
+    import pytest
+
+    from polisect import InputError
+    from polisect.core import memory
+
+    need = guard.solve_bytes((1024, 1024), "elasticity")
+    monkeypatch.setattr(memory, "available_bytes", lambda: int(need * 1.01))
+    guard.check_solves((1024, 1024), ["elasticity"])
+    with pytest.raises(InputError, match="solving elasticity"):
+        guard.check_solves((1024, 1024), ["elasticity"], keep_starts=True)

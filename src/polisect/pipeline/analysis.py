@@ -117,7 +117,8 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
     check_analysis(micro.data.shape[:2] if micro.is_rgb else micro.data.shape,
                    cfg.solve.properties if cfg.phases else (), cfg.solve.method,
                    cfg.solve.fields,
-                   cfg.solve.voxels if cfg.solve.estimate_3d and cfg.phases else None)
+                   cfg.solve.voxels if cfg.solve.estimate_3d and cfg.phases else None,
+                   keep_starts=bool(cfg.solve.temperatures_C) or _segmentation_term(cfg))
     say("building the phase map")
     phasemap, thresholds, seg_notes, seg_warnings, segmentation, model = clock(
         "segment", _phasemap, micro, cfg)

@@ -39,13 +39,29 @@ def solve_bytes(shape: tuple[int, ...], prop: str, method: str = "auto",
     return peak + (2 * 8.0 * n * nv if fields else 0.0)
 
 
+def starts_bytes(shape: tuple[int, ...], properties) -> float:
+    """Bytes of the solved fluctuations kept as warm starts (float32, every load case and
+    component: 2D conduction 2 values a pixel, generalized plane strain 4 × 2 + 2
+    antiplane, 3D conduction 3, 3D stiffness 6 × 3)."""
+    n, dim = float(np.prod(shape)), len(shape)
+    values = 0
+    if "conductivity" in properties:
+        values += dim
+    if "elasticity" in properties or "expansion" in properties:
+        values += 10 if dim == 2 else 18
+    return 4.0 * n * values
+
+
 def check_solves(shape: tuple[int, ...], properties, method: str = "auto",
-                 fields: bool = True) -> None:
+                 fields: bool = True, keep_starts: bool = False) -> None:
     """Refuse before solving when the largest of the solves of *properties* on a map of
-    *shape* does not fit (the solves run one after another)."""
+    *shape* does not fit (the solves run one after another), with the fluctuations kept
+    as warm starts (temperatures, the budget's segmentation term) when *keep_starts*."""
     if not properties:
         return
     need = max(solve_bytes(shape, p, method, fields) for p in properties)
+    if keep_starts:
+        need += starts_bytes(shape, properties)
     size = "×".join(str(s) for s in shape)
     advice = ("use [solve] method = \"fft\" (it needs far less memory)" if method == "fe" else
               "crop the image or downsample it, or ask for fewer [solve] properties")
@@ -74,14 +90,16 @@ def check_estimate_3d(voxels: int, properties, method: str = "auto") -> None:
 
 
 def check_analysis(shape: tuple[int, ...], properties=(), method: str = "auto",
-                   fields: bool = True, voxels: int | None = None) -> None:
+                   fields: bool = True, voxels: int | None = None,
+                   keep_starts: bool = False) -> None:
     """Every check of an analysis in one call, before any work on the image read: the phase
     map and measurements, each solve on the map of *shape*, and with *voxels* the 3D
-    estimate. Raises `InputError` with the figure and what to change."""
+    estimate; *keep_starts*: the solves' fluctuations are kept as warm starts. Raises
+    `InputError` with the figure and what to change."""
     size = "×".join(str(s) for s in shape)
     memory.check_fits(memory.phasemap_bytes(int(np.prod(shape))),
                       f"segmenting the {size}-pixel image",
                       "crop a region of interest or downsample it")
-    check_solves(shape, tuple(properties), method, fields)
+    check_solves(shape, tuple(properties), method, fields, keep_starts)
     if voxels is not None:
         check_estimate_3d(voxels, tuple(properties), method)
