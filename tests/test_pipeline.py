@@ -334,3 +334,23 @@ def test_segmentation_term_started_from_the_analysis_solve_equals_a_cold_one(mon
         w, c = warm[key].components["segmentation"], cold[key].components["segmentation"]
         assert w is not None and c is not None
         assert w == pytest.approx(c, rel=0.03)
+
+
+def test_solve_keeps_only_the_starts_asked_for():
+    """`solve_effective(keep_fluctuations=("conductivity",))` keeps the conductivity's
+    fluctuations only (what the default segmentation term uses), True keeps every solve's
+    (construction)."""
+    from polisect.core.materials import get_material
+    from polisect.core.phasemap import Phase, PhaseMap
+    from polisect.properties.effective import solve_effective
+
+    labels = compose((48, 48), [Inclusions(1, 0.3, 5.0, min_gap=1.0)], seed=2,
+                     matrix_label=0).labels
+    pm = PhaseMap(labels, (Phase(0, "matrix", get_material("mullite")),
+                           Phase(1, "spheres", get_material("alumina"))))
+    props = ["conductivity", "elasticity"]
+    assert set(solve_effective(pm, props, maps=False,
+                               keep_fluctuations=("conductivity",)).starts) == {"conductivity"}
+    assert set(solve_effective(pm, props, maps=False,
+                               keep_fluctuations=True).starts) == {"conductivity", "elasticity"}
+    assert not solve_effective(pm, props, maps=False).starts

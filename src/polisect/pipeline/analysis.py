@@ -724,11 +724,20 @@ def _effective(phasemap: PhaseMap, cfg: Config, say: Progress, warnings: list, n
         return None
     solved = solve_effective(phasemap, props, method=cfg.solve.method, tol=cfg.solve.tolerance,
                              plane=cfg.solve.plane, maps=cfg.solve.fields, progress=say,
-                             keep_fluctuations=(bool(cfg.solve.temperatures_C)
-                                                or _segmentation_term(cfg)))
+                             keep_fluctuations=_kept_starts(cfg))
     warnings.extend(solved.warnings)
     warnings.extend(f"effective properties refused: {why}" for why in solved.refused)
     return solved
+
+
+def _kept_starts(cfg: Config):
+    """Which solves keep their fluctuations as warm starts: every one for the temperatures
+    or the segmentation term of every property, the conductivity's for the default
+    segmentation term, none otherwise."""
+    if cfg.solve.temperatures_C or (_segmentation_term(cfg)
+                                    and cfg.uncertainty.segmentation == "all"):
+        return True
+    return ("conductivity",) if _segmentation_term(cfg) else ()
 
 
 def _segmentation_term(cfg: Config) -> bool:

@@ -70,7 +70,7 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
                     tol: float = 1e-6, plane: str = "generalized-plane-strain",
                     maps: bool = True, progress: Callable[[str], None] | None = None,
                     criterion: str = "energy", start: Solved | None = None,
-                    keep_fluctuations: bool = False) -> Solved:
+                    keep_fluctuations=False) -> Solved:
     """Run the solvers asked for on a phase map.
 
     Parameters
@@ -95,9 +95,9 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
         A solve of the same labels with other phase properties (another temperature) made
         with *keep_fluctuations*: its fluctuations start the solvers (warm start,
         `polisect.properties.solve.cg`; same answer to *tol*, fewer iterations).
-    keep_fluctuations : bool
+    keep_fluctuations : bool or collection of {'conductivity', 'elasticity'}
         Keep the solved fluctuations in ``Solved.starts`` (float32: about 4 bytes per pixel,
-        load case and component).
+        load case and component): of every solve (True), or of the physics named.
 
     Returns
     -------
@@ -115,6 +115,8 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
     fractions = fractions_of(labels)
     before = start.starts if start is not None else {}
     starts: dict = {}
+    keep = ({"conductivity", "elasticity"} if keep_fluctuations is True
+            else set(keep_fluctuations or ()))
 
     def sane(result) -> bool:
         """Warnings of the sanity checks kept; False when the result must be refused."""
@@ -127,8 +129,8 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
         say("solving for the effective conductivity")
         c = conductivity(labels, mats, method=method, tol=tol, fields=["x"] if maps else False,
                          criterion=criterion, start=before.get("conductivity"),
-                         keep_fluctuations=keep_fluctuations)
-        if keep_fluctuations:
+                         keep_fluctuations="conductivity" in keep)
+        if "conductivity" in keep:
             starts["conductivity"] = replace(c, fields=None)
         _converged(c, "conductivity", warnings)
         if sane(c):
@@ -143,9 +145,9 @@ def solve_effective(phasemap: PhaseMap, properties, *, method: str = "auto",
                            tol=stiffness_tolerance(tol, criterion) if "expansion" in props
                            else tol, fields=maps and "elasticity" in props,
                            criterion=criterion, start=before.get("elasticity"),
-                           keep_fluctuations=keep_fluctuations,
+                           keep_fluctuations="elasticity" in keep,
                            field_dtype=np.float32)        # the map is drawn, not computed on
-        if keep_fluctuations:
+        if "elasticity" in keep:
             starts["elasticity"] = replace(stiff, fields=None, phase_strains=None)
         _converged(stiff, "elasticity", warnings)
     stiff_ok = stiff is not None and sane(stiff)
