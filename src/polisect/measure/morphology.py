@@ -7,8 +7,9 @@
   them (`PhaseParticles`), combining `polisect.measure.particles`, `polisect.measure.sizestats` and
   `polisect.measure.stereology`: the one particle path of the package (the report, the
   schemes and the 3D estimate all read it).
-* `phase_particle_labels`, `particle_holes`, `particle_cores`: the particles of a phase mask,
-  their holes, and the cores of hollow particles (open ones at the border included).
+* `phase_particle_labels`, `particle_holes`, `particle_cores`, `cores_of_others`: the
+  particles of a phase mask, their holes, and the cores of hollow particles (open ones at
+  the border included).
 
 A section is cut into a grid of equal fields; the spread of a phase's fraction over the
 fields gives its 95 % confidence interval with Student's t for n − 1 degrees of freedom, as
@@ -422,6 +423,31 @@ def particle_cores(labels: np.ndarray, particles: dict) -> dict:
                     cores[host][sl] |= own
                     break
     return cores
+
+
+def cores_of_others(cores: dict, phase: int, shape: tuple[int, ...]) -> np.ndarray:
+    """The union of the cores of every phase's particles but *phase*'s own (the pixels
+    that belong to other phases' hollow particles, not to particles of *phase*).
+
+    Parameters
+    ----------
+    cores : dict label → ndarray of bool
+        `particle_cores`.
+    phase : int
+    shape : tuple of int
+        Shape of the section (the answer for no other cores).
+
+    Examples
+    --------
+    >>> a = np.array([[True, False]]); b = np.array([[False, True]])
+    >>> cores_of_others({1: a, 2: b}, 1, (1, 2)).tolist()
+    [[False, True]]
+    """
+    out = np.zeros(shape, bool)
+    for host, mask in cores.items():
+        if host != phase:
+            out |= mask
+    return out
 
 
 def _within(inner: tuple, outer: tuple) -> bool:

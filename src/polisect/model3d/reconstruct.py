@@ -41,7 +41,8 @@ from ..core.errors import InputError
 from .packing import SpherePacking, pack_spheres, rasterize
 from ..core.materials import Material
 from ..core.phasemap import Phase, PhaseMap
-from ..measure.morphology import particle_cores, phase_particle_labels, phase_particles
+from ..measure.morphology import (cores_of_others, particle_cores, phase_particle_labels,
+                                  phase_particles)
 from ..properties.records import (Conductivity, Effective, Elasticity, Expansion, Solver, Spread,
                                   scalar)
 from .summary import (Estimate3DRecord, FamilyRecord, PackingRecord, Versus2D, VolumeRecord)
@@ -235,10 +236,7 @@ def section_statistics(labels: np.ndarray, pixel_size_um: float | None = None, *
     warnings: list[str] = []
     families = []
     for p in others:
-        foreign = np.zeros(labels.shape, bool)
-        for q in others:
-            if q != p:
-                foreign |= holes[q]
+        foreign = cores_of_others(holes, p, labels.shape)
         fam = _family(phasemap, p, foreign, holes[p] & ~foreign, warnings,
                       None if (foreign & (labels == p)).any() else particles[p])
         if fam is not None:

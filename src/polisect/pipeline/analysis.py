@@ -27,8 +27,9 @@ from ..core.errors import InputError
 from ..core.materials import Material
 from ..core.phasemap import Phase, PhaseMap
 from ..core.quantities import SCALAR_COLUMNS, SOLVED_COLUMNS, fraction_column
-from ..measure.morphology import (enclosed_fractions, field_fractions, particle_cores,
-                                  particle_phases, phase_particles)
+from ..measure.morphology import (cores_of_others, enclosed_fractions, field_fractions,
+                                  particle_cores, particle_phases, phase_particle_labels,
+                                  phase_particles)
 from ..measure.summary import (summarize_correlation, summarize_particles,
                                summarize_volume_particles)
 from ..properties.records import Effective, scalar, value_of
@@ -921,18 +922,16 @@ def _particles(phasemap: PhaseMap, cfg: Config, say: Progress, notes: list):
     from ..measure.particles3d import volume_particles
     from ..measure.stereology import two_point_correlation
 
-    measured = []
-    for p in particle_phases(phasemap):
-        pc = cfg.phase(p.label)
-        split = bool(pc and pc.split_touching)
-        if phasemap.ndim == 2:
-            say(f"measuring particles of {p.name}")
-            measured.append(phase_particles(phasemap, p.label, split_touching=split))
-        else:
-            say(f"measuring particles of {p.name} in 3D")
-            measured.append(volume_particles(phasemap, p.label, split_touching=split))
+    phases = particle_phases(phasemap)
+    split = {p.label: bool(cfg.phase(p.label) and cfg.phase(p.label).split_touching)
+             for p in phases}
     if phasemap.ndim == 2:
-        measured = _without_cores(phasemap, cfg, measured, say, notes)
+        measured = _section_particles(phasemap, phases, split, say, notes)
+    else:
+        measured = []
+        for p in phases:
+            say(f"measuring particles of {p.name} in 3D")
+            measured.append(volume_particles(phasemap, p.label, split_touching=split[p.label]))
     summaries = {pp.name: (summarize_particles(pp) if phasemap.ndim == 2
                            else summarize_volume_particles(pp)) for pp in measured}
     if phasemap.ndim != 2:
@@ -945,30 +944,27 @@ def _particles(phasemap: PhaseMap, cfg: Config, say: Progress, notes: list):
     return tuple(measured), summaries, correlations
 
 
-def _without_cores(phasemap: PhaseMap, cfg: Config, measured: list, say: Progress,
-                   notes: list) -> list:
-    """The particles of every phase measured again without the cores of other phases'
-    particles (the pores inside hollow spheres are part of those particles, as in the
-    schemes and the 3D estimate, not pores of their own); unchanged phases kept."""
-    particles = {pp.label: pp.particle_labels for pp in measured}
-    cores = particle_cores(phasemap.labels, particles)
+def _section_particles(phasemap: PhaseMap, phases, split: dict, say: Progress,
+                       notes: list) -> list:
+    """The particles of every particle phase of a section, each measured without the cores
+    of other phases' particles (the pores inside hollow spheres are part of those
+    particles, as in the schemes and the 3D estimate, not pores of their own)."""
+    labels = phasemap.labels
+    particles = {p.label: phase_particle_labels(labels == p.label, split[p.label])
+                 for p in phases}
+    cores = particle_cores(labels, particles)
     out = []
-    for pp in measured:
-        foreign = np.zeros(phasemap.shape, bool)
-        for host, mask in cores.items():
-            if host != pp.label:
-                foreign |= mask
-        foreign &= phasemap.labels == pp.label
-        if not foreign.any():
-            out.append(pp)
-            continue
-        say(f"measuring particles of {pp.name} outside the cores of hollow particles")
-        notes.append(f"particles: {pp.name} measured outside the cores of other phases' "
-                     f"particles ({foreign.mean():.3g} of the section left out: they belong "
-                     "to the hollow particles, as in the schemes and the 3D estimate)")
-        pc = cfg.phase(pp.label)
-        out.append(phase_particles(phasemap, pp.label, exclude=foreign,
-                                   split_touching=bool(pc and pc.split_touching)))
+    for p in phases:
+        foreign = cores_of_others(cores, p.label, labels.shape) & (labels == p.label)
+        say(f"measuring particles of {p.name}")
+        if foreign.any():
+            notes.append(f"particles: {p.name} measured outside the cores of other phases' "
+                         f"particles ({foreign.mean():.3g} of the section left out: they "
+                         "belong to the hollow particles, as in the schemes and the 3D "
+                         "estimate)")
+        out.append(phase_particles(phasemap, p.label, split_touching=split[p.label],
+                                   exclude=foreign if foreign.any() else None,
+                                   labelled=None if foreign.any() else particles[p.label]))
     return out
 
 
