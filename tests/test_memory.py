@@ -110,3 +110,15 @@ def test_kept_starts_can_tip_a_solve_over(monkeypatch):
     guard.check_solves((1024, 1024), ["elasticity"])
     with pytest.raises(InputError, match="solving elasticity"):
         guard.check_solves((1024, 1024), ["elasticity"], keep_starts=True)
+
+
+def test_only_the_starts_kept_are_counted(monkeypatch):
+    """Keeping the conductivity's fluctuations only (the budget's default segmentation
+    term) adds their bytes alone: a stiffness solve that fits with them is not refused for
+    the stiffness fluctuations it does not keep (construction)."""
+    from polisect.core import memory
+
+    shape = (1024, 1024)
+    need = guard.solve_bytes(shape, "elasticity") + guard.starts_bytes(shape, ["conductivity"])
+    monkeypatch.setattr(memory, "available_bytes", lambda: int(need * 1.01))
+    guard.check_solves(shape, ["conductivity", "elasticity"], keep_starts=("conductivity",))

@@ -119,7 +119,7 @@ def analyze(source, config: Config | None = None, *, pixel_size_um: float | None
                    cfg.solve.properties if cfg.phases else (), cfg.solve.method,
                    cfg.solve.fields,
                    cfg.solve.voxels if cfg.solve.estimate_3d and cfg.phases else None,
-                   keep_starts=bool(cfg.solve.temperatures_C) or _segmentation_term(cfg))
+                   keep_starts=_kept_starts(cfg))
     say("building the phase map")
     phasemap, thresholds, seg_notes, seg_warnings, segmentation, model = clock(
         "segment", _phasemap, micro, cfg)

@@ -53,15 +53,18 @@ def starts_bytes(shape: tuple[int, ...], properties) -> float:
 
 
 def check_solves(shape: tuple[int, ...], properties, method: str = "auto",
-                 fields: bool = True, keep_starts: bool = False) -> None:
+                 fields: bool = True, keep_starts=False) -> None:
     """Refuse before solving when the largest of the solves of *properties* on a map of
     *shape* does not fit (the solves run one after another), with the fluctuations kept
-    as warm starts (temperatures, the budget's segmentation term) when *keep_starts*."""
+    as warm starts (temperatures, the budget's segmentation term): of every solve when
+    *keep_starts* is True, of the properties it names when it is a collection (as
+    `polisect.properties.effective.solve_effective`'s ``keep_fluctuations``)."""
     if not properties:
         return
     need = max(solve_bytes(shape, p, method, fields) for p in properties)
     if keep_starts:
-        need += starts_bytes(shape, properties)
+        need += starts_bytes(shape, [p for p in properties
+                                     if keep_starts is True or p in keep_starts])
     size = "×".join(str(s) for s in shape)
     advice = ("use [solve] method = \"fft\" (it needs far less memory)" if method == "fe" else
               "crop the image or downsample it, or ask for fewer [solve] properties")
@@ -91,10 +94,11 @@ def check_estimate_3d(voxels: int, properties, method: str = "auto") -> None:
 
 def check_analysis(shape: tuple[int, ...], properties=(), method: str = "auto",
                    fields: bool = True, voxels: int | None = None,
-                   keep_starts: bool = False) -> None:
+                   keep_starts=False) -> None:
     """Every check of an analysis in one call, before any work on the image read: the phase
     map and measurements, each solve on the map of *shape*, and with *voxels* the 3D
-    estimate; *keep_starts*: the solves' fluctuations are kept as warm starts. Raises
+    estimate; *keep_starts*: the solves' fluctuations kept as warm starts (see
+    `check_solves`). Raises
     `InputError` with the figure and what to change."""
     size = "×".join(str(s) for s in shape)
     memory.check_fits(memory.phasemap_bytes(int(np.prod(shape))),
