@@ -98,11 +98,16 @@ def agreement(computed: float, measured: float, uncertainty: float | None) -> st
     if not uncertainty:
         diff = 100.0 * (computed - measured) / abs(measured) if measured else float("nan")
         return f"differs by {diff:+.1f} % (no uncertainty given for the measurement)"
-    z = (computed - measured) / uncertainty
+    return _z_words((computed - measured) / uncertainty, "standard uncertaint")
+
+
+def _z_words(z: float, unit: str) -> str:
+    """*z* in whole multiples of an uncertainty; *unit* is its name without the ending
+    ('standard uncertaint' → 'standard uncertainty' / 'uncertainties')."""
     for k in (1, 2, 3):
         if abs(z) <= k:
-            return f"agrees within {k} standard uncertaint{'y' if k == 1 else 'ies'}"
-    return f"differs by {abs(z):.1f} standard uncertainties ({'above' if z > 0 else 'below'})"
+            return f"agrees within {k} {unit}{'y' if k == 1 else 'ies'}"
+    return f"differs by {abs(z):.1f} {unit}ies ({'above' if z > 0 else 'below'})"
 
 
 def compare_measured(measured, by_temperature: dict[float, Effective],
@@ -153,10 +158,15 @@ def _nearest(by_temperature: dict[float, Effective], temperature: float,
              name: str) -> float | None:
     """The scalar *name* of the effective properties solved within `MATCH_K` of
     *temperature*, or None."""
+    eff = _solved_at(by_temperature, temperature)
+    return None if eff is None else scalar(eff, name)
+
+
+def _solved_at(by_temperature: Mapping[float, Effective], temperature: float
+               ) -> Effective | None:
+    """The effective properties solved nearest *temperature*, if within `MATCH_K`."""
     at = min(by_temperature, key=lambda t: abs(t - temperature), default=None)
-    if at is None or abs(at - temperature) > MATCH_K:
-        return None
-    return scalar(by_temperature[at], name)
+    return None if at is None or abs(at - temperature) > MATCH_K else by_temperature[at]
 
 
 def _verdict(m, section, e3, lower, upper, by_temperature) -> str:
@@ -303,10 +313,9 @@ def _nearest_spread(by_temperature: Mapping[float, Effective], temperature: floa
                     name: str) -> Spread | None:
     """`_nearest` for a 3D estimate: the `Spread` of the scalar (a plain number becomes a
     spread of one value)."""
-    at = min(by_temperature, key=lambda t: abs(t - temperature), default=None)
-    if at is None or abs(at - temperature) > MATCH_K:
+    eff = _solved_at(by_temperature, temperature)
+    if eff is None:
         return None
-    eff = by_temperature[at]
     block, attr = SCALARS[name]
     x = getattr(getattr(eff, block), attr) if getattr(eff, block) is not None else None
     if x is None or isinstance(x, Spread):
@@ -343,9 +352,4 @@ def _z(mean: float | None, se: float | None, m) -> float | None:
 def _words(z: float | None, mean: float, m) -> str:
     if z is None:
         return agreement(mean, m.value, None)
-    for k in (1, 2, 3):
-        if abs(z) <= k:
-            return (f"agrees within {k} combined standard uncertaint"
-                    f"{'y' if k == 1 else 'ies'}")
-    return (f"differs by {abs(z):.1f} combined standard uncertainties "
-            f"({'above' if z > 0 else 'below'})")
+    return _z_words(z, "combined standard uncertaint")
