@@ -37,7 +37,8 @@ from ..core.atomic import atomic_write_text
 from .batch import Grouping, measured_of, read_manifest
 from ..core.errors import InputError
 from ..present.htmlkit import CAUTION_MANY_SECTION, PALETTE, figure_png, grid, new_axes, page
-from ..core.quantities import fraction_column, quantity_keys
+from ..core.quantities import (ESTIMATE_3D_COLUMNS, SCALAR_COLUMNS, fraction_column,
+                                quantity_keys)
 from ..present.record import SCHEMA, headline, plain, read_result, whole_image_variances
 from ..present.units import (column_words, kind_of, number, scale_of, with_uncertainty,
                              with_unit)
@@ -415,14 +416,13 @@ def _compare_quantity(sections, batches, key, alpha) -> QuantityComparison:
 
 # ----------------------------------------------------------------- specification limits
 
-SPEC_ALIASES = {"k": "conductivity_W_mK", "conductivity": "conductivity_W_mK",
-                "E": "youngs_modulus_GPa", "youngs_modulus": "youngs_modulus_GPa",
-                "nu": "poisson_ratio", "poisson_ratio": "poisson_ratio",
-                "K": "bulk_modulus_GPa", "bulk_modulus": "bulk_modulus_GPa",
-                "G": "shear_modulus_GPa", "shear_modulus": "shear_modulus_GPa",
-                "alpha": "expansion_per_K", "expansion": "expansion_per_K",
-                "k_3d": "conductivity_3d_W_mK", "E_3d": "youngs_modulus_3d_GPa",
-                "alpha_3d": "expansion_3d_per_K"}
+_SPEC_SHORT = {"k": "conductivity", "E": "youngs_modulus", "nu": "poisson_ratio",
+               "K": "bulk_modulus", "G": "shear_modulus", "alpha": "expansion"}
+_COLUMN_OF = {name: column for column, name in SCALAR_COLUMNS.items()}
+SPEC_ALIASES = {**{short: _COLUMN_OF[name] for short, name in _SPEC_SHORT.items()},
+                **_COLUMN_OF,
+                **{f"{short}_3d": ESTIMATE_3D_COLUMNS[name] for short, name in _SPEC_SHORT.items()
+                   if name in ESTIMATE_3D_COLUMNS}}
 """Short names a specification may use → headline column."""
 
 PORE_NAMES = ("pore", "pores", "porosity", "air", "void")

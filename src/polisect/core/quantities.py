@@ -29,6 +29,11 @@ SCALAR_COLUMNS = {"conductivity_W_mK": "conductivity", "youngs_modulus_GPa": "yo
 """Headline column of an effective property → the name of its isotropic scalar
 (`polisect.properties.records.SCALARS`)."""
 
+ESTIMATE_3D_COLUMNS = {"conductivity": "conductivity_3d_W_mK",
+                       "youngs_modulus": "youngs_modulus_3d_GPa",
+                       "expansion": "expansion_3d_per_K"}
+"""Isotropic scalar of the 3D estimate → its headline column."""
+
 SOLVED_COLUMNS = {"conductivity": "conductivity_W_mK", "elasticity": "youngs_modulus_GPa",
                   "expansion": "expansion_per_K"}
 """Solved property → the headline column of its isotropic value."""

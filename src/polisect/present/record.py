@@ -26,7 +26,7 @@ import numpy as np
 from ..core.atomic import atomic_write_text
 from ..core.errors import InputError
 from ..core.materials import Material
-from ..core.quantities import fraction_column
+from ..core.quantities import ESTIMATE_3D_COLUMNS, fraction_column
 from ..measure.summary import (Correlation, ParticleSummary, SizeQuantiles, SphereSizes,
                                VolumeParticleSummary)
 from ..model3d.summary import (Estimate3DRecord, FamilyRecord, PackingRecord, Versus2D,
@@ -568,7 +568,7 @@ units: `polisect.core.quantities`)."""
 
 _MODEL_COLUMNS = ("conductivity_W_mK", "youngs_modulus_GPa", "poisson_ratio",
                   "bulk_modulus_GPa", "shear_modulus_GPa", "expansion_per_K")
-_COLUMNS_3D = ("conductivity_3d_W_mK", "youngs_modulus_3d_GPa", "expansion_3d_per_K")
+_COLUMNS_3D = tuple(ESTIMATE_3D_COLUMNS.values())
 
 
 def _e3(r: Result) -> Effective | None:
